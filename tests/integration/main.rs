@@ -1,0 +1,3 @@
+//! Verification of the physics core against published analytical solutions.
+
+mod verification;

@@ -1,0 +1,52 @@
+use emberfit::physics::conduction::{heat_with_constant_flux, InertSlab};
+use std::f64::consts::PI;
+
+const K_W_M_K: f64 = 0.2;
+const RHO_KG_M3: f64 = 1200.0;
+const C_J_KG_K: f64 = 1500.0;
+const T0_K: f64 = 300.0;
+
+fn slab(thickness_m: f64, n_cells: usize) -> InertSlab {
+    InertSlab {
+        thickness_m,
+        density_kg_m3: RHO_KG_M3,
+        conductivity_w_m_k: K_W_M_K,
+        specific_heat_j_kg_k: C_J_KG_K,
+        initial_temperature_k: T0_K,
+        n_cells,
+    }
+}
+
+/// Carslaw & Jaeger, Conduction of Heat in Solids, 2nd ed. (1959): semi-infinite inert solid,
+/// constant absorbed flux, no losses: T_s − T_0 = (2q/k)·√(αt/π).
+#[test]
+fn carslaw_jaeger_1959_semi_infinite_constant_flux() {
+    let q = 20e3;
+    let t = 60.0;
+    let alpha = K_W_M_K / (RHO_KG_M3 * C_J_KG_K);
+    // 50 mm is many penetration depths (√(αt) ≈ 2.6 mm), so the slab acts semi-infinite.
+    let state = heat_with_constant_flux(&slab(0.05, 500), q, t, 2000).unwrap();
+    let expected_k = T0_K + (2.0 * q / K_W_M_K) * (alpha * t / PI).sqrt();
+    // 1 %: the contract's tolerance (physics.md §2); backward Euler's error here is well inside it.
+    let rise_error = (state.surface_temperature_k - expected_k).abs() / (expected_k - T0_K);
+    assert!(
+        rise_error <= 1e-2,
+        "surface {} vs {}",
+        state.surface_temperature_k,
+        expected_k
+    );
+}
+
+/// Carslaw & Jaeger (1959): finite slab, insulated back, constant flux: the mean temperature rises
+/// exactly as q·t/(ρ c L) — a conservation statement the finite volumes must keep to round-off.
+#[test]
+fn carslaw_jaeger_1959_finite_slab_mean_temperature_is_exact() {
+    let (q, t, l) = (10e3, 300.0, 0.006);
+    let state = heat_with_constant_flux(&slab(l, 30), q, t, 300).unwrap();
+    let mean: f64 = state.cell_temperature_k.iter().sum::<f64>() / 30.0;
+    let expected = T0_K + q * t / (RHO_KG_M3 * C_J_KG_K * l);
+    assert!(
+        (mean - expected).abs() < 1e-9 * expected,
+        "mean {mean} vs {expected}"
+    );
+}
