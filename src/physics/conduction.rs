@@ -67,7 +67,35 @@ pub fn heat_with_constant_flux(
     duration_s: f64,
     n_steps: usize,
 ) -> Result<SlabState, ConductionError> {
+    let face = ExposedFace {
+        absorbed_flux_w_m2,
+        convective_coefficient_w_m2_k: 0.0,
+        gas_temperature_k: 0.0,
+    };
+    heat(slab, &face, duration_s, n_steps)
+}
+
+/// What heats the exposed face: an absorbed flux plus convection from a gas, both constant.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ExposedFace {
+    pub absorbed_flux_w_m2: f64,
+    pub convective_coefficient_w_m2_k: f64,
+    pub gas_temperature_k: f64,
+}
+
+/// Heats the slab through `face` for `duration_s` in `n_steps` backward-Euler steps.
+///
+/// The face temperature solves the face balance q + h (T_g − T_s) = 2k (T_s − T_1)/Δz, so the
+/// flux into the first cell is linear in T_1 and enters the implicit system exactly.
+pub fn heat(
+    slab: &InertSlab,
+    face: &ExposedFace,
+    duration_s: f64,
+    n_steps: usize,
+) -> Result<SlabState, ConductionError> {
     slab.validate()?;
+    let absorbed_flux_w_m2 = face.absorbed_flux_w_m2;
+    let h = face.convective_coefficient_w_m2_k;
     let n = slab.n_cells;
     let dz = slab.thickness_m / n as f64;
     let capacity = slab.density_kg_m3 * slab.specific_heat_j_kg_k * dz;
@@ -85,7 +113,11 @@ pub fn heat_with_constant_flux(
             diagonal[j] = capacity + (left + right) * dt;
             rhs[j] = capacity * temperature[j];
         }
-        rhs[0] += absorbed_flux_w_m2 * dt;
+        // Flux into cell 1: G/(h+G) · (q + h T_g − h T_1), with G = 2k/Δz.
+        let half_cell = 2.0 * conductance;
+        let share = half_cell / (h + half_cell);
+        rhs[0] += share * (absorbed_flux_w_m2 + h * face.gas_temperature_k) * dt;
+        diagonal[0] += share * h * dt;
         solve_tridiagonal(&lower, &mut diagonal, &upper, &mut rhs);
         temperature.copy_from_slice(&rhs);
     }
