@@ -6,6 +6,17 @@
 pub enum ConductionError {
     #[error("`{field}` must be > 0, got {value}")]
     NotPositive { field: &'static str, value: f64 },
+    #[error("`{field}` must be >= 0, got {value}")]
+    Negative { field: &'static str, value: f64 },
+}
+
+/// Rejects a value that is not finite and > 0, naming the field.
+fn require_positive(field: &'static str, value: f64) -> Result<(), ConductionError> {
+    if value > 0.0 && value.is_finite() {
+        Ok(())
+    } else {
+        Err(ConductionError::NotPositive { field, value })
+    }
 }
 
 /// An inert homogeneous slab with constant properties, insulated at the back.
@@ -29,9 +40,7 @@ impl InertSlab {
             ("initial_temperature_k", self.initial_temperature_k),
             ("n_cells", self.n_cells as f64),
         ] {
-            if !(value > 0.0 && value.is_finite()) {
-                return Err(ConductionError::NotPositive { field, value });
-            }
+            require_positive(field, value)?;
         }
         Ok(())
     }
@@ -70,7 +79,8 @@ pub fn heat_with_constant_flux(
     let face = ExposedFace {
         absorbed_flux_w_m2,
         convective_coefficient_w_m2_k: 0.0,
-        gas_temperature_k: 0.0,
+        // Unused without convection; the initial temperature keeps the face physically plausible.
+        gas_temperature_k: slab.initial_temperature_k,
     };
     heat(slab, &face, duration_s, n_steps)
 }
@@ -94,17 +104,28 @@ pub fn heat(
     n_steps: usize,
 ) -> Result<SlabState, ConductionError> {
     slab.validate()?;
-    let absorbed_flux_w_m2 = face.absorbed_flux_w_m2;
+    require_positive("duration_s", duration_s)?;
+    require_positive("n_steps", n_steps as f64)?;
+    require_positive("gas_temperature_k", face.gas_temperature_k)?;
     let h = face.convective_coefficient_w_m2_k;
+    if !(h >= 0.0 && h.is_finite()) {
+        return Err(ConductionError::Negative {
+            field: "convective_coefficient_w_m2_k",
+            value: h,
+        });
+    }
+    let absorbed_flux_w_m2 = face.absorbed_flux_w_m2;
     let n = slab.n_cells;
     let dz = slab.thickness_m / n as f64;
     let capacity = slab.density_kg_m3 * slab.specific_heat_j_kg_k * dz;
     let conductance = slab.conductivity_w_m_k / dz;
-    let dt = duration_s / n_steps.max(1) as f64;
+    let dt = duration_s / n_steps as f64;
+    // G = 2k/Δz, the conductance of the first half cell, between the face and cell 1's centre.
+    let half_cell = 2.0 * conductance;
     let mut temperature = vec![slab.initial_temperature_k; n];
     let (mut lower, mut diagonal, mut upper, mut rhs) =
         (vec![0.0; n], vec![0.0; n], vec![0.0; n], vec![0.0; n]);
-    for _ in 0..n_steps.max(1) {
+    for _ in 0..n_steps {
         for j in 0..n {
             let left = if j > 0 { conductance } else { 0.0 };
             let right = if j + 1 < n { conductance } else { 0.0 };
@@ -114,16 +135,16 @@ pub fn heat(
             rhs[j] = capacity * temperature[j];
         }
         // Flux into cell 1: G/(h+G) · (q + h T_g − h T_1), with G = 2k/Δz.
-        let half_cell = 2.0 * conductance;
         let share = half_cell / (h + half_cell);
         rhs[0] += share * (absorbed_flux_w_m2 + h * face.gas_temperature_k) * dt;
         diagonal[0] += share * h * dt;
         solve_tridiagonal(&lower, &mut diagonal, &upper, &mut rhs);
         temperature.copy_from_slice(&rhs);
     }
-    // Face balance: q = k (T_s − T_0) / (dz/2), second-order accurate at the face.
+    // Face balance q + h (T_g − T_s) = G (T_s − T_1), solved for T_s.
     let surface_temperature_k =
-        temperature[0] + absorbed_flux_w_m2 * dz / (2.0 * slab.conductivity_w_m_k);
+        (absorbed_flux_w_m2 + h * face.gas_temperature_k + half_cell * temperature[0])
+            / (h + half_cell);
     Ok(SlabState {
         cell_temperature_k: temperature,
         surface_temperature_k,
@@ -143,6 +164,37 @@ mod tests {
         for (x, expected) in rhs.iter().zip([1.0, 2.0, 3.0]) {
             assert!((x - expected).abs() < 1e-12);
         }
+    }
+
+    #[test]
+    fn zero_steps_and_negative_convection_are_rejected_not_coerced() {
+        let slab = InertSlab {
+            thickness_m: 0.006,
+            density_kg_m3: 1000.0,
+            conductivity_w_m_k: 0.2,
+            specific_heat_j_kg_k: 1500.0,
+            initial_temperature_k: 300.0,
+            n_cells: 10,
+        };
+        assert_eq!(
+            heat_with_constant_flux(&slab, 1e4, 10.0, 0),
+            Err(ConductionError::NotPositive {
+                field: "n_steps",
+                value: 0.0
+            })
+        );
+        let face = ExposedFace {
+            absorbed_flux_w_m2: 0.0,
+            convective_coefficient_w_m2_k: -5.0,
+            gas_temperature_k: 600.0,
+        };
+        assert_eq!(
+            heat(&slab, &face, 10.0, 10),
+            Err(ConductionError::Negative {
+                field: "convective_coefficient_w_m2_k",
+                value: -5.0
+            })
+        );
     }
 
     #[test]
