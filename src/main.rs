@@ -1,13 +1,18 @@
 //! The `emberfit` command: thin glue over the library.
 
+use std::process::ExitCode;
+
 use clap::Parser;
 
-/// emberfit: calibrate a pyrolysis model of a material from fire tests (work in progress; see
-/// README.md for what is built so far).
-#[derive(Parser)]
-#[command(version, about)]
-struct Cli {}
+mod cli;
+mod commands;
 
-fn main() {
-    let _ = Cli::parse();
+fn main() -> ExitCode {
+    match commands::run(cli::Cli::parse()) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(err) => {
+            eprintln!("error: {err:#}");
+            ExitCode::FAILURE
+        }
+    }
 }
