@@ -1,6 +1,23 @@
-//! The physics core: pure, SI, deterministic. No files, printing, clock, threads or randomness.
-//!
-//! This first part holds the implicit finite-volume conduction kernel (physics.md §1, energy
-//! equation without reactions) that the pyrolysis solver builds on.
+//! The physics core: condensed-phase components and reactions, the 1-D conduction–pyrolysis
+//! solver and its outputs (physics.md §1). No I/O, clock, threads or randomness; SI units;
+//! the same inputs give the same bits out.
 
-pub mod conduction;
+pub mod kinetics;
+pub mod material;
+
+/// Errors from building or running a model.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum PhysicsError {
+    /// An input that no physical specimen can have.
+    #[error("{what} {problem}")]
+    Invalid { what: String, problem: String },
+}
+
+impl PhysicsError {
+    pub(crate) fn invalid(what: &str, problem: impl Into<String>) -> Self {
+        PhysicsError::Invalid {
+            what: what.to_string(),
+            problem: problem.into(),
+        }
+    }
+}

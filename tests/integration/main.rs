@@ -1,3 +1,1 @@
-//! Verification of the physics core against published analytical solutions.
 
-mod verification;
