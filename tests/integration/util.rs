@@ -48,7 +48,7 @@ pub fn gasifying_material(
             pre_exponential_per_s: 8.5e12,
             activation_energy_j_mol: 1.88e5,
             order: 1.0,
-            heat_of_reaction_j_kg: heat_of_reaction_j_kg,
+            heat_of_reaction_j_kg,
             gas: GasRelease {
                 fuel_fraction: 1.0,
                 heat_of_combustion_j_kg: 2.4e7,
