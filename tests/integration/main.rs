@@ -1,4 +1,6 @@
 //! The integration tests: one binary, one module per concern.
 
+mod cli;
+mod properties;
 mod util;
 mod verification;
