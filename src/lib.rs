@@ -4,3 +4,4 @@
 pub mod case;
 pub mod export;
 pub mod physics;
+pub mod synthetic;
