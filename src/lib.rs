@@ -4,5 +4,7 @@
 pub mod case;
 pub mod data;
 pub mod export;
+pub mod fit;
 pub mod physics;
+pub mod run;
 pub mod synthetic;

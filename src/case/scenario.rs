@@ -564,6 +564,29 @@ fn build_scenario(
         probes,
         numerics,
     };
+    // A calibrated specimen material carries the exposure values fitted with it.
+    let mut scenario = scenario;
+    if let Some(calibration) = materials
+        .iter()
+        .zip(&scenario.layers)
+        .find(|(_, layer)| layer.is_specimen)
+        .and_then(|(model, _)| model.file.calibration.as_ref())
+    {
+        let fitted = &calibration.scenario;
+        if let Some(flux) = fitted.flame_heat_flux_kw_m2 {
+            scenario.exposure.flame_heat_flux_w_m2 = flux * 1e3;
+        }
+        if let Some(h) = fitted.convective_coefficient_w_m2_k {
+            scenario.exposure.convective_coefficient_w_m2_k = h;
+            scenario.exposure.flaming_convective_coefficient_w_m2_k = h;
+        }
+        if let Some(critical) = fitted.critical_fuel_mass_flux_g_m2s {
+            if let IgnitionRule::CriticalFuelMassFlux(flux) = &mut scenario.ignition {
+                *flux = critical * 1e-3;
+            }
+            scenario.flameout.threshold_fuel_mass_flux_kg_m2_s = critical * 1e-3;
+        }
+    }
     scenario
         .check()
         .map_err(|err| source.inconsistent(err.to_string()))?;
