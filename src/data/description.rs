@@ -516,9 +516,8 @@ impl TestDescription {
                         ))
                     }
                     (None, None) => {
-                        return Err(DataError::Invalid {
+                        return Err(DataError::Missing {
                             path: path.to_path_buf(),
-                            line: 0,
                             field: "gas_analysis.orifice_constant".to_string(),
                             problem: "is missing: give it, or `methane_calibration`".to_string(),
                         })
@@ -579,9 +578,8 @@ impl TestDescription {
                 (&columns.exhaust_temperature, "columns.exhaust_temperature"),
             ] {
                 if column.is_none() {
-                    return Err(DataError::Invalid {
+                    return Err(DataError::Missing {
                         path: path.to_path_buf(),
-                        line: 0,
                         field: key.to_string(),
                         problem: "is missing: [gas_analysis] needs the O2, orifice pressure and \
                                   exhaust temperature columns"
@@ -591,9 +589,8 @@ impl TestDescription {
             }
         }
         if columns.mass.is_none() && columns.hrr.is_none() && gas.is_none() {
-            return Err(DataError::Invalid {
+            return Err(DataError::Missing {
                 path: path.to_path_buf(),
-                line: 0,
                 field: "columns".to_string(),
                 problem: "names no signal: give `mass`, `hrr`, or the gas columns with \
                           [gas_analysis]"

@@ -29,7 +29,7 @@ pub struct Report {
     pub ignition_source: IgnitionSource,
     /// Largest HRR sample, kW/m² (no smoothing).
     pub peak_hrr_kw_m2: Option<f64>,
-    /// Time of the largest HRR sample, s.
+    /// Time of the largest HRR sample (the first, if several are equal), s.
     pub time_to_peak_hrr_s: Option<f64>,
     /// Trapezoidal integral of HRR from exposure start to the end of the record, MJ/m²;
     /// negative samples are kept (no baseline correction beyond the lab's or ours).
@@ -94,12 +94,16 @@ pub struct ReportInput<'a> {
 pub fn compute(input: &ReportInput<'_>) -> Report {
     let time_s = input.time_s;
     let end_time_s = time_s.last().copied().unwrap_or(0.0);
+    // The first sample of the largest value, so that a plateau's peak time is its start.
     let peak = input.hrr_kw_m2.and_then(|hrr| {
         hrr.iter()
             .enumerate()
             .filter(|(_, v)| v.is_finite())
-            .max_by(|a, b| a.1.total_cmp(b.1))
-            .map(|(idx, v)| (time_s[idx], *v))
+            .fold(None, |best: Option<(usize, f64)>, (idx, v)| match best {
+                Some((_, b)) if b >= *v => best,
+                _ => Some((idx, *v)),
+            })
+            .map(|(idx, v)| (time_s[idx], v))
     });
     let (ignition_time_s, ignition_source) = match input.given_ignition_time_s {
         Some(t) => (Some(t), IgnitionSource::Given),

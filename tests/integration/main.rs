@@ -1,3 +1,4 @@
 //! Verification of the physics core against published analytical solutions.
 
+mod data;
 mod verification;
