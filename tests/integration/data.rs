@@ -854,3 +854,166 @@ fn broken_test_files_give_the_stated_error() {
         }
     }
 }
+
+// ---------------------------------------------------------------------------------------------
+// Smoke, the mass-loss estimate of HRR, smoothing, the methane calibration, Janssens' form in
+// the pipeline.
+
+/// Hand-worked smoke quantities (ISO 5660-1 definitions, physics.md §4): the photometer reads
+/// I = I₀·exp(−k·L) with I₀ = 100 before exposure, L = 0.11 m, and k rising linearly from 0 to
+/// 0.5 1/m over 100–110 s, flat to 290 s, back to 0 at 300 s: ∫k dt = 0.5·(180 + 200)/2 =
+/// 95 s/m. With V̇ = 0.024 m³/s: ∫V̇k dt = 2.28 m², total smoke release 2.28/0.01 = 228 m²/m²;
+/// the mass falls linearly 50 → 10 g over 100–300 s, so the specific extinction area is
+/// 2.28/0.040 = 57 m²/kg; the mean k over 0–400 s is 95/400 = 0.2375 1/m. The mass-loss HRR
+/// estimate with χ = 0.9 and ΔH_c = 25 MJ/kg is 0.9·25·(0.2 g/s / 0.01 m²) = 450 kW/m², and
+/// Savitzky–Golay smoothing (quadratic) leaves a straight line straight.
+#[test]
+fn smoke_and_mass_loss_quantities_on_hand_worked_values() {
+    let dir = scratch_dir("smoke");
+    let extinction = |t: f64| -> f64 {
+        match t {
+            t if t <= 100.0 => 0.0,
+            t if t <= 110.0 => 0.05 * (t - 100.0),
+            t if t <= 290.0 => 0.5,
+            t if t <= 300.0 => 0.05 * (300.0 - t),
+            _ => 0.0,
+        }
+    };
+    let mut csv = String::from("t,m,light\ns,g,%\n");
+    for i in -30..=400 {
+        let t = i as f64;
+        let mass = 50.0 - 0.2 * (t - 100.0).clamp(0.0, 200.0);
+        let light = 100.0 * (-extinction(t) * 0.11).exp();
+        csv.push_str(&format!("{t},{mass},{light}\n"));
+    }
+    std::fs::write(dir.join("smoke.csv"), csv).unwrap();
+    let toml = "data_file = \"smoke.csv\"\nirradiance_kw_m2 = 35\nexposed_area_m2 = 0.01\n\
+                [columns]\ntime = \"t\"\nmass = \"m\"\nsmoke_light = \"light\"\n[smoke]\n\
+                path_length_m = 0.11\nduct_volume_flow_m3_s = 0.024\n[hrr_from_mass]\n\
+                heat_of_combustion_mj_kg = 25\ncombustion_efficiency = 0.9\n[processing]\n\
+                smoothing_window_points = 11\nsmoothing_degree = 2\n";
+    std::fs::write(dir.join("smoke.toml"), toml).unwrap();
+    let reduced = reduce(&TestDescription::load(&dir.join("smoke.toml")).unwrap()).unwrap();
+    let r = &reduced.report;
+    assert!((r.total_smoke_release_m2_m2.unwrap() - 228.0).abs() < 1e-9);
+    assert!((r.avg_specific_extinction_area_m2_kg.unwrap() - 57.0).abs() < 1e-9);
+    assert!((r.mean_extinction_coefficient_1_m.unwrap() - 0.2375).abs() < 1e-12);
+    assert!((r.mass_lost_g.unwrap() - 40.0).abs() < 1e-9);
+    let estimate = reduced.hrr_from_mass_kw_m2.as_ref().unwrap();
+    let idx = reduced.time_s.iter().position(|t| *t == 200.0).unwrap();
+    assert!((estimate[idx] - 450.0).abs() < 1e-6, "{}", estimate[idx]);
+    assert!(reduced
+        .notices
+        .iter()
+        .any(|n| n.message.contains("Savitzky–Golay")));
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+/// ISO 5660-1 calibration: a 5 kW methane burner read through an orifice of known constant
+/// C = 0.0415 (O₂ made with methane's Δh_c/r₀ = 12.54 MJ/kg, delayed 10 s) must give C back
+/// through `gas_analysis.methane_calibration`. The same test's O₂ reduced with Janssens' form
+/// and zero CO₂ and CO must agree with the O₂-only form to 0.1 % (physics.md §4).
+#[test]
+fn methane_calibration_run_gives_the_orifice_constant_back() {
+    use emberfit::data::oxygen::{METHANE_HEAT_PER_OXYGEN_KJ_KG, OXYGEN_AIR_MOLAR_MASS_RATIO};
+    let dir = scratch_dir("methane");
+    let constant = 0.0415;
+    let (dp_pa, te_k) = (110.0, 400.0);
+    let flow = exhaust_mass_flow_kg_s(constant, dp_pa, te_k);
+    let k = METHANE_HEAT_PER_OXYGEN_KJ_KG * OXYGEN_AIR_MOLAR_MASS_RATIO * flow;
+    let burning = (k * AMBIENT_DRY_OXYGEN - 1.105 * 5.0) / (k - 1.5 * 5.0);
+    let mut csv = String::from("time,O2,CO2,CO,dp,Te\ns,mol/mol,%,ppm,Pa,K\n");
+    for i in -60..=300 {
+        let t = i as f64;
+        // The burner lights at 0 s; the analyser sees it 10 s later.
+        let x = if t >= 10.0 {
+            burning
+        } else {
+            AMBIENT_DRY_OXYGEN
+        };
+        csv.push_str(&format!("{t},{x},0,0,{dp_pa},{te_k}\n"));
+    }
+    std::fs::write(dir.join("methane.csv"), csv).unwrap();
+    let columns = "[columns]\ntime = \"time\"\noxygen = \"O2\"\ncarbon_dioxide = \"CO2\"\n\
+                   carbon_monoxide = \"CO\"\norifice_pressure = \"dp\"\nexhaust_temperature = \
+                   \"Te\"\n";
+    let calibration = format!(
+        "data_file = \"methane.csv\"\nirradiance_kw_m2 = 0\nexposed_area_m2 = 0.01\n{columns}\
+         [gas_analysis]\norifice_constant = 1.0\noxygen_delay_s = 10\nmethod = \"oxygen_only\"\n\
+         [methane_burner]\nburner_hrr_kw = 5.0\nsteady_from_s = 60\nsteady_to_s = 280\n"
+    );
+    std::fs::write(dir.join("methane.toml"), calibration).unwrap();
+    for method in ["oxygen_only", "with_carbon_oxides"] {
+        let test = format!(
+            "data_file = \"methane.csv\"\nirradiance_kw_m2 = 0\nexposed_area_m2 = 0.01\n\
+             {columns}[gas_analysis]\nmethane_calibration = \"methane.toml\"\n\
+             oxygen_delay_s = 10\nmethod = \"{method}\"\n"
+        );
+        std::fs::write(dir.join(format!("{method}.toml")), test).unwrap();
+    }
+    let only = reduce(&TestDescription::load(&dir.join("oxygen_only.toml")).unwrap()).unwrap();
+    let found = only.orifice_constant.unwrap();
+    assert!((found - constant).abs() < 1e-12 * constant, "{found}");
+    let general =
+        reduce(&TestDescription::load(&dir.join("with_carbon_oxides.toml")).unwrap()).unwrap();
+    let (q_only, q_general) = (
+        only.hrr_kw_m2.as_ref().unwrap()[100],
+        general.hrr_kw_m2.as_ref().unwrap()[100],
+    );
+    // 5 kW burner, 12.54 vs 13.1 MJ/kg: 5·13.1/12.54 = 5.2233 kW on 0.01 m².
+    assert!((q_only - 522.33).abs() < 0.01, "{q_only}");
+    assert!(
+        (q_general - q_only).abs() < 1e-3 * q_only,
+        "{q_general} vs {q_only}"
+    );
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+/// `emberfit ignition` on an ignition list naming TEST.toml files: each test's given ignition
+/// time is used, tests and direct points combine, and two irradiances give the "cannot tell
+/// thick from thin" warning in the JSON.
+#[test]
+fn ignition_command_reduces_listed_tests() {
+    let dir = scratch_dir("ignition-tests");
+    let mut csv = String::from("time,mass\ns,g\n");
+    for i in 0..=100 {
+        csv.push_str(&format!("{i},{}\n", 70.0 - 0.1 * i as f64));
+    }
+    std::fs::write(dir.join("run.csv"), csv).unwrap();
+    for (name, flux, t_ig) in [("a", 25.0, 110.0), ("b", 25.0, 105.0), ("c", 65.0, 17.0)] {
+        let test = format!(
+            "data_file = \"run.csv\"\nirradiance_kw_m2 = {flux}\nexposed_area_m2 = 0.01\n\
+             ignition_time_s = {t_ig}\n[columns]\ntime = \"time\"\nmass = \"mass\"\n"
+        );
+        std::fs::write(dir.join(format!("{name}.toml")), test).unwrap();
+    }
+    let list = "tests = [\"a.toml\", \"b.toml\", \"c.toml\"]\n[[point]]\nirradiance_kw_m2 = 65\n\
+                ignition_time_s = 19\n";
+    std::fs::write(dir.join("list.toml"), list).unwrap();
+    let output = emberfit(&[
+        "ignition",
+        dir.join("list.toml").to_str().unwrap(),
+        "--json",
+    ]);
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
+    assert_eq!(json["points"].as_array().unwrap().len(), 4);
+    assert_eq!(json["n_irradiances"], 2);
+    let warnings = json["warnings"].to_string();
+    assert!(
+        warnings.contains("cannot tell thermally thick from thin"),
+        "{warnings}"
+    );
+    // Hand-worked thick slope through the group means: mean t^-1/2 at 25 kW/m² is
+    // (110^-½ + 105^-½)/2 = 0.0964681, at 65 kW/m² (17^-½ + 19^-½)/2 = 0.2359757; TRP =
+    // 40/(0.2359757 − 0.0964681) = 286.72 kW·s^½/m².
+    let trp = json["thermal_response_parameter_kw_s05_m2"]
+        .as_f64()
+        .unwrap();
+    assert!((trp - 286.72).abs() < 0.01, "{trp}");
+    std::fs::remove_dir_all(&dir).ok();
+}
