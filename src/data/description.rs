@@ -96,6 +96,8 @@ pub enum OrificeConstant {
     Given(f64),
     /// From a methane calibration run described by this TOML file.
     FromCalibration(PathBuf),
+    /// This description is itself the methane calibration run that finds the constant.
+    ThisCalibrationRun,
 }
 
 /// Raw gas analysis settings.
@@ -514,6 +516,9 @@ impl TestDescription {
                             "gas_analysis.orifice_constant",
                             "and `methane_calibration` are both given; keep one".to_string(),
                         ))
+                    }
+                    (None, None) if raw.methane_burner.is_some() => {
+                        OrificeConstant::ThisCalibrationRun
                     }
                     (None, None) => {
                         return Err(DataError::Missing {

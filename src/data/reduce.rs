@@ -415,6 +415,15 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
                     )));
                     c
                 }
+                OrificeConstant::ThisCalibrationRun => {
+                    return Err(DataError::Reduction {
+                        problem: format!(
+                            "{}: [gas_analysis] says this is a calibration run, but there is \
+                             no [methane_burner] table",
+                            test.source.display()
+                        ),
+                    })
+                }
             }
         };
         orifice_constant = Some(constant);

@@ -939,7 +939,7 @@ fn methane_calibration_run_gives_the_orifice_constant_back() {
                    \"Te\"\n";
     let calibration = format!(
         "data_file = \"methane.csv\"\nirradiance_kw_m2 = 0\nexposed_area_m2 = 0.01\n{columns}\
-         [gas_analysis]\norifice_constant = 1.0\noxygen_delay_s = 10\nmethod = \"oxygen_only\"\n\
+         [gas_analysis]\noxygen_delay_s = 10\nmethod = \"oxygen_only\"\n\
          [methane_burner]\nburner_hrr_kw = 5.0\nsteady_from_s = 60\nsteady_to_s = 280\n"
     );
     std::fs::write(dir.join("methane.toml"), calibration).unwrap();
