@@ -3,7 +3,7 @@
 //!
 //! Tolerates what real exports contain: a UTF-8 byte-order mark, stray spaces in names, a units
 //! row under the header (or units in brackets in the name), blank lines, blank cells (missing
-//! values, returned as NaN), `;` or tab separators with decimal commas. Units are converted to
+//! values, returned as NaN), `;` or tab separators with decimal commas, Latin-1 text. Units are converted to
 //! one canonical unit per [`Quantity`]. It knows nothing about cone calorimeters, so the
 //! milligram-scale readers can use it too. It does not fill gaps or sort rows: that is the
 //! caller's choice, because what a gap means depends on the signal.
@@ -106,8 +106,23 @@ pub fn read_table(path: &Path, requests: &[ColumnRequest]) -> Result<Table, Data
         path: path.to_path_buf(),
         source,
     })?;
-    let text = String::from_utf8_lossy(&bytes);
-    parse_table(path, &text, requests)
+    match String::from_utf8(bytes) {
+        Ok(text) => parse_table(path, &text, requests),
+        Err(err) => {
+            // Not UTF-8: lab software on Windows often writes Latin-1 (e.g. a single-byte
+            // degree sign). Each byte is then one character.
+            let text: String = err.into_bytes().iter().map(|&b| char::from(b)).collect();
+            let mut table = parse_table(path, &text, requests)?;
+            table.notices.insert(
+                0,
+                Notice::new(format!(
+                    "{}: not UTF-8; read as Latin-1 (ISO 8859-1)",
+                    path.display()
+                )),
+            );
+            Ok(table)
+        }
+    }
 }
 
 /// As [`read_table`], on text already in memory (`path` is only used in messages).
@@ -593,6 +608,19 @@ mod tests {
             .notices
             .iter()
             .any(|n| n.message.contains("using `kg`")));
+    }
+
+    #[test]
+    fn a_latin1_degree_sign_is_read() {
+        let dir = std::env::temp_dir().join(format!("emberfit-latin1-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("latin1.csv");
+        std::fs::write(&path, b"T [\xb0C]\n26.85\n").unwrap();
+        let reqs = vec![ColumnRequest::required("T", Quantity::Temperature)];
+        let table = read_table(&path, &reqs).unwrap();
+        assert!((table.columns[0].as_ref().unwrap().values[0] - 300.0).abs() < 1e-9);
+        assert!(table.notices[0].message.contains("Latin-1"));
+        std::fs::remove_dir_all(&dir).ok();
     }
 
     #[test]
