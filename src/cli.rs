@@ -25,7 +25,7 @@ pub enum Command {
     ///
     /// Example: emberfit simulate demo-cases/ridgeline-panel/scenario.toml --flux 35 --out run.csv
     Simulate(SimulateArgs),
-    /// Reduce one cone calorimeter test: read its data, compute HRR and MLR, print the report.
+    /// Reduce one cone calorimeter test: read its data, compute HRR and MLR, print the report
     ///
     /// Reads a test description (TEST.toml, keys in docs/test-files.md) and the CSV it names,
     /// or a bare CSV with flags. HRR comes from the lab's HRR column or, with [gas_analysis],
@@ -43,7 +43,7 @@ pub enum Command {
     ///       --hrr-column HRR --ignition-time-s 42 --smooth 11
     #[command(verbatim_doc_comment)]
     Reduce(Box<ReduceArgs>),
-    /// Analyse ignition times across irradiances: critical heat flux, TRP and apparent kρc.
+    /// Analyse ignition times across irradiances: critical heat flux, TRP and apparent kρc
     ///
     /// Fits t_ig^(-1/2) (thermally thick), t_ig^(-0.547) (Janssens, thick with heat losses) and
     /// t_ig^(-1) (thermally thin) against the irradiance by least squares and reports each

@@ -427,6 +427,12 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
             }
         };
         orifice_constant = Some(constant);
+        if signals.hrr.is_some() {
+            notices.push(Notice::new(format!(
+                "{}: HRR computed from the gas analysers; the file's own HRR column is not used",
+                test.source.display()
+            )));
+        }
         let shifted = shift_gas(test, gas, &signals, &mut notices)?;
         let (Some(dp), Some(te)) = (&signals.orifice_pressure_pa, &signals.exhaust_temperature_k)
         else {
@@ -676,4 +682,17 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         report,
         notices,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gaps_are_filled_on_the_line_between_neighbours() {
+        let time_s = [0.0, 1.0, 2.0, 4.0, 5.0];
+        let mut values = [1.0, f64::NAN, f64::NAN, 7.0, 9.0];
+        assert_eq!(fill_gaps(&time_s, &mut values), 2);
+        assert_eq!(values, [1.0, 2.5, 4.0, 7.0, 9.0]);
+    }
 }

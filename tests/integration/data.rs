@@ -143,7 +143,8 @@ fn pmma_cone_files_read_and_their_heat_of_combustion_is_in_the_stated_band() {
 /// from memory), apparent values from ignition data being larger (common practice).
 ///
 /// Measured here: TRP 274.6 kW·s^½/m² (thick form), critical heat flux −1.2 (thick), 2.2
-/// (Janssens), 17.7 (thin) kW/m². The TRP is checked to a factor of two. The critical heat
+/// (Janssens), 17.7 (thin) kW/m², apparent kρc 0.75 kW²·s/(m⁴·K²) with T_ig = 378 °C. The TRP
+/// is checked to a factor of two; kρc to lie between the property value and four times it. The critical heat
 /// flux is a long extrapolation from two irradiances and comes out well below the handbook's:
 /// we check that Janssens' value is physical (between zero and the lowest irradiance that
 /// ignited) and of the handbook's order of magnitude (a factor of ten), and that the thick
