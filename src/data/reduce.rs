@@ -34,7 +34,9 @@ pub struct Reduced {
     pub time_s: Vec<f64>,
     /// Heat release rate per exposed area, kW/m² (lab's column or oxygen consumption).
     pub hrr_kw_m2: Option<Vec<f64>>,
-    /// Load-cell mass, g (negative readings of a tared specimen clipped to zero).
+    /// Load-cell mass, g (negative readings of a tared specimen clipped to zero). When the
+    /// description says the load cell is not tared, this includes holder and backing: use
+    /// differences, or the MLR.
     pub mass_g: Option<Vec<f64>>,
     /// Mass loss rate per exposed area, g/(m²·s), positive when mass is lost.
     pub mlr_g_m2s: Option<Vec<f64>>,
@@ -665,6 +667,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         exposed_area_m2: area_m2,
         given_ignition_time_s: test.ignition_time_s,
         given_initial_mass_g: test.initial_mass_g,
+        is_mass_tared: test.is_mass_tared,
         ignition_rule: test.ignition_rule,
     });
     Ok(Reduced {
