@@ -102,10 +102,10 @@ pub struct ReduceArgs {
     /// CSV input only: name of the time column (default `time`, case ignored).
     #[arg(long, value_name = "NAME")]
     pub time_column: Option<String>,
-    /// CSV input only: name of the mass column (default `mass`); `none` when there is none.
+    /// CSV input only: name of the mass column (default `mass`, skipped if the file has none).
     #[arg(long, value_name = "NAME")]
     pub mass_column: Option<String>,
-    /// CSV input only: name of the HRR column (default `hrr`); `none` when there is none.
+    /// CSV input only: name of the HRR column (default `hrr`, skipped if the file has none).
     #[arg(long, value_name = "NAME")]
     pub hrr_column: Option<String>,
     /// CSV input only: unit of the time column when the file does not say (s, min, ms, h).

@@ -106,15 +106,20 @@ fn description_from_flags(args: &ReduceArgs) -> Result<TestDescription> {
         bail!("--flux-kw-m2 must be within 0..200 kW/m², got {flux_kw_m2}");
     }
     let mut test = TestDescription::for_csv(&args.input, area_m2, flux_kw_m2);
-    let column = |name: &Option<String>, default: &str, unit: &Option<String>| {
-        let name = name.clone().unwrap_or_else(|| default.to_string());
+    let column = |given: &Option<String>, default: &str, unit: &Option<String>| {
+        let name = given.clone().unwrap_or_else(|| default.to_string());
         (!name.eq_ignore_ascii_case("none")).then(|| ColumnName {
             name,
             unit: unit.clone(),
+            // A column the user named must exist; the default names may be absent.
+            is_required: given.is_some(),
         })
     };
     if let Some(time) = column(&args.time_column, "time", &args.time_unit) {
-        test.columns.time = time;
+        test.columns.time = ColumnName {
+            is_required: true,
+            ..time
+        };
     } else {
         bail!("--time-column cannot be `none`: every record needs a time");
     }

@@ -30,14 +30,18 @@ pub struct ColumnName {
     pub name: String,
     /// Unit to use instead of the file's units row or bracket.
     pub unit: Option<String>,
+    /// Whether a file without this column is an error (true: always so for columns a TEST.toml
+    /// names) or simply lacks the signal (false: the default names of a bare CSV).
+    pub is_required: bool,
 }
 
 impl ColumnName {
-    /// A column with the file's own unit.
+    /// A required column with the file's own unit.
     pub fn named(name: &str) -> Self {
         ColumnName {
             name: name.to_string(),
             unit: None,
+            is_required: true,
         }
     }
 }
@@ -265,8 +269,16 @@ enum RawColumn {
 impl RawColumn {
     fn into_column(self) -> ColumnName {
         match self {
-            RawColumn::Name(name) => ColumnName { name, unit: None },
-            RawColumn::Full { name, unit } => ColumnName { name, unit },
+            RawColumn::Name(name) => ColumnName {
+                name,
+                unit: None,
+                is_required: true,
+            },
+            RawColumn::Full { name, unit } => ColumnName {
+                name,
+                unit,
+                is_required: true,
+            },
         }
     }
 }
@@ -722,7 +734,8 @@ impl TestDescription {
         })
     }
 
-    /// A description for a bare CSV with columns `time`, `mass` and `hrr` (any that exist), at
+    /// A description for a bare CSV with columns `time`, `mass` and `hrr` (those of the last two
+    /// that the file lacks are skipped), at
     /// the given irradiance and area, everything else at its default; the caller may then
     /// change fields (as the `reduce FILE.csv` flags do).
     pub fn for_csv(data_file: &Path, exposed_area_m2: f64, irradiance_kw_m2: f64) -> Self {
@@ -747,8 +760,14 @@ impl TestDescription {
             },
             columns: Columns {
                 time: ColumnName::named("time"),
-                mass: Some(ColumnName::named("mass")),
-                hrr: Some(ColumnName::named("hrr")),
+                mass: Some(ColumnName {
+                    is_required: false,
+                    ..ColumnName::named("mass")
+                }),
+                hrr: Some(ColumnName {
+                    is_required: false,
+                    ..ColumnName::named("hrr")
+                }),
                 oxygen: None,
                 carbon_dioxide: None,
                 carbon_monoxide: None,

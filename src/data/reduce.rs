@@ -88,7 +88,7 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
                 name: c.name.clone(),
                 unit: c.unit.clone(),
                 quantity: *quantity,
-                is_required: true,
+                is_required: c.is_required,
             })
         })
         .collect();
@@ -217,6 +217,13 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
              uses the actual times",
             path.display()
         )));
+    }
+    if signals.iter().all(Option::is_none) {
+        return Err(DataError::File {
+            path,
+            problem: "has none of the signal columns looked for (mass, HRR or gas analysis)"
+                .to_string(),
+        });
     }
     let mut signals = signals.into_iter();
     let mut next = || signals.next().flatten();

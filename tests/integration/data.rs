@@ -733,6 +733,45 @@ fn reduce_command_takes_a_bare_csv_with_flags() {
         table.contains("average MLR, 10–90 %              10.00 g/(m²·s)"),
         "{table}"
     );
+    // A CSV with mass only: the HRR column is skipped, and the mass-loss estimate
+    // χ·ΔH_c·MLR stands in. Its total heat per mass lost must then be χ·ΔH_c = 0.9·25 =
+    // 22.5 MJ/kg (mass 60 → 33 g between 30 and 300 s, flat after); 1 % covers the smearing
+    // of the five-point derivative at the two kinks.
+    let mut mass_only = String::from("time,mass\ns,g\n");
+    for i in 0..=400 {
+        let t = i as f64;
+        mass_only.push_str(&format!(
+            "{t},{}\n",
+            60.0 - 0.1 * (t - 30.0).clamp(0.0, 270.0)
+        ));
+    }
+    let mass_path = dir.join("mass-only.csv");
+    std::fs::write(&mass_path, mass_only).unwrap();
+    let output = emberfit(&[
+        "reduce",
+        mass_path.to_str().unwrap(),
+        "--area-m2",
+        "0.01",
+        "--flux-kw-m2",
+        "50",
+        "--heat-of-combustion-mj-kg",
+        "25",
+        "--combustion-efficiency",
+        "0.9",
+        "--json",
+    ]);
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let json: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
+    let ehc = json["effective_heat_of_combustion_mj_kg"].as_f64().unwrap();
+    assert!((ehc - 22.5).abs() <= 0.01 * 22.5, "{ehc}");
+    assert!(
+        json["notices"].to_string().contains("mass-loss estimate"),
+        "{json}"
+    );
     let missing = emberfit(&["reduce", path.to_str().unwrap(), "--flux-kw-m2", "50"]);
     assert!(!missing.status.success());
     assert!(String::from_utf8_lossy(&missing.stderr).contains("needs --area-m2"));
