@@ -1057,3 +1057,37 @@ fn ignition_command_reduces_listed_tests() {
     assert!((trp - 286.72).abs() < 0.01, "{trp}");
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// Janssens' form through the whole pipeline: the hand-worked readings above (X_O2 = 19 %,
+/// X_CO2 = 1.5 %, X_CO = 500 ppm after a baseline of 20.95 % and 0.04 %, ṁ_e = 0.02 kg/s,
+/// X⁰_H2O = 0.01 from the relative humidity) written as a lab file in %, ppm and °C must give
+/// the hand-worked 5.7800 kW, i.e. 578.00 kW/m² on 0.01 m².
+#[test]
+fn janssens_form_through_the_pipeline_matches_the_hand_worked_value() {
+    use emberfit::data::description::saturation_vapour_pressure_pa;
+    let dir = scratch_dir("janssens");
+    let mut csv = String::from("t,O2,CO2,CO,dp,Te\ns,%,%,ppm,Pa,C\n");
+    for i in -30..=100 {
+        let (o2, co2, co) = if i < 0 {
+            (20.95, 0.04, 0.0)
+        } else {
+            (19.0, 1.5, 500.0)
+        };
+        csv.push_str(&format!("{i},{o2},{co2},{co},100,{}\n", 400.0 - 273.15));
+    }
+    std::fs::write(dir.join("janssens.csv"), csv).unwrap();
+    let humidity_pct = 100.0 * 0.01 * 101_325.0 / saturation_vapour_pressure_pa(20.0);
+    let toml = format!(
+        "data_file = \"janssens.csv\"\nirradiance_kw_m2 = 50\nexposed_area_m2 = 0.01\n\
+         [ambient]\ntemperature_c = 20\npressure_kpa = 101.325\nrelative_humidity_pct = \
+         {humidity_pct}\n[columns]\ntime = \"t\"\noxygen = \"O2\"\ncarbon_dioxide = \"CO2\"\n\
+         carbon_monoxide = \"CO\"\norifice_pressure = \"dp\"\nexhaust_temperature = \"Te\"\n\
+         [gas_analysis]\norifice_constant = 0.04\n"
+    );
+    std::fs::write(dir.join("janssens.toml"), toml).unwrap();
+    let reduced = reduce(&TestDescription::load(&dir.join("janssens.toml")).unwrap()).unwrap();
+    let hrr = reduced.hrr_kw_m2.as_ref().unwrap();
+    let idx = reduced.time_s.iter().position(|t| *t == 50.0).unwrap();
+    assert!((hrr[idx] - 578.00).abs() < 0.01, "{}", hrr[idx]);
+    std::fs::remove_dir_all(&dir).ok();
+}
