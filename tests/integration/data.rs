@@ -1091,3 +1091,37 @@ fn janssens_form_through_the_pipeline_matches_the_hand_worked_value() {
     assert!((hrr[idx] - 578.00).abs() < 0.01, "{}", hrr[idx]);
     std::fs::remove_dir_all(&dir).ok();
 }
+
+/// The examples in docs/test-files.md are valid: the complete TEST.toml parses with the values
+/// it shows, and the ignition list loads. Keeps the documentation from drifting.
+#[test]
+fn the_documented_examples_parse() {
+    use emberfit::data::description::GasMethod;
+    use emberfit::data::ignition::IgnitionList;
+    let docs =
+        std::fs::read_to_string(format!("{}/docs/test-files.md", env!("CARGO_MANIFEST_DIR")))
+            .unwrap();
+    let blocks: Vec<&str> = docs
+        .split("```toml\n")
+        .skip(1)
+        .map(|b| b.split("```").next().unwrap())
+        .collect();
+    assert_eq!(blocks.len(), 2, "a test description and an ignition list");
+    let test = TestDescription::parse(Path::new("docs/pmma.toml"), blocks[0]).unwrap();
+    assert_eq!(test.exposed_area_m2, 0.0088);
+    assert_eq!(test.time_offset_s, -60.0);
+    assert_eq!(
+        test.gas.as_ref().unwrap().method,
+        GasMethod::WithCarbonOxides
+    );
+    assert_eq!(test.smoothing.unwrap().window_points, 11);
+    // 45 % at 21 °C and 100.8 kPa: 0.45·2482 Pa/100 800 Pa = 0.0111 (Magnus form).
+    assert!((test.ambient.water_mole_fraction - 0.0111).abs() < 2e-4);
+    let dir = scratch_dir("docs");
+    std::fs::write(dir.join("list.toml"), blocks[1]).unwrap();
+    let list = IgnitionList::load(&dir.join("list.toml")).unwrap();
+    assert_eq!(list.tests.len(), 3);
+    assert_eq!(list.points.len(), 1);
+    assert!((list.settings.ignition_temperature_k.unwrap() - 651.15).abs() < 1e-9);
+    std::fs::remove_dir_all(&dir).ok();
+}
