@@ -378,6 +378,7 @@ fn ignition_json(analysis: &IgnitionAnalysis, notices: &[Notice]) -> serde_json:
         "apparent_krhoc_thick_kw2_s_m4_k2": analysis.apparent_krhoc_thick_kw2_s_m4_k2,
         "apparent_krhoc_janssens_kw2_s_m4_k2": analysis.apparent_krhoc_janssens_kw2_s_m4_k2,
         "heat_capacity_per_area_thin_kj_m2_k": analysis.heat_capacity_per_area_thin_kj_m2_k,
+        "critical_heat_flux_from_balance_kw_m2": analysis.critical_heat_flux_from_balance_kw_m2,
         "warnings": analysis.warnings.iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
         "notices": notices.iter().map(|n| n.message.clone()).collect::<Vec<_>>(),
     })
@@ -437,6 +438,11 @@ fn ignition_table(analysis: &IgnitionAnalysis) -> String {
             "heat capacity per area (thin)",
             analysis.heat_capacity_per_area_thin_kj_m2_k,
             "kJ/(m²·K)",
+        ),
+        (
+            "critical heat flux at T_ig (balance)",
+            analysis.critical_heat_flux_from_balance_kw_m2,
+            "kW/m²",
         ),
     ];
     for (name, v, unit) in optional {

@@ -145,6 +145,10 @@ pub struct IgnitionAnalysis {
     pub apparent_krhoc_janssens_kw2_s_m4_k2: Option<f64>,
     /// Heat capacity per area from the thin form, ρcL = 1/(slope·(T_ig − T₀)), kJ/(m²·K).
     pub heat_capacity_per_area_thin_kj_m2_k: Option<f64>,
+    /// Critical heat flux implied by a given ignition temperature through the surface balance
+    /// ε·σ·(T_ig⁴ − T₀⁴) + h·(T_ig − T₀), kW/m² (common practice): a check on the
+    /// extrapolated intercepts. `None` when the ignition temperature was not given.
+    pub critical_heat_flux_from_balance_kw_m2: Option<f64>,
     /// Warnings: when the data cannot tell thick from thin, or an intercept is unphysical.
     pub warnings: Vec<Notice>,
 }
@@ -347,8 +351,15 @@ pub fn analyse(
     let heat_capacity_per_area_thin_kj_m2_k = rise_k
         .filter(|_| thin.slope > 0.0)
         .map(|dt| 1.0 / (thin.slope * dt));
+    let critical_heat_flux_from_balance_kw_m2 = settings.ignition_temperature_k.map(|t| {
+        let t0 = settings.ambient_temperature_k;
+        (settings.emissivity * STEFAN_BOLTZMANN_W_M2_K4 * (t.powi(4) - t0.powi(4))
+            + settings.convective_coefficient_w_m2_k * (t - t0))
+            / 1e3
+    });
     Ok(IgnitionAnalysis {
         points: points.to_vec(),
+        critical_heat_flux_from_balance_kw_m2,
         n_irradiances,
         fits,
         thermal_response_parameter_kw_s05_m2,
@@ -610,5 +621,13 @@ mod tests {
     fn the_surface_balance_inverts_the_losses() {
         let t = balance_temperature_k(9.998, &IgnitionSettings::default()).unwrap();
         assert!((t - 600.0).abs() < 0.1, "{t}");
+        let points = points_from(|q| (300.0 / (q - 10.0)).powi(2), &[20.0, 50.0]);
+        let settings = IgnitionSettings {
+            ignition_temperature_k: Some(600.0),
+            ..IgnitionSettings::default()
+        };
+        let analysis = analyse(&points, &settings).unwrap();
+        let balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
+        assert!((balance - 9.998).abs() < 1e-3, "{balance}");
     }
 }
