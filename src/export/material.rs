@@ -41,8 +41,15 @@ fn set_number(item: &mut Item, number: f64) {
 }
 
 /// Sets a number at `table[key]`, or at `table[key].sub` when the key holds an inline table.
-fn set_in(table: &mut dyn toml_edit::TableLike, key: &str, sub: Option<&str>, number: f64) -> Result<(), ExportError> {
-    let item = table.get_mut(key).ok_or_else(|| ExportError::Missing(key.to_string()))?;
+fn set_in(
+    table: &mut dyn toml_edit::TableLike,
+    key: &str,
+    sub: Option<&str>,
+    number: f64,
+) -> Result<(), ExportError> {
+    let item = table
+        .get_mut(key)
+        .ok_or_else(|| ExportError::Missing(key.to_string()))?;
     match sub {
         None => set_number(item, number),
         Some(sub) => match item.as_table_like_mut() {
@@ -61,12 +68,23 @@ fn set_in(table: &mut dyn toml_edit::TableLike, key: &str, sub: Option<&str>, nu
 }
 
 /// Multiplies every value of a property (number, power law or table) by `factor`.
-fn scale_property(table: &mut dyn toml_edit::TableLike, key: &str, factor: f64) -> Result<(), ExportError> {
-    let item = table.get_mut(key).ok_or_else(|| ExportError::Missing(key.to_string()))?;
-    if let Some(number) = item.as_float().or_else(|| item.as_integer().map(|i| i as f64)) {
+fn scale_property(
+    table: &mut dyn toml_edit::TableLike,
+    key: &str,
+    factor: f64,
+) -> Result<(), ExportError> {
+    let item = table
+        .get_mut(key)
+        .ok_or_else(|| ExportError::Missing(key.to_string()))?;
+    if let Some(number) = item
+        .as_float()
+        .or_else(|| item.as_integer().map(|i| i as f64))
+    {
         set_number(item, number * factor);
     } else if let Some(inner) = item.as_table_like_mut() {
-        let current = inner.get("value").and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
+        let current = inner
+            .get("value")
+            .and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
         if let Some(current) = current {
             set_in(inner, "value", None, current * factor)?;
         }
@@ -74,8 +92,12 @@ fn scale_property(table: &mut dyn toml_edit::TableLike, key: &str, factor: f64) 
         let mut scaled = Array::new();
         for point in points.iter() {
             let pair = point.as_array();
-            let t = pair.and_then(|p| p.get(0)).and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
-            let v = pair.and_then(|p| p.get(1)).and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
+            let t = pair
+                .and_then(|p| p.get(0))
+                .and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
+            let v = pair
+                .and_then(|p| p.get(1))
+                .and_then(|v| v.as_float().or_else(|| v.as_integer().map(|i| i as f64)));
             if let (Some(t), Some(v)) = (t, v) {
                 let mut new_pair = Array::new();
                 new_pair.push(t);
@@ -88,7 +110,11 @@ fn scale_property(table: &mut dyn toml_edit::TableLike, key: &str, factor: f64) 
     Ok(())
 }
 
-fn array_entry<'d>(doc: &'d mut DocumentMut, key: &str, index: usize) -> Result<&'d mut Table, ExportError> {
+fn array_entry<'d>(
+    doc: &'d mut DocumentMut,
+    key: &str,
+    index: usize,
+) -> Result<&'d mut Table, ExportError> {
     doc.get_mut(key)
         .and_then(|item| item.as_array_of_tables_mut())
         .and_then(|tables: &mut ArrayOfTables| tables.get_mut(index))
@@ -111,9 +137,19 @@ pub fn calibrated_material_toml(
     for (parameter, fit) in parameters.iter().zip(fitted) {
         for target in &parameter.targets {
             match target {
-                Target::Density { component } => set_in(array_entry(&mut doc, "component", *component)?, "density_kg_m3", None, fit.value)?,
-                Target::Conductivity { component, part } | Target::SpecificHeat { component, part } => {
-                    let key = if matches!(target, Target::Conductivity { .. }) { "conductivity_w_m_k" } else { "specific_heat_j_kg_k" };
+                Target::Density { component } => set_in(
+                    array_entry(&mut doc, "component", *component)?,
+                    "density_kg_m3",
+                    None,
+                    fit.value,
+                )?,
+                Target::Conductivity { component, part }
+                | Target::SpecificHeat { component, part } => {
+                    let key = if matches!(target, Target::Conductivity { .. }) {
+                        "conductivity_w_m_k"
+                    } else {
+                        "specific_heat_j_kg_k"
+                    };
                     let entry = array_entry(&mut doc, "component", *component)?;
                     match part {
                         PropertyPart::Value => set_in(entry, key, Some("value"), fit.value)?,
@@ -121,26 +157,51 @@ pub fn calibrated_material_toml(
                         PropertyPart::Factor => scale_property(entry, key, fit.value)?,
                     }
                 }
-                Target::Emissivity { component } => set_in(array_entry(&mut doc, "component", *component)?, "emissivity", None, fit.value)?,
+                Target::Emissivity { component } => set_in(
+                    array_entry(&mut doc, "component", *component)?,
+                    "emissivity",
+                    None,
+                    fit.value,
+                )?,
                 Target::Absorption { component } => {
-                    array_entry(&mut doc, "component", *component)?.insert("absorption_per_m", value(fit.value));
+                    array_entry(&mut doc, "component", *component)?
+                        .insert("absorption_per_m", value(fit.value));
                 }
-                Target::PreExponential { reaction } | Target::PeakTemperature { reaction, .. } | Target::Log10RateAt { reaction, .. } => {
+                Target::PreExponential { reaction }
+                | Target::PeakTemperature { reaction, .. }
+                | Target::Log10RateAt { reaction, .. } => {
                     let a = fitted_material.reactions[*reaction].pre_exponential_per_s;
-                    set_in(array_entry(&mut doc, "reaction", *reaction)?, "pre_exponential_per_s", None, a)?;
+                    set_in(
+                        array_entry(&mut doc, "reaction", *reaction)?,
+                        "pre_exponential_per_s",
+                        None,
+                        a,
+                    )?;
                 }
-                Target::ActivationEnergy { reaction } => {
-                    set_in(array_entry(&mut doc, "reaction", *reaction)?, "activation_energy_kj_mol", None, fit.value)?
-                }
+                Target::ActivationEnergy { reaction } => set_in(
+                    array_entry(&mut doc, "reaction", *reaction)?,
+                    "activation_energy_kj_mol",
+                    None,
+                    fit.value,
+                )?,
                 Target::Order { reaction } => {
                     array_entry(&mut doc, "reaction", *reaction)?.insert("order", value(fit.value));
                 }
-                Target::HeatOfReaction { reaction } => {
-                    set_in(array_entry(&mut doc, "reaction", *reaction)?, "heat_of_reaction_kj_kg", None, fit.value)?
-                }
-                Target::Yield { reaction } => set_in(array_entry(&mut doc, "reaction", *reaction)?, "yield", None, fit.value)?,
+                Target::HeatOfReaction { reaction } => set_in(
+                    array_entry(&mut doc, "reaction", *reaction)?,
+                    "heat_of_reaction_kj_kg",
+                    None,
+                    fit.value,
+                )?,
+                Target::Yield { reaction } => set_in(
+                    array_entry(&mut doc, "reaction", *reaction)?,
+                    "yield",
+                    None,
+                    fit.value,
+                )?,
                 Target::FuelFraction { reaction } => {
-                    array_entry(&mut doc, "reaction", *reaction)?.insert("fuel_fraction", value(fit.value));
+                    array_entry(&mut doc, "reaction", *reaction)?
+                        .insert("fuel_fraction", value(fit.value));
                 }
                 Target::HeatOfCombustion { reactions } => {
                     let material_level: Vec<usize> = start
@@ -155,7 +216,8 @@ pub fn calibrated_material_toml(
                         doc.insert("heat_of_combustion_mj_kg", value(fit.value));
                     } else {
                         for &reaction in reactions {
-                            array_entry(&mut doc, "reaction", reaction)?.insert("heat_of_combustion_mj_kg", value(fit.value));
+                            array_entry(&mut doc, "reaction", reaction)?
+                                .insert("heat_of_combustion_mj_kg", value(fit.value));
                         }
                     }
                 }
@@ -177,7 +239,10 @@ pub fn calibrated_material_toml(
          # local codes and the judgement of a qualified fire engineer.\n",
     );
     calibration.insert("job", value(provenance.job.as_str()));
-    calibration.insert("emberfit_version", value(provenance.emberfit_version.as_str()));
+    calibration.insert(
+        "emberfit_version",
+        value(provenance.emberfit_version.as_str()),
+    );
     calibration.insert("date", value(provenance.date.as_str()));
     calibration.insert("objective", value(provenance.objective));
     let mut hashes = Table::new();
@@ -192,9 +257,22 @@ pub fn calibrated_material_toml(
         entry.insert("path", value(parameter.name.as_str()));
         entry.insert("unit", value(parameter.unit.as_str()));
         entry.insert("value", value(fit.value));
-        entry.insert("lower_95", value(finite_or(fit.interval_95.0, parameter.lower)));
-        entry.insert("upper_95", value(finite_or(fit.interval_95.1, parameter.upper)));
-        entry.insert("scale", value(if parameter.scale == Scale::Log { "log" } else { "linear" }));
+        entry.insert(
+            "lower_95",
+            value(finite_or(fit.interval_95.0, parameter.lower)),
+        );
+        entry.insert(
+            "upper_95",
+            value(finite_or(fit.interval_95.1, parameter.upper)),
+        );
+        entry.insert(
+            "scale",
+            value(if parameter.scale == Scale::Log {
+                "log"
+            } else {
+                "linear"
+            }),
+        );
         entry.insert("standard_error", value(finite_or(fit.standard_error, -1.0)));
         let mut warnings = Array::new();
         for warning in &fit.warnings {

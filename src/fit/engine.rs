@@ -119,7 +119,11 @@ pub struct Outcome {
 }
 
 fn values_of(parameters: &[FreeParameter], unit: &[f64]) -> Vec<f64> {
-    parameters.iter().zip(unit).map(|(p, &u)| p.from_unit(u)).collect()
+    parameters
+        .iter()
+        .zip(unit)
+        .map(|(p, &u)| p.from_unit(u))
+        .collect()
 }
 
 /// A fresh state: a Latin-hypercube population with the start values as its first member.
@@ -136,7 +140,10 @@ pub fn initial_state(parameters: &[FreeParameter], settings: &EngineSettings) ->
             member[dim] = (*stratum as f64 + rng.gen::<f64>()) / n as f64;
         }
     }
-    population[0] = parameters.iter().map(|p| p.to_unit(p.start).clamp(0.0, 1.0)).collect();
+    population[0] = parameters
+        .iter()
+        .map(|p| p.to_unit(p.start).clamp(0.0, 1.0))
+        .collect();
     EngineState {
         phase: Phase::Global,
         iteration: 0,
@@ -232,7 +239,9 @@ pub fn optimise<M: Model>(
         state.elapsed_s = clock.elapsed_s();
         let evaluation = match evaluations.iter().position(|e| e.cost == state.best_cost) {
             Some(i) => evaluations[i].clone(),
-            None => best_evaluation.get_or_insert_with(|| objective.evaluate(&values_of(parameters, &state.best_unit))).clone(),
+            None => best_evaluation
+                .get_or_insert_with(|| objective.evaluate(&values_of(parameters, &state.best_unit)))
+                .clone(),
         };
         observer.iteration(&IterationReport {
             iteration: state.iteration,
@@ -272,31 +281,49 @@ pub fn optimise<M: Model>(
 /// The reason given when the observer asked the run to stop.
 pub const STOP_REQUESTED: &str = "stopped on request";
 
-fn stop_reason(state: &EngineState, settings: &EngineSettings, clock: &Clock, observer: &mut dyn Observer) -> Option<String> {
+fn stop_reason(
+    state: &EngineState,
+    settings: &EngineSettings,
+    clock: &Clock,
+    observer: &mut dyn Observer,
+) -> Option<String> {
     if observer.should_stop() {
         return Some(STOP_REQUESTED.to_string());
     }
     if state.best_cost <= settings.target_objective {
-        return Some(format!("reached the target objective {}", settings.target_objective));
+        return Some(format!(
+            "reached the target objective {}",
+            settings.target_objective
+        ));
     }
     let next = state.evaluations + state.population.len() as u64;
     if next > settings.max_evaluations {
-        return Some(format!("reached the evaluation budget ({})", settings.max_evaluations));
+        return Some(format!(
+            "reached the evaluation budget ({})",
+            settings.max_evaluations
+        ));
     }
     if let Some(budget) = settings.time_budget_s {
         if clock.elapsed_s() >= budget {
             return Some(format!("reached the time budget ({budget:.0} s)"));
         }
     }
-    if settings.stagnation_generations > 0 && state.generations_since_improvement >= settings.stagnation_generations {
-        return Some(format!("no improvement in {} generations", settings.stagnation_generations));
+    if settings.stagnation_generations > 0
+        && state.generations_since_improvement >= settings.stagnation_generations
+    {
+        return Some(format!(
+            "no improvement in {} generations",
+            settings.stagnation_generations
+        ));
     }
     None
 }
 
 /// DE/rand-to-best/1/bin trial vectors for the next generation.
 fn propose_generation(state: &EngineState, seed: u64) -> Vec<Vec<f64>> {
-    let mut rng = ChaCha8Rng::seed_from_u64(seed.wrapping_mul(0x9E37_79B9_7F4A_7C15) ^ (state.generation + 1));
+    let mut rng = ChaCha8Rng::seed_from_u64(
+        seed.wrapping_mul(0x9E37_79B9_7F4A_7C15) ^ (state.generation + 1),
+    );
     let n = state.population.len();
     let dims = state.best_unit.len();
     let scale = rng.gen_range(SCALE_FACTOR_RANGE.0..SCALE_FACTOR_RANGE.1);
@@ -380,14 +407,20 @@ impl<M: Model> CostFunction for LocalProblem<'_, '_, '_, '_, M> {
             .tracker
             .lock()
             .map_err(|_| argmin::core::Error::msg("progress tracker poisoned"))?;
-        let out_of_time = self.time_budget_s.is_some_and(|b| self.elapsed.elapsed_s() >= b);
+        let out_of_time = self
+            .time_budget_s
+            .is_some_and(|b| self.elapsed.elapsed_s() >= b);
         if tracker.evaluations >= self.budget || out_of_time || tracker.observer.should_stop() {
             tracker.stop = true;
             return Err(argmin::core::Error::msg("local refinement budget reached"));
         }
         let clamped: Vec<f64> = unit.iter().map(|u| u.clamp(0.0, 1.0)).collect();
         // Leaving the box costs in proportion to how far, so the simplex turns back.
-        let outside: f64 = unit.iter().zip(&clamped).map(|(u, c)| (u - c).powi(2)).sum();
+        let outside: f64 = unit
+            .iter()
+            .zip(&clamped)
+            .map(|(u, c)| (u - c).powi(2))
+            .sum();
         let parameters = self.objective.parameters();
         let values = values_of(parameters, &clamped);
         drop(tracker);
@@ -430,7 +463,11 @@ fn refine_locally<M: Model>(
     let mut simplex = vec![state.best_unit.clone()];
     for d in 0..dims {
         let mut vertex = state.best_unit.clone();
-        vertex[d] = if vertex[d] + 0.05 <= 1.0 { vertex[d] + 0.05 } else { vertex[d] - 0.05 };
+        vertex[d] = if vertex[d] + 0.05 <= 1.0 {
+            vertex[d] + 0.05
+        } else {
+            vertex[d] - 0.05
+        };
         simplex.push(vertex);
     }
     let tracker = Mutex::new(LocalTracker {
@@ -475,5 +512,9 @@ fn refine_locally<M: Model>(
     } else {
         "local refinement ended".to_string()
     };
-    state.stop_reason = Some(if global_reason.is_empty() { local } else { format!("{global_reason}; {local}") });
+    state.stop_reason = Some(if global_reason.is_empty() {
+        local
+    } else {
+        format!("{global_reason}; {local}")
+    });
 }

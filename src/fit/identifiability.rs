@@ -20,8 +20,13 @@ pub const STRONG_CORRELATION: f64 = 0.95;
 #[derive(Debug, Clone, PartialEq)]
 pub enum Warning {
     /// Within 1 % of the bound's range from a bound: the data push it out of the box.
-    AtBound { which: &'static str },
-    StronglyCorrelated { with: String, correlation: f64 },
+    AtBound {
+        which: &'static str,
+    },
+    StronglyCorrelated {
+        with: String,
+        correlation: f64,
+    },
     /// Its 95 % interval is wider than half its bounds, or the data do not constrain it.
     PoorlyDetermined,
 }
@@ -75,17 +80,27 @@ pub enum IdentifiabilityError {
     TooFewResiduals { n: usize, p: usize },
 }
 
-fn with_fit_coordinate(parameters: &[FreeParameter], values: &[f64], index: usize, coordinate: f64) -> Vec<f64> {
+fn with_fit_coordinate(
+    parameters: &[FreeParameter],
+    values: &[f64],
+    index: usize,
+    coordinate: f64,
+) -> Vec<f64> {
     let mut shifted = values.to_vec();
     shifted[index] = parameters[index].from_fit_space(coordinate);
     shifted
 }
 
 /// Analyses the fit at `values` (file units).
-pub fn analyse<M: Model>(objective: &Objective<'_, M>, values: &[f64]) -> Result<Identifiability, IdentifiabilityError> {
+pub fn analyse<M: Model>(
+    objective: &Objective<'_, M>,
+    values: &[f64],
+) -> Result<Identifiability, IdentifiabilityError> {
     let parameters = objective.parameters();
     let p = parameters.len();
-    let base = objective.residuals(values).map_err(IdentifiabilityError::Model)?;
+    let base = objective
+        .residuals(values)
+        .map_err(IdentifiabilityError::Model)?;
     let n = base.len();
     if n <= p {
         return Err(IdentifiabilityError::TooFewResiduals { n, p });
@@ -101,9 +116,21 @@ pub fn analyse<M: Model>(objective: &Objective<'_, M>, values: &[f64]) -> Result
             let lower = parameter.to_fit_space(parameter.lower);
             let upper = parameter.to_fit_space(parameter.upper);
             let (a, b) = ((x - step).max(lower), (x + step).min(upper));
-            let ra = if a < x { objective.residuals(&with_fit_coordinate(parameters, values, j, a))? } else { base.clone() };
-            let rb = if b > x { objective.residuals(&with_fit_coordinate(parameters, values, j, b))? } else { base.clone() };
-            Ok(ra.iter().zip(&rb).map(|(ra, rb)| (rb - ra) / (b - a)).collect())
+            let ra = if a < x {
+                objective.residuals(&with_fit_coordinate(parameters, values, j, a))?
+            } else {
+                base.clone()
+            };
+            let rb = if b > x {
+                objective.residuals(&with_fit_coordinate(parameters, values, j, b))?
+            } else {
+                base.clone()
+            };
+            Ok(ra
+                .iter()
+                .zip(&rb)
+                .map(|(ra, rb)| (rb - ra) / (b - a))
+                .collect())
         })
         .collect();
     let mut jacobian = DMatrix::<f64>::zeros(n, p);
@@ -126,7 +153,8 @@ pub fn analyse<M: Model>(objective: &Objective<'_, M>, values: &[f64]) -> Result
         for (k, &sigma) in svd.singular_values.iter().enumerate() {
             let direction: DVector<f64> = v_t.row(k).transpose();
             if sigma > 1e-10 * largest {
-                covariance += (&direction * direction.transpose()) * (residual_variance / (sigma * sigma));
+                covariance +=
+                    (&direction * direction.transpose()) * (residual_variance / (sigma * sigma));
             } else {
                 for j in 0..p {
                     if direction[j].abs() > 1e-3 {
@@ -153,13 +181,26 @@ pub fn analyse<M: Model>(objective: &Objective<'_, M>, values: &[f64]) -> Result
         .iter()
         .enumerate()
         .map(|(i, parameter)| {
-            let standard_error = if undetermined[i] { f64::INFINITY } else { covariance[(i, i)].max(0.0).sqrt() };
+            let standard_error = if undetermined[i] {
+                f64::INFINITY
+            } else {
+                covariance[(i, i)].max(0.0).sqrt()
+            };
             let x = parameter.to_fit_space(values[i]);
             let half = NORMAL_95 * standard_error;
             let interval_95 = if half.is_finite() {
-                (parameter.from_fit_space(x - half), parameter.from_fit_space(x + half))
+                (
+                    parameter.from_fit_space(x - half),
+                    parameter.from_fit_space(x + half),
+                )
             } else {
-                (match parameter.scale { Scale::Log => 0.0, Scale::Linear => f64::NEG_INFINITY }, f64::INFINITY)
+                (
+                    match parameter.scale {
+                        Scale::Log => 0.0,
+                        Scale::Linear => f64::NEG_INFINITY,
+                    },
+                    f64::INFINITY,
+                )
             };
             let mut warnings = Vec::new();
             let unit = parameter.to_unit(values[i]);
@@ -192,7 +233,9 @@ pub fn analyse<M: Model>(objective: &Objective<'_, M>, values: &[f64]) -> Result
     Ok(Identifiability {
         estimates,
         correlation,
-        covariance: (0..p).map(|i| (0..p).map(|j| covariance[(i, j)]).collect()).collect(),
+        covariance: (0..p)
+            .map(|i| (0..p).map(|j| covariance[(i, j)]).collect())
+            .collect(),
         n_residuals: n,
         residual_variance,
         singular_values,

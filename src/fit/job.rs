@@ -217,7 +217,12 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
         other => other,
     })?;
     // The specimen layers take the job's (starting) material.
-    for (layer, model) in scenario.scenario.layers.iter_mut().zip(scenario.materials.iter_mut()) {
+    for (layer, model) in scenario
+        .scenario
+        .layers
+        .iter_mut()
+        .zip(scenario.materials.iter_mut())
+    {
         if layer.is_specimen {
             if layer.material.components.len() != material.material.components.len() {
                 return Err(source.invalid(
@@ -247,7 +252,14 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
     let settings = build_settings(&source, &file.settings)?;
     let mut cases = Vec::new();
     for (idx, raw) in file.cases.iter().enumerate() {
-        cases.push(build_case(&source, idx, raw, base, &scenario, settings.output_interval_s)?);
+        cases.push(build_case(
+            &source,
+            idx,
+            raw,
+            base,
+            &scenario,
+            settings.output_interval_s,
+        )?);
     }
     Ok(FitJob {
         path: path.to_path_buf(),
@@ -270,25 +282,43 @@ pub fn parse_path(
     let parts: Vec<&str> = path.split('.').collect();
     let component = |name: &str| {
         material.material.component_index(name).ok_or_else(|| {
-            let names: Vec<&str> = material.material.components.iter().map(|c| c.name.as_str()).collect();
-            format!("names no component `{name}` (components are {})", names.join(", "))
+            let names: Vec<&str> = material
+                .material
+                .components
+                .iter()
+                .map(|c| c.name.as_str())
+                .collect();
+            format!(
+                "names no component `{name}` (components are {})",
+                names.join(", ")
+            )
         })
     };
     let reaction = |index: &str| -> Result<usize, String> {
         let n = material.material.reactions.len();
         match index.parse::<usize>() {
             Ok(i) if i < n => Ok(i),
-            _ => Err(format!("reaction index must be 0..{} (the order of [[reaction]] tables), got `{index}`", n.saturating_sub(1))),
+            _ => Err(format!(
+                "reaction index must be 0..{} (the order of [[reaction]] tables), got `{index}`",
+                n.saturating_sub(1)
+            )),
         }
     };
-    let property_part = |law: &crate::physics::material::PropertyLaw, rest: &[&str]| -> Result<PropertyPart, String> {
+    let property_part = |law: &crate::physics::material::PropertyLaw,
+                         rest: &[&str]|
+     -> Result<PropertyPart, String> {
         use crate::physics::material::PropertyLaw;
         match (rest, law) {
             ([] | ["value"], PropertyLaw::PowerLaw { .. }) => Ok(PropertyPart::Value),
             (["exponent"], PropertyLaw::PowerLaw { .. }) => Ok(PropertyPart::Exponent),
             (["factor"], _) => Ok(PropertyPart::Factor),
-            (_, PropertyLaw::Table(_)) => Err("is a table: fit it with `.factor` (a factor on every value)".into()),
-            _ => Err(format!("ends in `{}`; a property takes `.value` (default), `.exponent` or `.factor`", rest.join("."))),
+            (_, PropertyLaw::Table(_)) => {
+                Err("is a table: fit it with `.factor` (a factor on every value)".into())
+            }
+            _ => Err(format!(
+                "ends in `{}`; a property takes `.value` (default), `.exponent` or `.factor`",
+                rest.join(".")
+            )),
         }
     };
     let unknown = || {
@@ -305,14 +335,22 @@ pub fn parse_path(
                 "density_kg_m3" if rest.is_empty() => (Target::Density { component: c }, "kg/m³"),
                 "conductivity_w_m_k" => {
                     let part = property_part(&comp.conductivity_w_m_k, rest)?;
-                    (Target::Conductivity { component: c, part }, part_unit(part, "W/(m·K)"))
+                    (
+                        Target::Conductivity { component: c, part },
+                        part_unit(part, "W/(m·K)"),
+                    )
                 }
                 "specific_heat_j_kg_k" => {
                     let part = property_part(&comp.specific_heat_j_kg_k, rest)?;
-                    (Target::SpecificHeat { component: c, part }, part_unit(part, "J/(kg·K)"))
+                    (
+                        Target::SpecificHeat { component: c, part },
+                        part_unit(part, "J/(kg·K)"),
+                    )
                 }
                 "emissivity" if rest.is_empty() => (Target::Emissivity { component: c }, "–"),
-                "absorption_per_m" if rest.is_empty() => (Target::Absorption { component: c }, "1/m"),
+                "absorption_per_m" if rest.is_empty() => {
+                    (Target::Absorption { component: c }, "1/m")
+                }
                 _ => return Err(unknown()),
             }
         }
@@ -325,7 +363,9 @@ pub fn parse_path(
                 "heat_of_reaction_kj_kg" => (Target::HeatOfReaction { reaction: r }, "kJ/kg"),
                 "yield" => (Target::Yield { reaction: r }, "kg/kg"),
                 "fuel_fraction" => (Target::FuelFraction { reaction: r }, "–"),
-                "heat_of_combustion_mj_kg" => (Target::HeatOfCombustion { reactions: vec![r] }, "MJ/kg"),
+                "heat_of_combustion_mj_kg" => {
+                    (Target::HeatOfCombustion { reactions: vec![r] }, "MJ/kg")
+                }
                 "peak_temperature_k" => (
                     Target::PeakTemperature {
                         reaction: r,
@@ -334,7 +374,13 @@ pub fn parse_path(
                     "K",
                 ),
                 "log10_rate_per_s" => match reference_temperature_k {
-                    Some(temperature_k) => (Target::Log10RateAt { reaction: r, temperature_k }, "log10(1/s)"),
+                    Some(temperature_k) => (
+                        Target::Log10RateAt {
+                            reaction: r,
+                            temperature_k,
+                        },
+                        "log10(1/s)",
+                    ),
                     None => return Err("`log10_rate_per_s` needs `reference_temperature_k`".into()),
                 },
                 _ => return Err(unknown()),
@@ -352,7 +398,9 @@ pub fn parse_path(
             (Target::HeatOfCombustion { reactions }, "MJ/kg")
         }
         ["exposure", "flame_heat_flux_kw_m2"] => (Target::FlameHeatFlux, "kW/m²"),
-        ["exposure", "convective_coefficient_w_m2_k"] => (Target::ConvectiveCoefficient, "W/(m²·K)"),
+        ["exposure", "convective_coefficient_w_m2_k"] => {
+            (Target::ConvectiveCoefficient, "W/(m²·K)")
+        }
         ["ignition", "critical_fuel_mass_flux_g_m2s"] => (Target::CriticalFuelMassFlux, "g/(m²·s)"),
         _ => return Err(unknown()),
     })
@@ -387,8 +435,13 @@ fn build_parameter(
         .map_err(|problem| source.invalid(&raw.path.span(), &key("path"), problem))?;
     let mut targets = vec![target];
     for tie in &raw.tie {
-        let (tied, tied_unit) = parse_path(tie.get_ref().trim(), material, heating_rate_k_s, reference_temperature_k)
-            .map_err(|problem| source.invalid(&tie.span(), &key("tie"), problem))?;
+        let (tied, tied_unit) = parse_path(
+            tie.get_ref().trim(),
+            material,
+            heating_rate_k_s,
+            reference_temperature_k,
+        )
+        .map_err(|problem| source.invalid(&tie.span(), &key("tie"), problem))?;
         if tied_unit != unit {
             return Err(source.invalid(
                 &tie.span(),
@@ -401,14 +454,22 @@ fn build_parameter(
     let lower = source.finite(&raw.min, &key("min"))?;
     let upper = source.finite(&raw.max, &key("max"))?;
     if upper <= lower {
-        return Err(source.invalid(&raw.max.span(), &key("max"), format!("must be above min ({lower}), got {upper}")));
+        return Err(source.invalid(
+            &raw.max.span(),
+            &key("max"),
+            format!("must be above min ({lower}), got {upper}"),
+        ));
     }
     let scale = match raw.scale {
         Some(ScaleFile::Log) => Scale::Log,
         Some(ScaleFile::Linear) | None => Scale::Linear,
     };
     if scale == Scale::Log && lower <= 0.0 {
-        return Err(source.invalid(&raw.min.span(), &key("min"), format!("must be > 0 on a log scale, got {lower}")));
+        return Err(source.invalid(
+            &raw.min.span(),
+            &key("min"),
+            format!("must be > 0 on a log scale, got {lower}"),
+        ));
     }
     let start = match &raw.start {
         Some(value) => source.finite(value, &key("start"))?,
@@ -426,7 +487,11 @@ fn build_parameter(
         None => None,
         Some(kind) => {
             let (Some(mean), Some(sd)) = (&raw.prior_mean, &raw.prior_sd) else {
-                return Err(source.invalid(&raw.path.span(), &key("prior"), "needs `prior_mean` and `prior_sd`"));
+                return Err(source.invalid(
+                    &raw.path.span(),
+                    &key("prior"),
+                    "needs `prior_mean` and `prior_sd`",
+                ));
             };
             let sd_value = source.positive(sd, &key("prior_sd"))?;
             Some(match kind {
@@ -454,17 +519,26 @@ fn build_parameter(
 }
 
 fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseError> {
-    let count = |value: &Option<Spanned<i64>>, field: &str, default: usize| -> Result<usize, CaseError> {
-        match value {
-            None => Ok(default),
-            Some(v) if *v.get_ref() >= 0 => Ok(*v.get_ref() as usize),
-            Some(v) => Err(source.invalid(&v.span(), &format!("settings.{field}"), format!("must be ≥ 0, got {}", v.get_ref()))),
-        }
-    };
+    let count =
+        |value: &Option<Spanned<i64>>, field: &str, default: usize| -> Result<usize, CaseError> {
+            match value {
+                None => Ok(default),
+                Some(v) if *v.get_ref() >= 0 => Ok(*v.get_ref() as usize),
+                Some(v) => Err(source.invalid(
+                    &v.span(),
+                    &format!("settings.{field}"),
+                    format!("must be ≥ 0, got {}", v.get_ref()),
+                )),
+            }
+        };
     let time_budget = match &raw.time {
         None => None,
         Some(text) => Some(humantime::parse_duration(text.get_ref()).map_err(|err| {
-            source.invalid(&text.span(), "settings.time", format!("is not a duration like \"8h\" or \"90min\": {err}"))
+            source.invalid(
+                &text.span(),
+                "settings.time",
+                format!("is not a duration like \"8h\" or \"90min\": {err}"),
+            )
         })?),
     };
     Ok(Settings {
@@ -503,10 +577,18 @@ fn build_case(
     for test in &raw.tests {
         let test_path = base.join(test.get_ref());
         let description = TestDescription::load(&test_path).map_err(|err| {
-            source.invalid(&test.span(), &key("tests"), format!("cannot use {}: {err}", test_path.display()))
+            source.invalid(
+                &test.span(),
+                &key("tests"),
+                format!("cannot use {}: {err}", test_path.display()),
+            )
         })?;
         let result = reduce(&description).map_err(|err| {
-            source.invalid(&test.span(), &key("tests"), format!("cannot reduce {}: {err}", test_path.display()))
+            source.invalid(
+                &test.span(),
+                &key("tests"),
+                format!("cannot reduce {}: {err}", test_path.display()),
+            )
         })?;
         reduced.push(result);
         test_files.push(test_path);
@@ -535,7 +617,10 @@ fn build_case(
         _ => Alignment::ExposureStart,
     };
     let repeats = if reduced.len() > 1 {
-        Some(combine(&reduced, alignment).map_err(|err| source.inconsistent(format!("case `{}`: {err}", raw.name)))?)
+        Some(
+            combine(&reduced, alignment)
+                .map_err(|err| source.inconsistent(format!("case `{}`: {err}", raw.name)))?,
+        )
     } else {
         None
     };
@@ -555,45 +640,58 @@ fn build_case(
                 raw_signal.signal.name()
             ))
         };
-        let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) = match raw_signal.signal {
-            SignalKind::IgnitionTime => {
-                let times: Vec<f64> = reduced.iter().filter_map(|r| r.report.ignition_time_s).collect();
-                if times.is_empty() {
-                    return Err(missing("ignition time"));
-                }
-                let mean = times.iter().sum::<f64>() / times.len() as f64;
-                let spread = (times.len() > 1).then(|| {
-                    let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>() / (times.len() - 1) as f64;
-                    vec![var.sqrt()]
-                });
-                (vec![mean], vec![mean], spread)
-            }
-            kind => match &repeats {
-                Some(set) => {
-                    let curve = match kind {
-                        SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
-                        SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
-                        _ => set.mass_g.as_ref(),
+        let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) =
+            match raw_signal.signal {
+                SignalKind::IgnitionTime => {
+                    let times: Vec<f64> = reduced
+                        .iter()
+                        .filter_map(|r| r.report.ignition_time_s)
+                        .collect();
+                    if times.is_empty() {
+                        return Err(missing("ignition time"));
                     }
-                    .ok_or_else(|| missing(kind.name()))?;
-                    (set.time_s.clone(), curve.mean.clone(), Some(curve.standard_deviation.clone()))
+                    let mean = times.iter().sum::<f64>() / times.len() as f64;
+                    let spread = (times.len() > 1).then(|| {
+                        let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
+                            / (times.len() - 1) as f64;
+                        vec![var.sqrt()]
+                    });
+                    (vec![mean], vec![mean], spread)
                 }
-                None => {
-                    let curve = match kind {
-                        SignalKind::Mlr => first.mlr_g_m2s.as_ref(),
-                        SignalKind::Hrr => first.hrr_kw_m2.as_ref(),
-                        _ => first.mass_g.as_ref(),
+                kind => match &repeats {
+                    Some(set) => {
+                        let curve = match kind {
+                            SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
+                            SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
+                            _ => set.mass_g.as_ref(),
+                        }
+                        .ok_or_else(|| missing(kind.name()))?;
+                        (
+                            set.time_s.clone(),
+                            curve.mean.clone(),
+                            Some(curve.standard_deviation.clone()),
+                        )
                     }
-                    .ok_or_else(|| missing(kind.name()))?;
-                    (first.time_s.clone(), curve.clone(), None)
-                }
-            },
-        };
+                    None => {
+                        let curve = match kind {
+                            SignalKind::Mlr => first.mlr_g_m2s.as_ref(),
+                            SignalKind::Hrr => first.hrr_kw_m2.as_ref(),
+                            _ => first.mass_g.as_ref(),
+                        }
+                        .ok_or_else(|| missing(kind.name()))?;
+                        (first.time_s.clone(), curve.clone(), None)
+                    }
+                },
+            };
         let (window_start, window_end) = match &raw_signal.window_s {
             Some(w) => {
                 let [a, b] = *w.get_ref();
                 if b <= a {
-                    return Err(source.invalid(&w.span(), &skey("window_s"), format!("must be [start, end] with end > start, got [{a}, {b}]")));
+                    return Err(source.invalid(
+                        &w.span(),
+                        &skey("window_s"),
+                        format!("must be [start, end] with end > start, got [{a}, {b}]"),
+                    ));
                 }
                 (a, b)
             }
@@ -603,7 +701,8 @@ fn build_case(
         let mut kept_value = Vec::new();
         let mut kept_spread = Vec::new();
         for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
-            let in_window = raw_signal.signal == SignalKind::IgnitionTime || (t >= window_start.max(0.0) && t <= window_end);
+            let in_window = raw_signal.signal == SignalKind::IgnitionTime
+                || (t >= window_start.max(0.0) && t <= window_end);
             if in_window && v.is_finite() {
                 kept_time.push(t);
                 kept_value.push(v);
@@ -611,17 +710,43 @@ fn build_case(
             }
         }
         if kept_time.is_empty() {
-            return Err(source.inconsistent(format!("case `{}`: signal `{}` has no data in its window", raw.name, raw_signal.signal.name())));
+            return Err(source.inconsistent(format!(
+                "case `{}`: signal `{}` has no data in its window",
+                raw.name,
+                raw_signal.signal.name()
+            )));
         }
-        let peak = kept_value.iter().fold(0.0f64, |m, v| m.max(v.abs())).max(f64::MIN_POSITIVE);
+        let peak = kept_value
+            .iter()
+            .fold(0.0f64, |m, v| m.max(v.abs()))
+            .max(f64::MIN_POSITIVE);
         let (sigma, sigma_source) = match (&raw_signal.sigma, spread.is_some()) {
-            (Some(v), _) => (vec![source.positive(v, &skey("sigma"))?; kept_time.len()], "sigma"),
+            (Some(v), _) => (
+                vec![source.positive(v, &skey("sigma"))?; kept_time.len()],
+                "sigma",
+            ),
             (None, true) => {
                 // The repeat spread, floored at 2 % of the peak where repeats agree too well.
-                (kept_spread.iter().map(|s| if s.is_finite() { s.max(0.02 * peak) } else { 0.1 * peak }).collect(), "repeats")
+                (
+                    kept_spread
+                        .iter()
+                        .map(|s| {
+                            if s.is_finite() {
+                                s.max(0.02 * peak)
+                            } else {
+                                0.1 * peak
+                            }
+                        })
+                        .collect(),
+                    "repeats",
+                )
             }
             (None, false) => {
-                let scale = if raw_signal.signal == SignalKind::IgnitionTime { 0.1 * peak } else { peak };
+                let scale = if raw_signal.signal == SignalKind::IgnitionTime {
+                    0.1 * peak
+                } else {
+                    peak
+                };
                 (vec![scale; kept_time.len()], "peak")
             }
         };

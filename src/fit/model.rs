@@ -42,7 +42,11 @@ impl<'a> CaseModel<'a> {
     }
 
     /// Runs one case with these parameter values; returns the full history too (for exports).
-    pub fn simulate_case(&self, case: &FitCase, values: &[f64]) -> Result<crate::physics::History, ModelError> {
+    pub fn simulate_case(
+        &self,
+        case: &FitCase,
+        values: &[f64],
+    ) -> Result<crate::physics::History, ModelError> {
         let mut scenario = case.scenario.scenario.clone();
         let mut material = self.job.material.material.clone();
         apply_all(&self.job.parameters, values, &mut material, &mut scenario);
@@ -51,11 +55,13 @@ impl<'a> CaseModel<'a> {
         }
         // Values inside the bounds can still be unphysical together (e.g. a yield of 1 with a
         // lighter char): the material's own check says so.
-        crate::physics::material::Material::new(material.components.clone(), material.reactions.clone()).map_err(|err| {
-            ModelError {
-                case: case.name.clone(),
-                message: err.to_string(),
-            }
+        crate::physics::material::Material::new(
+            material.components.clone(),
+            material.reactions.clone(),
+        )
+        .map_err(|err| ModelError {
+            case: case.name.clone(),
+            message: err.to_string(),
         })?;
         simulate(&scenario).map_err(|err| ModelError {
             case: case.name.clone(),
@@ -79,7 +85,12 @@ impl Model for CaseModel<'_> {
                     .signals
                     .iter()
                     .map(|signal| SignalCurve {
-                        values: model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s),
+                        values: model_at_data_times(
+                            &history,
+                            case.exposed_area_m2,
+                            signal.kind,
+                            &signal.time_s,
+                        ),
                     })
                     .collect())
             })
@@ -88,15 +99,29 @@ impl Model for CaseModel<'_> {
 }
 
 /// The model's value of `kind` at each data time, in the signal's unit.
-pub fn model_at_data_times(history: &crate::physics::History, area_m2: f64, kind: SignalKind, times_s: &[f64]) -> Vec<f64> {
+pub fn model_at_data_times(
+    history: &crate::physics::History,
+    area_m2: f64,
+    kind: SignalKind,
+    times_s: &[f64],
+) -> Vec<f64> {
     match kind {
         SignalKind::IgnitionTime => {
             // A specimen that never ignites is scored as igniting at the end of the run.
             let end_s = history.samples.last().map_or(0.0, |s| s.time_s);
             vec![history.summary.ignition_time_s.unwrap_or(end_s)]
         }
-        SignalKind::Mlr => times_s.iter().map(|&t| history.value_at(t, |s| s.mlr_kg_m2_s) * 1e3).collect(),
-        SignalKind::Hrr => times_s.iter().map(|&t| history.value_at(t, |s| s.hrr_w_m2) * 1e-3).collect(),
-        SignalKind::Mass => times_s.iter().map(|&t| history.value_at(t, |s| s.mass_kg_m2) * area_m2 * 1e3).collect(),
+        SignalKind::Mlr => times_s
+            .iter()
+            .map(|&t| history.value_at(t, |s| s.mlr_kg_m2_s) * 1e3)
+            .collect(),
+        SignalKind::Hrr => times_s
+            .iter()
+            .map(|&t| history.value_at(t, |s| s.hrr_w_m2) * 1e-3)
+            .collect(),
+        SignalKind::Mass => times_s
+            .iter()
+            .map(|&t| history.value_at(t, |s| s.mass_kg_m2) * area_m2 * 1e3)
+            .collect(),
     }
 }

@@ -53,7 +53,9 @@ impl<'a, M: Model> Objective<'a, M> {
         for (case, case_curves) in self.cases.iter().zip(&curves) {
             for (signal, curve) in case.signals.iter().zip(case_curves) {
                 let root_weight = signal.weight.sqrt();
-                for ((model, data), sigma) in curve.values.iter().zip(&signal.value).zip(&signal.sigma) {
+                for ((model, data), sigma) in
+                    curve.values.iter().zip(&signal.value).zip(&signal.sigma)
+                {
                     residuals.push(root_weight * (model - data) / sigma);
                 }
             }

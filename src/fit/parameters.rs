@@ -20,7 +20,10 @@ pub enum Prior {
     /// Normal with this mean and standard deviation, in the file's units.
     Normal { mean: f64, standard_deviation: f64 },
     /// Log-normal: log10 of the value is normal around log10(median) with this deviation.
-    LogNormal { median: f64, standard_deviation_log10: f64 },
+    LogNormal {
+        median: f64,
+        standard_deviation_log10: f64,
+    },
 }
 
 impl Prior {
@@ -59,27 +62,59 @@ pub enum PropertyPart {
 /// g/(m²·s)); `apply` converts to SI.
 #[derive(Debug, Clone, PartialEq)]
 pub enum Target {
-    Density { component: usize },
-    Conductivity { component: usize, part: PropertyPart },
-    SpecificHeat { component: usize, part: PropertyPart },
-    Emissivity { component: usize },
-    Absorption { component: usize },
-    PreExponential { reaction: usize },
-    ActivationEnergy { reaction: usize },
-    Order { reaction: usize },
-    HeatOfReaction { reaction: usize },
-    Yield { reaction: usize },
-    FuelFraction { reaction: usize },
+    Density {
+        component: usize,
+    },
+    Conductivity {
+        component: usize,
+        part: PropertyPart,
+    },
+    SpecificHeat {
+        component: usize,
+        part: PropertyPart,
+    },
+    Emissivity {
+        component: usize,
+    },
+    Absorption {
+        component: usize,
+    },
+    PreExponential {
+        reaction: usize,
+    },
+    ActivationEnergy {
+        reaction: usize,
+    },
+    Order {
+        reaction: usize,
+    },
+    HeatOfReaction {
+        reaction: usize,
+    },
+    Yield {
+        reaction: usize,
+    },
+    FuelFraction {
+        reaction: usize,
+    },
     /// Heat of combustion of these reactions' fuel (the material-level value reaches every
     /// reaction without its own).
-    HeatOfCombustion { reactions: Vec<usize> },
+    HeatOfCombustion {
+        reactions: Vec<usize>,
+    },
     /// Arrhenius reparametrisation: the temperature of peak rate at a reference heating rate
     /// (first-order Kissinger condition E·β/(R·T_p²) = A·exp(−E/(R·T_p))), which sets A from
     /// the reaction's current E. Applied after every direct target.
-    PeakTemperature { reaction: usize, heating_rate_k_s: f64 },
+    PeakTemperature {
+        reaction: usize,
+        heating_rate_k_s: f64,
+    },
     /// Arrhenius reparametrisation: log10 of the rate constant at a reference temperature,
     /// which sets A = k_ref·exp(E/(R·T_ref)). Applied after every direct target.
-    Log10RateAt { reaction: usize, temperature_k: f64 },
+    Log10RateAt {
+        reaction: usize,
+        temperature_k: f64,
+    },
     FlameHeatFlux,
     ConvectiveCoefficient,
     CriticalFuelMassFlux,
@@ -88,15 +123,30 @@ pub enum Target {
 impl Target {
     /// Whether this target derives A from E and must be applied after the direct targets.
     pub fn is_derived(&self) -> bool {
-        matches!(self, Target::PeakTemperature { .. } | Target::Log10RateAt { .. })
+        matches!(
+            self,
+            Target::PeakTemperature { .. } | Target::Log10RateAt { .. }
+        )
     }
 
     /// Sets `value` (file units) into the material or the scenario.
     pub fn apply(&self, value: f64, material: &mut Material, scenario: &mut Scenario) {
-        fn set_property(law: &mut PropertyLaw, part: PropertyPart, value: f64, original: &PropertyLaw) {
+        fn set_property(
+            law: &mut PropertyLaw,
+            part: PropertyPart,
+            value: f64,
+            original: &PropertyLaw,
+        ) {
             match (part, law) {
-                (PropertyPart::Value, PropertyLaw::PowerLaw { value_at_reference, .. }) => *value_at_reference = value,
-                (PropertyPart::Exponent, PropertyLaw::PowerLaw { exponent, .. }) => *exponent = value,
+                (
+                    PropertyPart::Value,
+                    PropertyLaw::PowerLaw {
+                        value_at_reference, ..
+                    },
+                ) => *value_at_reference = value,
+                (PropertyPart::Exponent, PropertyLaw::PowerLaw { exponent, .. }) => {
+                    *exponent = value
+                }
                 (PropertyPart::Factor, law) => {
                     *law = match original {
                         PropertyLaw::PowerLaw {
@@ -108,7 +158,9 @@ impl Target {
                             reference_temperature_k: *reference_temperature_k,
                             exponent: *exponent,
                         },
-                        PropertyLaw::Table(points) => PropertyLaw::Table(points.iter().map(|&(t, v)| (t, v * value)).collect()),
+                        PropertyLaw::Table(points) => PropertyLaw::Table(
+                            points.iter().map(|&(t, v)| (t, v * value)).collect(),
+                        ),
                     }
                 }
                 // Paths are checked when the job is read; a table has no value or exponent.
@@ -119,20 +171,40 @@ impl Target {
             Target::Density { component } => material.components[*component].density_kg_m3 = value,
             Target::Conductivity { component, part } => {
                 let original = material.components[*component].conductivity_w_m_k.clone();
-                set_property(&mut material.components[*component].conductivity_w_m_k, *part, value, &original)
+                set_property(
+                    &mut material.components[*component].conductivity_w_m_k,
+                    *part,
+                    value,
+                    &original,
+                )
             }
             Target::SpecificHeat { component, part } => {
                 let original = material.components[*component].specific_heat_j_kg_k.clone();
-                set_property(&mut material.components[*component].specific_heat_j_kg_k, *part, value, &original)
+                set_property(
+                    &mut material.components[*component].specific_heat_j_kg_k,
+                    *part,
+                    value,
+                    &original,
+                )
             }
             Target::Emissivity { component } => material.components[*component].emissivity = value,
-            Target::Absorption { component } => material.components[*component].absorption_coefficient_per_m = Some(value),
-            Target::PreExponential { reaction } => material.reactions[*reaction].pre_exponential_per_s = value,
-            Target::ActivationEnergy { reaction } => material.reactions[*reaction].activation_energy_j_mol = value * 1e3,
+            Target::Absorption { component } => {
+                material.components[*component].absorption_coefficient_per_m = Some(value)
+            }
+            Target::PreExponential { reaction } => {
+                material.reactions[*reaction].pre_exponential_per_s = value
+            }
+            Target::ActivationEnergy { reaction } => {
+                material.reactions[*reaction].activation_energy_j_mol = value * 1e3
+            }
             Target::Order { reaction } => material.reactions[*reaction].order = value,
-            Target::HeatOfReaction { reaction } => material.reactions[*reaction].heat_of_reaction_j_kg = value * 1e3,
+            Target::HeatOfReaction { reaction } => {
+                material.reactions[*reaction].heat_of_reaction_j_kg = value * 1e3
+            }
             Target::Yield { reaction } => material.reactions[*reaction].product_yield = value,
-            Target::FuelFraction { reaction } => material.reactions[*reaction].gas.fuel_fraction = value,
+            Target::FuelFraction { reaction } => {
+                material.reactions[*reaction].gas.fuel_fraction = value
+            }
             Target::HeatOfCombustion { reactions } => {
                 for &reaction in reactions {
                     material.reactions[reaction].gas.heat_of_combustion_j_kg = value * 1e6;
@@ -143,12 +215,16 @@ impl Target {
                 heating_rate_k_s,
             } => {
                 let r = &mut material.reactions[*reaction];
-                r.pre_exponential_per_s = pre_exponential_from_peak(r.activation_energy_j_mol, value, *heating_rate_k_s);
-            }
-            Target::Log10RateAt { reaction, temperature_k } => {
-                let r = &mut material.reactions[*reaction];
                 r.pre_exponential_per_s =
-                    10f64.powf(value) * (r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp();
+                    pre_exponential_from_peak(r.activation_energy_j_mol, value, *heating_rate_k_s);
+            }
+            Target::Log10RateAt {
+                reaction,
+                temperature_k,
+            } => {
+                let r = &mut material.reactions[*reaction];
+                r.pre_exponential_per_s = 10f64.powf(value)
+                    * (r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp();
             }
             Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 = value * 1e3,
             Target::ConvectiveCoefficient => {
@@ -156,7 +232,9 @@ impl Target {
                 scenario.exposure.flaming_convective_coefficient_w_m2_k = value;
             }
             Target::CriticalFuelMassFlux => {
-                if let crate::physics::scenario::IgnitionRule::CriticalFuelMassFlux(flux) = &mut scenario.ignition {
+                if let crate::physics::scenario::IgnitionRule::CriticalFuelMassFlux(flux) =
+                    &mut scenario.ignition
+                {
                     *flux = value * 1e-3;
                 }
                 scenario.flameout.threshold_fuel_mass_flux_kg_m2_s = value * 1e-3;
@@ -168,55 +246,92 @@ impl Target {
     /// start value).
     pub fn read(&self, material: &Material, scenario: &Scenario) -> f64 {
         let property = |law: &PropertyLaw, part: PropertyPart| match (part, law) {
-            (PropertyPart::Value, PropertyLaw::PowerLaw { value_at_reference, .. }) => *value_at_reference,
+            (
+                PropertyPart::Value,
+                PropertyLaw::PowerLaw {
+                    value_at_reference, ..
+                },
+            ) => *value_at_reference,
             (PropertyPart::Exponent, PropertyLaw::PowerLaw { exponent, .. }) => *exponent,
             _ => 1.0,
         };
         match self {
             Target::Density { component } => material.components[*component].density_kg_m3,
-            Target::Conductivity { component, part } => property(&material.components[*component].conductivity_w_m_k, *part),
-            Target::SpecificHeat { component, part } => property(&material.components[*component].specific_heat_j_kg_k, *part),
+            Target::Conductivity { component, part } => {
+                property(&material.components[*component].conductivity_w_m_k, *part)
+            }
+            Target::SpecificHeat { component, part } => {
+                property(&material.components[*component].specific_heat_j_kg_k, *part)
+            }
             Target::Emissivity { component } => material.components[*component].emissivity,
-            Target::Absorption { component } => material.components[*component].absorption_coefficient_per_m.unwrap_or(1e4),
-            Target::PreExponential { reaction } => material.reactions[*reaction].pre_exponential_per_s,
-            Target::ActivationEnergy { reaction } => material.reactions[*reaction].activation_energy_j_mol * 1e-3,
+            Target::Absorption { component } => material.components[*component]
+                .absorption_coefficient_per_m
+                .unwrap_or(1e4),
+            Target::PreExponential { reaction } => {
+                material.reactions[*reaction].pre_exponential_per_s
+            }
+            Target::ActivationEnergy { reaction } => {
+                material.reactions[*reaction].activation_energy_j_mol * 1e-3
+            }
             Target::Order { reaction } => material.reactions[*reaction].order,
-            Target::HeatOfReaction { reaction } => material.reactions[*reaction].heat_of_reaction_j_kg * 1e-3,
+            Target::HeatOfReaction { reaction } => {
+                material.reactions[*reaction].heat_of_reaction_j_kg * 1e-3
+            }
             Target::Yield { reaction } => material.reactions[*reaction].product_yield,
             Target::FuelFraction { reaction } => material.reactions[*reaction].gas.fuel_fraction,
-            Target::HeatOfCombustion { reactions } => reactions
-                .first()
-                .map_or(0.0, |&r| material.reactions[r].gas.heat_of_combustion_j_kg * 1e-6),
+            Target::HeatOfCombustion { reactions } => reactions.first().map_or(0.0, |&r| {
+                material.reactions[r].gas.heat_of_combustion_j_kg * 1e-6
+            }),
             Target::PeakTemperature {
                 reaction,
                 heating_rate_k_s,
             } => {
                 let r = &material.reactions[*reaction];
-                peak_temperature_k(r.pre_exponential_per_s, r.activation_energy_j_mol, *heating_rate_k_s)
+                peak_temperature_k(
+                    r.pre_exponential_per_s,
+                    r.activation_energy_j_mol,
+                    *heating_rate_k_s,
+                )
             }
-            Target::Log10RateAt { reaction, temperature_k } => {
+            Target::Log10RateAt {
+                reaction,
+                temperature_k,
+            } => {
                 let r = &material.reactions[*reaction];
-                (r.pre_exponential_per_s * (-r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp()).log10()
+                (r.pre_exponential_per_s
+                    * (-r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp())
+                .log10()
             }
             Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 * 1e-3,
             Target::ConvectiveCoefficient => scenario.exposure.convective_coefficient_w_m2_k,
-            Target::CriticalFuelMassFlux => scenario.flameout.threshold_fuel_mass_flux_kg_m2_s * 1e3,
+            Target::CriticalFuelMassFlux => {
+                scenario.flameout.threshold_fuel_mass_flux_kg_m2_s * 1e3
+            }
         }
     }
 }
 
 /// A from E and the peak temperature at heating rate β, by Kissinger's exact first-order
 /// condition (Kissinger, Anal. Chem. 29 (1957) 1702): A = E·β/(R·T_p²)·exp(E/(R·T_p)).
-pub fn pre_exponential_from_peak(activation_energy_j_mol: f64, peak_k: f64, heating_rate_k_s: f64) -> f64 {
+pub fn pre_exponential_from_peak(
+    activation_energy_j_mol: f64,
+    peak_k: f64,
+    heating_rate_k_s: f64,
+) -> f64 {
     activation_energy_j_mol * heating_rate_k_s / (GAS_CONSTANT_J_MOL_K * peak_k * peak_k)
         * (activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * peak_k)).exp()
 }
 
 /// The peak temperature that Kissinger's first-order condition gives for (A, E, β), K, by
 /// bisection on 200..2000 K.
-pub fn peak_temperature_k(pre_exponential_per_s: f64, activation_energy_j_mol: f64, heating_rate_k_s: f64) -> f64 {
+pub fn peak_temperature_k(
+    pre_exponential_per_s: f64,
+    activation_energy_j_mol: f64,
+    heating_rate_k_s: f64,
+) -> f64 {
     let condition = |t: f64| {
-        (activation_energy_j_mol * heating_rate_k_s / (GAS_CONSTANT_J_MOL_K * t * t)).ln() - pre_exponential_per_s.ln()
+        (activation_energy_j_mol * heating_rate_k_s / (GAS_CONSTANT_J_MOL_K * t * t)).ln()
+            - pre_exponential_per_s.ln()
             + activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * t)
     };
     let (mut lower, mut upper) = (200.0, 2000.0);
@@ -253,7 +368,9 @@ impl FreeParameter {
         let u = u.clamp(0.0, 1.0);
         match self.scale {
             Scale::Linear => self.lower + u * (self.upper - self.lower),
-            Scale::Log => 10f64.powf(self.lower.log10() + u * (self.upper.log10() - self.lower.log10())),
+            Scale::Log => {
+                10f64.powf(self.lower.log10() + u * (self.upper.log10() - self.lower.log10()))
+            }
         }
     }
 
@@ -261,7 +378,9 @@ impl FreeParameter {
     pub fn to_unit(&self, value: f64) -> f64 {
         match self.scale {
             Scale::Linear => (value - self.lower) / (self.upper - self.lower),
-            Scale::Log => (value.log10() - self.lower.log10()) / (self.upper.log10() - self.lower.log10()),
+            Scale::Log => {
+                (value.log10() - self.lower.log10()) / (self.upper.log10() - self.lower.log10())
+            }
         }
     }
 
@@ -288,10 +407,19 @@ impl FreeParameter {
 
 /// Applies a full parameter vector (file units) to copies of a material and a scenario:
 /// direct targets first, then the Arrhenius reparametrisations that depend on E.
-pub fn apply_all(parameters: &[FreeParameter], values: &[f64], material: &mut Material, scenario: &mut Scenario) {
+pub fn apply_all(
+    parameters: &[FreeParameter],
+    values: &[f64],
+    material: &mut Material,
+    scenario: &mut Scenario,
+) {
     for pass_derived in [false, true] {
         for (parameter, &value) in parameters.iter().zip(values) {
-            for target in parameter.targets.iter().filter(|t| t.is_derived() == pass_derived) {
+            for target in parameter
+                .targets
+                .iter()
+                .filter(|t| t.is_derived() == pass_derived)
+            {
                 target.apply(value, material, scenario);
             }
         }

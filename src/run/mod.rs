@@ -21,7 +21,9 @@ use sha2::{Digest, Sha256};
 
 use crate::export::material::{calibrated_material_toml, FittedValue, Provenance};
 use crate::export::write_atomically;
-use crate::fit::engine::{initial_state, optimise, EngineSettings, EngineState, IterationReport, Observer, Outcome, Phase};
+use crate::fit::engine::{
+    initial_state, optimise, EngineSettings, EngineState, IterationReport, Observer, Outcome, Phase,
+};
 use crate::fit::identifiability::{analyse, Identifiability};
 use crate::fit::job::{data_files, load_job, FitJob};
 use crate::fit::model::{model_at_data_times, CaseModel};
@@ -55,7 +57,11 @@ pub enum RunError {
 
 fn io(action: &'static str, path: &Path) -> impl FnOnce(std::io::Error) -> RunError {
     let path = path.to_path_buf();
-    move |source| RunError::Io { action, path, source }
+    move |source| RunError::Io {
+        action,
+        path,
+        source,
+    }
 }
 
 /// The files of a run directory.
@@ -66,7 +72,9 @@ pub struct RunDirectory {
 
 impl RunDirectory {
     pub fn new(root: &Path) -> Self {
-        RunDirectory { root: root.to_path_buf() }
+        RunDirectory {
+            root: root.to_path_buf(),
+        }
     }
     pub fn job(&self) -> PathBuf {
         self.root.join("job.toml")
@@ -159,14 +167,23 @@ pub struct RunOptions {
 /// SHA-256 of a file, as lower-case hex.
 pub fn sha256_hex(path: &Path) -> Result<String, RunError> {
     let bytes = std::fs::read(path).map_err(io("cannot read", path))?;
-    Ok(Sha256::digest(&bytes).iter().map(|b| format!("{b:02x}")).collect())
+    Ok(Sha256::digest(&bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect())
 }
 
 /// A file-system-friendly form of a name.
 pub fn slug(name: &str) -> String {
     let mut out: String = name
         .chars()
-        .map(|c| if c.is_ascii_alphanumeric() { c.to_ascii_lowercase() } else { '-' })
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_lowercase()
+            } else {
+                '-'
+            }
+        })
         .collect();
     while out.contains("--") {
         out = out.replace("--", "-");
@@ -199,12 +216,23 @@ impl Recorder<'_> {
 
     fn write_event(&mut self, event: &ProgressEvent) {
         let path = self.dir.progress();
-        let result = self.writer.write(event).map_err(io("cannot append to", &path));
+        let result = self
+            .writer
+            .write(event)
+            .map_err(io("cannot append to", &path));
         self.record(result);
     }
 
     fn write_best(&mut self, values: &[f64], cost: f64) {
-        let result = write_best_model(self.dir, self.job, self.start_text, values, None, cost, &self.provenance);
+        let result = write_best_model(
+            self.dir,
+            self.job,
+            self.start_text,
+            values,
+            None,
+            cost,
+            &self.provenance,
+        );
         self.record(result);
         self.best_written = cost;
     }
@@ -301,7 +329,11 @@ fn write_best_model(
                 value,
                 interval_95: a.estimates[i].interval_95,
                 standard_error: a.estimates[i].standard_error_fit_space,
-                warnings: a.estimates[i].warnings.iter().map(|w| w.to_string()).collect(),
+                warnings: a.estimates[i]
+                    .warnings
+                    .iter()
+                    .map(|w| w.to_string())
+                    .collect(),
             },
             None => FittedValue {
                 value,
@@ -313,7 +345,14 @@ fn write_best_model(
         .collect();
     let mut provenance = provenance.clone();
     provenance.objective = cost;
-    let text = calibrated_material_toml(&job.material, start_text, &job.parameters, &fitted, &material, &provenance)?;
+    let text = calibrated_material_toml(
+        &job.material,
+        start_text,
+        &job.parameters,
+        &fitted,
+        &material,
+        &provenance,
+    )?;
     let path = dir.best();
     write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))
 }
@@ -326,7 +365,12 @@ pub struct FitReport {
 }
 
 /// Starts or resumes a fit and runs it to its end (or to a stop request).
-pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pause: Arc<AtomicBool>) -> Result<FitReport, RunError> {
+pub fn run_fit(
+    job_path: &Path,
+    options: &RunOptions,
+    stop: Arc<AtomicBool>,
+    pause: Arc<AtomicBool>,
+) -> Result<FitReport, RunError> {
     let mut job = load_job(job_path)?;
     if let Some(seed) = options.seed {
         job.settings.seed = seed;
@@ -339,7 +383,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
     });
     let dir = RunDirectory::new(&options.runs_root.join(&name));
     let job_text = std::fs::read_to_string(job_path).map_err(io("cannot read", job_path))?;
-    let start_text = std::fs::read_to_string(&job.material_path).map_err(io("cannot read", &job.material_path))?;
+    let start_text = std::fs::read_to_string(&job.material_path)
+        .map_err(io("cannot read", &job.material_path))?;
     let mut hashes = std::collections::BTreeMap::new();
     hashes.insert(job_path.display().to_string(), sha256_hex(job_path)?);
     for path in data_files(&job).values() {
@@ -347,8 +392,12 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
     }
     let settings = EngineSettings {
         population: job.settings.population,
-        max_evaluations: options.max_evaluations.unwrap_or(job.settings.max_evaluations as u64),
-        time_budget_s: options.time_budget_s.or(job.settings.time_budget.map(|d| d.as_secs_f64())),
+        max_evaluations: options
+            .max_evaluations
+            .unwrap_or(job.settings.max_evaluations as u64),
+        time_budget_s: options
+            .time_budget_s
+            .or(job.settings.time_budget.map(|d| d.as_secs_f64())),
         target_objective: job.settings.target_objective,
         stagnation_generations: job.settings.stagnation_generations as u64,
         seed: job.settings.seed,
@@ -356,7 +405,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
         local_max_evaluations: job.settings.local_max_evaluations as u64,
     };
     let (state, resumed_from) = if options.resume {
-        let record_text = std::fs::read_to_string(dir.record()).map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
+        let record_text = std::fs::read_to_string(dir.record())
+            .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
         let record: RunRecord = toml::from_str(&record_text).map_err(|e| RunError::Corrupt {
             path: dir.record(),
             problem: e.to_string(),
@@ -367,7 +417,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
             }
         }
         job.settings.seed = record.seed;
-        let bytes = std::fs::read(dir.checkpoint()).map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
+        let bytes = std::fs::read(dir.checkpoint())
+            .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
         let state: EngineState = serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
             path: dir.checkpoint(),
             problem: e.to_string(),
@@ -380,7 +431,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
             return Err(RunError::Exists(dir.root.clone()));
         }
         std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
-        write_atomically(&dir.job(), job_text.as_bytes()).map_err(io("cannot write", &dir.job()))?;
+        write_atomically(&dir.job(), job_text.as_bytes())
+            .map_err(io("cannot write", &dir.job()))?;
         let record = RunRecord {
             name: name.clone(),
             title: job.title.clone(),
@@ -395,7 +447,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
             path: dir.record(),
             problem: e.to_string(),
         })?;
-        write_atomically(&dir.record(), text.as_bytes()).map_err(io("cannot write", &dir.record()))?;
+        write_atomically(&dir.record(), text.as_bytes())
+            .map_err(io("cannot write", &dir.record()))?;
         (initial_state(&job.parameters, &settings), None)
     };
     let settings = EngineSettings {
@@ -411,7 +464,8 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
     };
     let mut recorder = Recorder {
         dir: &dir,
-        writer: ProgressWriter::append_to(&dir.progress()).map_err(io("cannot open", &dir.progress()))?,
+        writer: ProgressWriter::append_to(&dir.progress())
+            .map_err(io("cannot open", &dir.progress()))?,
         job: &job,
         start_text: &start_text,
         provenance: provenance.clone(),
@@ -440,7 +494,15 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
         cases: job
             .cases
             .iter()
-            .map(|c| (c.name.clone(), c.signals.iter().map(|s| s.kind.name().to_string()).collect()))
+            .map(|c| {
+                (
+                    c.name.clone(),
+                    c.signals
+                        .iter()
+                        .map(|s| s.kind.name().to_string())
+                        .collect(),
+                )
+            })
             .collect(),
         max_evaluations: settings.max_evaluations,
         time_budget_s: settings.time_budget_s,
@@ -452,7 +514,15 @@ pub fn run_fit(job_path: &Path, options: &RunOptions, stop: Arc<AtomicBool>, pau
     if let Some(err) = recorder.io_error.take() {
         return Err(err);
     }
-    let summary = finish(&dir, &job, &start_text, &objective, &model, &outcome, &provenance)?;
+    let summary = finish(
+        &dir,
+        &job,
+        &start_text,
+        &objective,
+        &model,
+        &outcome,
+        &provenance,
+    )?;
     recorder.write_event(&ProgressEvent::Finished {
         reason: summary.reason.clone(),
         best_cost: summary.objective,
@@ -475,7 +545,9 @@ fn trim_progress(dir: &RunDirectory, iteration: u64) -> Result<(), RunError> {
         let Ok(event) = serde_json::from_str::<ProgressEvent>(line) else {
             continue; // a half-written last line
         };
-        if event.iteration().is_some_and(|i| i > iteration) || matches!(event, ProgressEvent::Finished { .. }) {
+        if event.iteration().is_some_and(|i| i > iteration)
+            || matches!(event, ProgressEvent::Finished { .. })
+        {
             continue;
         }
         kept.push_str(line);
@@ -498,7 +570,15 @@ fn finish(
         Ok(a) => (Some(a), None),
         Err(e) => (None, Some(e.to_string())),
     };
-    write_best_model(dir, job, start_text, &outcome.best_values, analysis.as_ref(), outcome.best.cost, provenance)?;
+    write_best_model(
+        dir,
+        job,
+        start_text,
+        &outcome.best_values,
+        analysis.as_ref(),
+        outcome.best.cost,
+        provenance,
+    )?;
     write_case_curves(dir, job, model, &outcome.best_values)?;
     let parameters: Vec<SummaryParameter> = job
         .parameters
@@ -515,15 +595,23 @@ fn finish(
                 log_scale: p.scale == crate::fit::parameters::Scale::Log,
                 lower_95: estimate.map(|e| e.interval_95.0).filter(|v| v.is_finite()),
                 upper_95: estimate.map(|e| e.interval_95.1).filter(|v| v.is_finite()),
-                standard_error_fit_space: estimate.map(|e| e.standard_error_fit_space).filter(|v| v.is_finite()),
-                warnings: estimate.map_or_else(Vec::new, |e| e.warnings.iter().map(|w| w.to_string()).collect()),
+                standard_error_fit_space: estimate
+                    .map(|e| e.standard_error_fit_space)
+                    .filter(|v| v.is_finite()),
+                warnings: estimate.map_or_else(Vec::new, |e| {
+                    e.warnings.iter().map(|w| w.to_string()).collect()
+                }),
             }
         })
         .collect();
     write_parameters_csv(dir, &parameters)?;
     let summary = RunSummary {
         title: job.title.clone(),
-        reason: outcome.state.stop_reason.clone().unwrap_or_else(|| "finished".into()),
+        reason: outcome
+            .state
+            .stop_reason
+            .clone()
+            .unwrap_or_else(|| "finished".into()),
         objective: outcome.best.cost,
         parts: outcome
             .best
@@ -539,10 +627,14 @@ fn finish(
         evaluations: outcome.state.evaluations,
         elapsed_s: outcome.state.elapsed_s,
         parameters,
-        correlation: analysis.as_ref().map_or_else(Vec::new, |a| a.correlation.clone()),
+        correlation: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.correlation.clone()),
         n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
         residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
-        singular_values: analysis.as_ref().map_or_else(Vec::new, |a| a.singular_values.clone()),
+        singular_values: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.singular_values.clone()),
         identifiability_problem: problem,
     };
     let bytes = serde_json::to_vec_pretty(&summary).map_err(|e| RunError::Corrupt {
@@ -553,7 +645,10 @@ fn finish(
     Ok(summary)
 }
 
-fn write_parameters_csv(dir: &RunDirectory, parameters: &[SummaryParameter]) -> Result<(), RunError> {
+fn write_parameters_csv(
+    dir: &RunDirectory,
+    parameters: &[SummaryParameter],
+) -> Result<(), RunError> {
     let mut writer = csv::Writer::from_writer(Vec::new());
     let fmt = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.6e}"));
     let path = dir.parameters_csv();
@@ -562,7 +657,17 @@ fn write_parameters_csv(dir: &RunDirectory, parameters: &[SummaryParameter]) -> 
         problem: e.to_string(),
     };
     writer
-        .write_record(["parameter", "unit", "value", "lower_95", "upper_95", "lower_bound", "upper_bound", "scale", "warnings"])
+        .write_record([
+            "parameter",
+            "unit",
+            "value",
+            "lower_95",
+            "upper_95",
+            "lower_bound",
+            "upper_bound",
+            "scale",
+            "warnings",
+        ])
         .map_err(csv_error)?;
     for p in parameters {
         writer
@@ -574,7 +679,11 @@ fn write_parameters_csv(dir: &RunDirectory, parameters: &[SummaryParameter]) -> 
                 fmt(p.upper_95),
                 format!("{}", p.lower_bound),
                 format!("{}", p.upper_bound),
-                if p.log_scale { "log".into() } else { "linear".into() },
+                if p.log_scale {
+                    "log".into()
+                } else {
+                    "linear".into()
+                },
                 p.warnings.join("; "),
             ])
             .map_err(csv_error)?;
@@ -587,14 +696,20 @@ fn write_parameters_csv(dir: &RunDirectory, parameters: &[SummaryParameter]) -> 
 }
 
 /// One CSV per case and signal: time, measured, σ, model, standardised residual.
-fn write_case_curves(dir: &RunDirectory, job: &FitJob, model: &CaseModel<'_>, values: &[f64]) -> Result<(), RunError> {
+fn write_case_curves(
+    dir: &RunDirectory,
+    job: &FitJob,
+    model: &CaseModel<'_>,
+    values: &[f64],
+) -> Result<(), RunError> {
     std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.cases()))?;
     for case in &job.cases {
         let Ok(history) = model.simulate_case(case, values) else {
             continue;
         };
         for signal in &case.signals {
-            let modelled = model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
+            let modelled =
+                model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
             let mut text = String::from("time_s,measured,sigma,model,residual\n");
             for i in 0..signal.time_s.len() {
                 let residual = (modelled[i] - signal.value[i]) / signal.sigma[i];
@@ -603,7 +718,9 @@ fn write_case_curves(dir: &RunDirectory, job: &FitJob, model: &CaseModel<'_>, va
                     signal.time_s[i], signal.value[i], signal.sigma[i], modelled[i], residual
                 ));
             }
-            let path = dir.cases().join(format!("{}--{}.csv", slug(&case.name), signal.kind.name()));
+            let path =
+                dir.cases()
+                    .join(format!("{}--{}.csv", slug(&case.name), signal.kind.name()));
             write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))?;
         }
     }

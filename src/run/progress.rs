@@ -56,19 +56,39 @@ pub enum ProgressEvent {
         best_params: Vec<f64>,
     },
     /// A candidate the model could not simulate (it was given the penalty cost).
-    Failure { evaluations: u64, message: String },
-    Checkpoint { iter: u64, evaluations: u64, elapsed_s: f64 },
-    Paused { elapsed_s: f64 },
-    Resumed { elapsed_s: f64 },
-    Finished { reason: String, best_cost: f64, evaluations: u64, elapsed_s: f64 },
-    Failed { message: String },
+    Failure {
+        evaluations: u64,
+        message: String,
+    },
+    Checkpoint {
+        iter: u64,
+        evaluations: u64,
+        elapsed_s: f64,
+    },
+    Paused {
+        elapsed_s: f64,
+    },
+    Resumed {
+        elapsed_s: f64,
+    },
+    Finished {
+        reason: String,
+        best_cost: f64,
+        evaluations: u64,
+        elapsed_s: f64,
+    },
+    Failed {
+        message: String,
+    },
 }
 
 impl ProgressEvent {
     /// The iteration an event belongs to, for trimming the log back to a checkpoint.
     pub fn iteration(&self) -> Option<u64> {
         match self {
-            ProgressEvent::Iteration { iter, .. } | ProgressEvent::Checkpoint { iter, .. } => Some(*iter),
+            ProgressEvent::Iteration { iter, .. } | ProgressEvent::Checkpoint { iter, .. } => {
+                Some(*iter)
+            }
             _ => None,
         }
     }
@@ -168,7 +188,10 @@ mod tests {
             elapsed_s: 1.5,
         };
         let line = serde_json::to_string(&event).unwrap();
-        assert_eq!(line, r#"{"event":"checkpoint","iter":3,"evaluations":120,"elapsed_s":1.5}"#);
+        assert_eq!(
+            line,
+            r#"{"event":"checkpoint","iter":3,"evaluations":120,"elapsed_s":1.5}"#
+        );
     }
 
     #[test]
@@ -176,12 +199,19 @@ mod tests {
         let dir = std::env::temp_dir().join(format!("emberfit-follow-{}", std::process::id()));
         std::fs::create_dir_all(&dir).unwrap();
         let path = dir.join("progress.jsonl");
-        std::fs::write(&path, "{\"event\":\"paused\",\"elapsed_s\":1.0}\n{\"event\":\"resu").unwrap();
+        std::fs::write(
+            &path,
+            "{\"event\":\"paused\",\"elapsed_s\":1.0}\n{\"event\":\"resu",
+        )
+        .unwrap();
         let mut follower = ProgressFollower::new(&path);
         assert_eq!(follower.poll().unwrap().len(), 1);
         let mut file = OpenOptions::new().append(true).open(&path).unwrap();
         file.write_all(b"med\",\"elapsed_s\":2.0}\n").unwrap();
-        assert_eq!(follower.poll().unwrap(), vec![ProgressEvent::Resumed { elapsed_s: 2.0 }]);
+        assert_eq!(
+            follower.poll().unwrap(),
+            vec![ProgressEvent::Resumed { elapsed_s: 2.0 }]
+        );
         std::fs::remove_dir_all(&dir).unwrap();
     }
 }
