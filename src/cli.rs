@@ -33,6 +33,23 @@ pub enum Command {
     ///
     /// Example: emberfit synthesize demo-cases/ridgeline-panel/scenario.toml --flux 25 --seed 3 --out test-25.csv
     Synthesize(SynthesizeArgs),
+    /// Fit a material model to several tests at once and say how well each parameter is
+    /// determined.
+    ///
+    /// Reads a fit job (docs/fit-jobs.md): the starting material and scenario, the free
+    /// parameters with bounds, the cases (test data and the signals to match). Runs a parallel
+    /// differential-evolution search, then a Nelder–Mead refinement, writing everything to
+    /// runs/<name>/ as it goes: progress.jsonl, checkpoint.json, best.toml (the calibrated
+    /// model, ready for `simulate`), per-case CSVs and summary.json. Ctrl-C (or SIGTERM)
+    /// finishes the current generation, writes the checkpoint and all outputs, then exits;
+    /// a second Ctrl-C exits at once. `--resume` continues a stopped or killed run exactly.
+    ///
+    /// Examples:
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --time 8h --threads 2
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --resume
+    #[command(verbatim_doc_comment)]
+    Fit(FitArgs),
     /// Reduce one cone calorimeter test: read its data, compute HRR and MLR, print the report
     ///
     /// Reads a test description (TEST.toml, keys in docs/test-files.md) and the CSV it names,
@@ -112,6 +129,9 @@ pub struct SimulateArgs {
     /// Override the simulated duration, s.
     #[arg(long, value_name = "S")]
     pub duration: Option<f64>,
+    /// Use this material model (e.g. a fit's best.toml) for the specimen layers.
+    #[arg(long, value_name = "MATERIAL.toml")]
+    pub material: Option<PathBuf>,
     /// Write the curves to this CSV file (default: print nothing but the summary).
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
@@ -192,4 +212,34 @@ pub struct IgnitionArgs {
     /// Print the analysis as one JSON object instead of a table.
     #[arg(long)]
     pub json: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct FitArgs {
+    /// Fit job file (TOML); see docs/fit-jobs.md.
+    pub job: PathBuf,
+    /// Name of the run directory under --runs-dir (default: the job file's name).
+    #[arg(long)]
+    pub name: Option<String>,
+    /// Where run directories go.
+    #[arg(long, value_name = "DIR", default_value = "runs")]
+    pub runs_dir: PathBuf,
+    /// Continue the run from its last checkpoint (same job, same data, same seed).
+    #[arg(long)]
+    pub resume: bool,
+    /// Worker threads (default: all cores).
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Wall-clock budget, e.g. 90s, 20min, 8h (overrides the job's `settings.time`).
+    #[arg(long, value_name = "DURATION")]
+    pub time: Option<String>,
+    /// Evaluation budget (overrides the job's `settings.max_evaluations`).
+    #[arg(long, value_name = "N")]
+    pub max_evaluations: Option<u64>,
+    /// Random seed (overrides the job's `settings.seed`; ignored with --resume).
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// Print progress lines instead of opening the terminal interface.
+    #[arg(long)]
+    pub headless: bool,
 }

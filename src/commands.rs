@@ -16,15 +16,148 @@ use emberfit::data::{reduce as reduce_test, Notice, Reduced, TestDescription};
 use emberfit::export::{curves::curves_csv, write_atomically};
 use emberfit::physics::{simulate as run_simulation, History};
 
-use crate::cli::{Cli, Command, IgnitionArgs, ReduceArgs, SimulateArgs, SynthesizeArgs};
+use crate::cli::{Cli, Command, FitArgs, IgnitionArgs, ReduceArgs, SimulateArgs, SynthesizeArgs};
 
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Simulate(args) => simulate(args),
         Command::Synthesize(args) => synthesize(args),
+        Command::Fit(args) => fit(args),
         Command::Reduce(args) => reduce(*args),
         Command::Ignition(args) => ignition(args),
     }
+}
+
+fn fit(args: FitArgs) -> Result<()> {
+    use std::sync::atomic::AtomicBool;
+    use std::sync::Arc;
+
+    let threads = args
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if threads == 0 {
+        bail!("--threads must be at least 1");
+    }
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build_global()
+        .context("starting the worker threads")?;
+    let time_budget_s = match &args.time {
+        Some(text) => Some(
+            humantime::parse_duration(text)
+                .with_context(|| {
+                    format!("--time `{text}` is not a duration like 90s, 20min or 8h")
+                })?
+                .as_secs_f64(),
+        ),
+        None => None,
+    };
+    let stop = Arc::new(AtomicBool::new(false));
+    let pause = Arc::new(AtomicBool::new(false));
+    // First SIGINT/SIGTERM: stop cleanly after this generation; a second one exits at once.
+    // SIGHUP (a closed terminal or a dropped SSH link) is ignored: the fit keeps running.
+    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        signal_hook::flag::register_conditional_shutdown(signal, 1, Arc::clone(&stop))
+            .context("installing the signal handlers")?;
+        signal_hook::flag::register(signal, Arc::clone(&stop))
+            .context("installing the signal handlers")?;
+    }
+    signal_hook::flag::register(
+        signal_hook::consts::SIGHUP,
+        Arc::new(AtomicBool::new(false)),
+    )
+    .context("installing the signal handlers")?;
+    let options = emberfit::run::RunOptions {
+        runs_root: args.runs_dir.clone(),
+        name: args.name.clone(),
+        resume: args.resume,
+        threads,
+        time_budget_s,
+        max_evaluations: args.max_evaluations,
+        seed: args.seed,
+    };
+    let job = args.job.clone();
+    let worker_stop = Arc::clone(&stop);
+    let worker_pause = Arc::clone(&pause);
+    let worker = std::thread::spawn(move || {
+        emberfit::run::run_fit(&job, &options, worker_stop, worker_pause)
+    });
+    // The directory name the worker will use, to follow its progress.
+    let name = args.name.clone().unwrap_or_else(|| {
+        args.job
+            .file_stem()
+            .map(|s| emberfit::run::slug(&s.to_string_lossy()))
+            .unwrap_or_else(|| "fit".into())
+    });
+    let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
+    let mut follower = emberfit::run::progress::ProgressFollower::new(&directory.progress());
+    if args.resume {
+        // Skip what the earlier process already printed; only new events are shown.
+        let _ = follower.poll();
+    }
+    let print_events = |follower: &mut emberfit::run::progress::ProgressFollower| {
+        if let Ok(events) = follower.poll() {
+            for event in events {
+                if let Some(line) = emberfit::headless::line(&event) {
+                    println!("{line}");
+                }
+            }
+        }
+    };
+    while !worker.is_finished() {
+        print_events(&mut follower);
+        std::thread::sleep(std::time::Duration::from_millis(200));
+    }
+    let report = match worker.join() {
+        Ok(result) => result.context("running the fit")?,
+        Err(_) => bail!(
+            "the fit stopped unexpectedly (a worker thread panicked); the last checkpoint is kept"
+        ),
+    };
+    print_events(&mut follower);
+    print!("{}", fit_summary_table(&report.summary));
+    println!("run directory: {}", report.directory.display());
+    Ok(())
+}
+
+fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
+    use emberfit::headless::significant;
+    let mut out = format!(
+        "\n{}\n  objective {} ({})\n",
+        summary.title,
+        significant(summary.objective, 6),
+        summary.reason
+    );
+    for part in &summary.parts {
+        out.push_str(&format!(
+            "    {:<24} {:<14} {}\n",
+            part.case,
+            part.signal,
+            significant(part.cost, 5)
+        ));
+    }
+    out.push_str("  parameter                                   value          95 % interval\n");
+    for p in &summary.parameters {
+        let interval = match (p.lower_95, p.upper_95) {
+            (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),
+            _ => "undetermined".into(),
+        };
+        out.push_str(&format!(
+            "  {:<40} {:>12} {:<10} {}\n",
+            p.name,
+            significant(p.value, 5),
+            p.unit,
+            interval
+        ));
+        for warning in &p.warnings {
+            out.push_str(&format!("      warning: {warning}\n"));
+        }
+    }
+    if let Some(problem) = &summary.identifiability_problem {
+        out.push_str(&format!("  intervals not computed: {problem}\n"));
+    }
+    out.push_str("  Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.\n");
+    out
 }
 
 fn synthesize(args: SynthesizeArgs) -> Result<()> {
@@ -91,6 +224,12 @@ fn check_duration(duration_s: f64) -> Result<()> {
 
 fn simulate(args: SimulateArgs) -> Result<()> {
     let mut loaded = load_scenario(&args.scenario).context("loading the scenario")?;
+    if let Some(material) = &args.material {
+        let model = emberfit::case::load_material(material).context("loading the material")?;
+        loaded
+            .use_specimen_material(&model)
+            .with_context(|| format!("using {} for the specimen", material.display()))?;
+    }
     if let Some(flux_kw_m2) = args.flux {
         check_flux(flux_kw_m2)?;
         loaded.set_constant_irradiance_w_m2(flux_kw_m2 * 1e3);

@@ -5,6 +5,7 @@ pub mod case;
 pub mod data;
 pub mod export;
 pub mod fit;
+pub mod headless;
 pub mod physics;
 pub mod run;
 pub mod synthetic;

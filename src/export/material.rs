@@ -133,6 +133,20 @@ pub fn calibrated_material_toml(
 ) -> Result<String, ExportError> {
     let mut doc: DocumentMut = start_text.parse()?;
     doc.remove("calibration");
+    let start_title = doc
+        .get("title")
+        .and_then(|t| t.as_str())
+        .unwrap_or("material")
+        .to_string();
+    let base_title = start_title
+        .split(" — calibrated")
+        .next()
+        .unwrap_or(&start_title)
+        .to_string();
+    doc.insert(
+        "title",
+        value(format!("{base_title} — calibrated ({})", provenance.job)),
+    );
     let mut scenario_values = Table::new();
     for (parameter, fit) in parameters.iter().zip(fitted) {
         for target in &parameter.targets {

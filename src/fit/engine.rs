@@ -82,6 +82,10 @@ pub struct EngineState {
     /// Best point (unit cube) and cost so far.
     pub best_unit: Vec<f64>,
     pub best_cost: f64,
+    /// The best point when the global stage ended: the local stage always starts here, so a
+    /// run resumed during the local stage repeats it exactly.
+    #[serde(default)]
+    pub global_best: Option<(Vec<f64>, f64)>,
     /// Why the run stopped, once it has.
     pub stop_reason: Option<String>,
 }
@@ -155,6 +159,7 @@ pub fn initial_state(parameters: &[FreeParameter], settings: &EngineSettings) ->
         generations_since_improvement: 0,
         best_unit: Vec::new(),
         best_cost: f64::INFINITY,
+        global_best: None,
         stop_reason: None,
     }
 }
@@ -182,6 +187,9 @@ pub fn optimise<M: Model>(
         started: Instant::now(),
         before_s: state.elapsed_s,
     };
+    if state.stop_reason.as_deref() == Some(STOP_REQUESTED) {
+        state.stop_reason = None;
+    }
     let evaluate_all = |members: &[Vec<f64>]| -> Vec<Evaluation> {
         members
             .par_iter()
@@ -224,7 +232,6 @@ pub fn optimise<M: Model>(
             }
         }
         let best = argmin_index(&state.costs);
-        let mut best_evaluation = None;
         if state.costs[best] < state.best_cost {
             state.best_unit = state.population[best].clone();
             state.best_cost = state.costs[best];
@@ -239,9 +246,8 @@ pub fn optimise<M: Model>(
         state.elapsed_s = clock.elapsed_s();
         let evaluation = match evaluations.iter().position(|e| e.cost == state.best_cost) {
             Some(i) => evaluations[i].clone(),
-            None => best_evaluation
-                .get_or_insert_with(|| objective.evaluate(&values_of(parameters, &state.best_unit)))
-                .clone(),
+            // Not new this generation: evaluated again (deterministic, the same numbers).
+            None => objective.evaluate(&values_of(parameters, &state.best_unit)),
         };
         observer.iteration(&IterationReport {
             iteration: state.iteration,
@@ -253,18 +259,27 @@ pub fn optimise<M: Model>(
         });
         observer.checkpoint(&state);
     }
-    if state.phase == Phase::Global {
-        let stopped_by_user = state.stop_reason.as_deref() == Some(STOP_REQUESTED);
-        state.phase = if settings.local_refinement && !stopped_by_user {
+    let stopped_by_user =
+        |state: &EngineState| state.stop_reason.as_deref() == Some(STOP_REQUESTED);
+    // A stop request leaves the phase as it is, so `--resume` carries on from here.
+    if state.phase == Phase::Global && !stopped_by_user(&state) {
+        state.global_best = Some((state.best_unit.clone(), state.best_cost));
+        state.phase = if settings.local_refinement {
             Phase::Local
         } else {
             Phase::Done
         };
         observer.checkpoint(&state);
     }
-    if state.phase == Phase::Local {
-        refine_locally(objective, settings, &mut state, &clock, observer);
-        state.phase = Phase::Done;
+    if state.phase == Phase::Local && !stopped_by_user(&state) {
+        if let Some((unit, cost)) = state.global_best.clone() {
+            state.best_unit = unit;
+            state.best_cost = cost;
+        }
+        let stopped = refine_locally(objective, settings, &mut state, &clock, observer);
+        if !stopped {
+            state.phase = Phase::Done;
+        }
         state.elapsed_s = clock.elapsed_s();
         observer.checkpoint(&state);
     }
@@ -388,12 +403,16 @@ struct LocalTracker<'o> {
     best_cost: f64,
     iteration: u64,
     stop: bool,
+    stopped_by_request: bool,
+    /// Evaluations at the last report, to report progress at least every 20 evaluations.
+    reported_at: u64,
 }
 
 struct LocalProblem<'a, 'b, 't, 'o, M: Model> {
     objective: &'a Objective<'b, M>,
     tracker: &'t Mutex<LocalTracker<'o>>,
     budget: u64,
+    evaluations_before: u64,
     elapsed: &'t Clock,
     time_budget_s: Option<f64>,
 }
@@ -410,8 +429,10 @@ impl<M: Model> CostFunction for LocalProblem<'_, '_, '_, '_, M> {
         let out_of_time = self
             .time_budget_s
             .is_some_and(|b| self.elapsed.elapsed_s() >= b);
-        if tracker.evaluations >= self.budget || out_of_time || tracker.observer.should_stop() {
+        let requested = tracker.observer.should_stop();
+        if tracker.evaluations >= self.budget || out_of_time || requested {
             tracker.stop = true;
+            tracker.stopped_by_request = requested;
             return Err(argmin::core::Error::msg("local refinement budget reached"));
         }
         let clamped: Vec<f64> = unit.iter().map(|u| u.clamp(0.0, 1.0)).collect();
@@ -434,14 +455,22 @@ impl<M: Model> CostFunction for LocalProblem<'_, '_, '_, '_, M> {
             tracker.observer.failure(message);
         }
         let cost = evaluation.cost * (1.0 + 100.0 * outside);
-        if outside == 0.0 && evaluation.cost < tracker.best_cost {
+        let improved = outside == 0.0 && evaluation.cost < tracker.best_cost;
+        let relative_gain =
+            (tracker.best_cost - evaluation.cost) / tracker.best_cost.abs().max(f64::MIN_POSITIVE);
+        if improved {
             tracker.best_cost = evaluation.cost;
             tracker.best_unit = clamped;
+        }
+        // Report clear improvements at once and the rest every 20 evaluations, so the log
+        // stays small.
+        if improved && (relative_gain > 1e-4 || tracker.evaluations >= tracker.reported_at + 20) {
+            tracker.reported_at = tracker.evaluations;
             tracker.iteration += 1;
             let report = IterationReport {
                 iteration: tracker.iteration,
                 phase: Phase::Local,
-                evaluations: tracker.evaluations,
+                evaluations: self.evaluations_before + tracker.evaluations,
                 elapsed_s: self.elapsed.elapsed_s(),
                 best_values: values,
                 best: &evaluation,
@@ -458,7 +487,7 @@ fn refine_locally<M: Model>(
     state: &mut EngineState,
     clock: &Clock,
     observer: &mut dyn Observer,
-) {
+) -> bool {
     let dims = state.best_unit.len();
     let mut simplex = vec![state.best_unit.clone()];
     for d in 0..dims {
@@ -477,17 +506,20 @@ fn refine_locally<M: Model>(
         best_cost: state.best_cost,
         iteration: state.iteration,
         stop: false,
+        stopped_by_request: false,
+        reported_at: 0,
     });
     let problem = LocalProblem {
         objective,
         tracker: &tracker,
         budget: settings.local_max_evaluations,
+        evaluations_before: state.evaluations,
         elapsed: clock,
         time_budget_s: settings.time_budget_s,
     };
     let solver = match NelderMead::new(simplex).with_sd_tolerance(1e-10) {
         Ok(solver) => solver,
-        Err(_) => return,
+        Err(_) => return false,
     };
     let result = Executor::new(problem, solver)
         .configure(|config| config.max_iters(settings.local_max_evaluations))
@@ -504,6 +536,10 @@ fn refine_locally<M: Model>(
         state.best_cost = tracker.best_cost;
         state.best_unit = tracker.best_unit;
     }
+    if tracker.stopped_by_request {
+        state.stop_reason = Some(STOP_REQUESTED.to_string());
+        return true;
+    }
     let global_reason = state.stop_reason.take().unwrap_or_default();
     let local = if tracker.stop {
         "local refinement stopped at its budget".to_string()
@@ -517,4 +553,5 @@ fn refine_locally<M: Model>(
     } else {
         format!("{global_reason}; {local}")
     });
+    false
 }
