@@ -555,3 +555,162 @@ fn refine_locally<M: Model>(
     });
     false
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fit::job::{FitCase, SignalData, SignalKind};
+    use crate::fit::model::{ModelError, SignalCurve};
+    use crate::fit::parameters::{FreeParameter, Scale};
+
+    /// A fake simulator: the "curve" is a·t + b at 50 times; the data were made with
+    /// (a, b) = (2, −1), so that is the known optimum.
+    struct Line {
+        parameters: Vec<FreeParameter>,
+    }
+
+    impl Model for Line {
+        fn parameters(&self) -> &[FreeParameter] {
+            &self.parameters
+        }
+        fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
+            Ok(vec![vec![SignalCurve {
+                values: (0..50).map(|t| values[0] * t as f64 + values[1]).collect(),
+            }]])
+        }
+    }
+
+    fn parameter(name: &str, lower: f64, upper: f64, start: f64) -> FreeParameter {
+        FreeParameter {
+            name: name.into(),
+            unit: "–".into(),
+            lower,
+            upper,
+            scale: Scale::Linear,
+            start,
+            prior: None,
+            targets: vec![],
+        }
+    }
+
+    fn line_case() -> FitCase {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("demo-cases/ridgeline-panel/scenario.toml");
+        FitCase {
+            name: "line".into(),
+            scenario: crate::case::load_scenario(&path).expect("demo scenario loads"),
+            exposed_area_m2: 0.01,
+            signals: vec![SignalData {
+                kind: SignalKind::Mlr,
+                weight: 1.0,
+                time_s: (0..50).map(|t| t as f64).collect(),
+                value: (0..50).map(|t| 2.0 * t as f64 - 1.0).collect(),
+                sigma: vec![1.0; 50],
+                sigma_source: "sigma",
+            }],
+            test_files: vec![],
+        }
+    }
+
+    fn settings() -> EngineSettings {
+        EngineSettings {
+            population: 16,
+            max_evaluations: 3000,
+            time_budget_s: None,
+            target_objective: 0.0,
+            stagnation_generations: 30,
+            seed: 11,
+            local_refinement: true,
+            local_max_evaluations: 300,
+        }
+    }
+
+    struct Silent {
+        stop_after_checkpoints: Option<usize>,
+        checkpoints: usize,
+        last: Option<EngineState>,
+    }
+
+    impl Observer for Silent {
+        fn iteration(&mut self, _: &IterationReport<'_>) {}
+        fn checkpoint(&mut self, state: &EngineState) {
+            self.checkpoints += 1;
+            self.last = Some(state.clone());
+        }
+        fn failure(&mut self, _: &str) {}
+        fn should_stop(&mut self) -> bool {
+            self.stop_after_checkpoints
+                .is_some_and(|n| self.checkpoints >= n)
+        }
+    }
+
+    fn silent(stop_after_checkpoints: Option<usize>) -> Silent {
+        Silent {
+            stop_after_checkpoints,
+            checkpoints: 0,
+            last: None,
+        }
+    }
+
+    #[test]
+    fn finds_the_known_optimum_of_a_fake_model() {
+        let model = Line {
+            parameters: vec![
+                parameter("a", -10.0, 10.0, 5.0),
+                parameter("b", -10.0, 10.0, 5.0),
+            ],
+        };
+        let cases = [line_case()];
+        let objective = Objective::new(&model, &cases);
+        let outcome = optimise(
+            &objective,
+            &settings(),
+            initial_state(&model.parameters, &settings()),
+            &mut silent(None),
+        );
+        assert!(
+            (outcome.best_values[0] - 2.0).abs() < 1e-4,
+            "{:?}",
+            outcome.best_values
+        );
+        assert!(
+            (outcome.best_values[1] + 1.0).abs() < 1e-3,
+            "{:?}",
+            outcome.best_values
+        );
+        assert!(outcome.best.cost < 1e-5);
+    }
+
+    #[test]
+    fn a_stopped_and_continued_run_ends_exactly_where_an_uninterrupted_one_does() {
+        let model = Line {
+            parameters: vec![
+                parameter("a", -10.0, 10.0, 5.0),
+                parameter("b", -10.0, 10.0, 5.0),
+            ],
+        };
+        let cases = [line_case()];
+        let objective = Objective::new(&model, &cases);
+        let whole = optimise(
+            &objective,
+            &settings(),
+            initial_state(&model.parameters, &settings()),
+            &mut silent(None),
+        );
+        let mut first = silent(Some(5));
+        optimise(
+            &objective,
+            &settings(),
+            initial_state(&model.parameters, &settings()),
+            &mut first,
+        );
+        let checkpoint = first.last.expect("checkpoints were written");
+        assert_eq!(checkpoint.phase, Phase::Global);
+        // Through JSON, as the run directory stores it.
+        let restored: EngineState =
+            serde_json::from_str(&serde_json::to_string(&checkpoint).unwrap()).unwrap();
+        let continued = optimise(&objective, &settings(), restored, &mut silent(None));
+        assert_eq!(whole.best_values, continued.best_values);
+        assert_eq!(whole.state.evaluations, continued.state.evaluations);
+    }
+}

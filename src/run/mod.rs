@@ -711,11 +711,16 @@ fn write_case_curves(
             let modelled =
                 model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
             let mut text = String::from("time_s,measured,sigma,model,residual\n");
-            for i in 0..signal.time_s.len() {
-                let residual = (modelled[i] - signal.value[i]) / signal.sigma[i];
+            for (((time_s, measured), sigma), model) in signal
+                .time_s
+                .iter()
+                .zip(&signal.value)
+                .zip(&signal.sigma)
+                .zip(&modelled)
+            {
+                let residual = (model - measured) / sigma;
                 text.push_str(&format!(
-                    "{:.3},{:.6},{:.6},{:.6},{:.6}\n",
-                    signal.time_s[i], signal.value[i], signal.sigma[i], modelled[i], residual
+                    "{time_s:.3},{measured:.6},{sigma:.6},{model:.6},{residual:.6}\n"
                 ));
             }
             let path =

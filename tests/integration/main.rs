@@ -2,6 +2,7 @@
 
 mod cli;
 mod data;
+mod fit;
 mod properties;
 mod util;
 mod verification;
