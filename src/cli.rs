@@ -218,7 +218,8 @@ pub struct IgnitionArgs {
 pub struct FitArgs {
     /// Fit job file (TOML); see docs/fit-jobs.md.
     pub job: PathBuf,
-    /// Name of the run directory under --runs-dir (default: the job file's name).
+    /// Name of the run directory under --runs-dir (default: the job file's name, with -2, -3,
+    /// ... added when that directory exists already).
     #[arg(long)]
     pub name: Option<String>,
     /// Where run directories go.
@@ -234,7 +235,7 @@ pub struct FitArgs {
     #[arg(long, value_name = "DURATION")]
     pub time: Option<String>,
     /// Evaluation budget (overrides the job's `settings.max_evaluations`).
-    #[arg(long, value_name = "N")]
+    #[arg(long, visible_alias = "max-evals", value_name = "N")]
     pub max_evaluations: Option<u64>,
     /// Random seed (overrides the job's `settings.seed`; ignored with --resume).
     #[arg(long)]

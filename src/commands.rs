@@ -67,9 +67,28 @@ fn fit(args: FitArgs) -> Result<()> {
         Arc::new(AtomicBool::new(false)),
     )
     .context("installing the signal handlers")?;
+    // The run directory's name: given, or the job's name made unique (a fresh user may run
+    // the demo twice).
+    let name = match &args.name {
+        Some(name) => name.clone(),
+        None => {
+            let stem = args
+                .job
+                .file_stem()
+                .map(|s| emberfit::run::slug(&s.to_string_lossy()))
+                .unwrap_or_else(|| "fit".into());
+            let mut candidate = stem.clone();
+            let mut n = 2;
+            while !args.resume && args.runs_dir.join(&candidate).exists() {
+                candidate = format!("{stem}-{n}");
+                n += 1;
+            }
+            candidate
+        }
+    };
     let options = emberfit::run::RunOptions {
         runs_root: args.runs_dir.clone(),
-        name: args.name.clone(),
+        name: Some(name.clone()),
         resume: args.resume,
         threads,
         time_budget_s,
@@ -82,30 +101,31 @@ fn fit(args: FitArgs) -> Result<()> {
     let worker = std::thread::spawn(move || {
         emberfit::run::run_fit(&job, &options, worker_stop, worker_pause)
     });
-    // The directory name the worker will use, to follow its progress.
-    let name = args.name.clone().unwrap_or_else(|| {
-        args.job
-            .file_stem()
-            .map(|s| emberfit::run::slug(&s.to_string_lossy()))
-            .unwrap_or_else(|| "fit".into())
-    });
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
     let mut follower = emberfit::run::progress::ProgressFollower::new(&directory.progress());
     if args.resume {
         // Skip what the earlier process already printed; only new events are shown.
         let _ = follower.poll();
     }
-    let print_events = |follower: &mut emberfit::run::progress::ProgressFollower| {
+    eprintln!("run directory: {}", directory.root.display());
+    let mut ticker = emberfit::headless::Ticker::new(std::time::Duration::from_secs(3));
+    let mut print_events = |follower: &mut emberfit::run::progress::ProgressFollower,
+                            is_last: bool| {
         if let Ok(events) = follower.poll() {
-            for event in events {
-                if let Some(line) = emberfit::headless::line(&event) {
-                    println!("{line}");
+            for event in &events {
+                if let Some(line) = ticker.line(event, std::time::Instant::now()) {
+                    eprintln!("{line}");
                 }
+            }
+        }
+        if is_last {
+            if let Some(line) = ticker.flush() {
+                eprintln!("{line}");
             }
         }
     };
     while !worker.is_finished() {
-        print_events(&mut follower);
+        print_events(&mut follower, false);
         std::thread::sleep(std::time::Duration::from_millis(200));
     }
     let report = match worker.join() {
@@ -114,7 +134,7 @@ fn fit(args: FitArgs) -> Result<()> {
             "the fit stopped unexpectedly (a worker thread panicked); the last checkpoint is kept"
         ),
     };
-    print_events(&mut follower);
+    print_events(&mut follower, true);
     print!("{}", fit_summary_table(&report.summary));
     println!("run directory: {}", report.directory.display());
     Ok(())
@@ -136,7 +156,7 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
             significant(part.cost, 5)
         ));
     }
-    out.push_str("  parameter                                   value          95 % interval\n");
+    out.push_str("  parameter                                   value                 95 % interval       sensitivity rank\n");
     for p in &summary.parameters {
         let interval = match (p.lower_95, p.upper_95) {
             (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),

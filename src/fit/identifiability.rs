@@ -27,7 +27,7 @@ pub enum Warning {
         with: String,
         correlation: f64,
     },
-    /// Its 95 % interval is wider than half its bounds, or the data do not constrain it.
+    /// Its 95 % interval is wider than its bounds, or the data do not constrain it.
     PoorlyDetermined,
 }
 
@@ -38,7 +38,9 @@ impl std::fmt::Display for Warning {
             Warning::StronglyCorrelated { with, correlation } => {
                 write!(f, "strongly correlated with {with} ({correlation:+.2})")
             }
-            Warning::PoorlyDetermined => write!(f, "poorly determined by the data"),
+            Warning::PoorlyDetermined => {
+                write!(f, "poorly determined (95 % interval wider than the bounds)")
+            }
         }
     }
 }
@@ -53,6 +55,12 @@ pub struct Estimate {
     pub standard_error_fit_space: f64,
     /// 95 % interval in file units (asymmetric on a log scale).
     pub interval_95: (f64, f64),
+    /// Composite scaled sensitivity: the root-mean-square change of the standardised
+    /// residuals per change of the parameter across its whole bounds (after Hill & Tiedeman,
+    /// Effective Groundwater Model Calibration, 2007; quoted from memory).
+    pub sensitivity: f64,
+    /// 1 for the parameter the data are most sensitive to.
+    pub sensitivity_rank: usize,
     pub warnings: Vec<Warning>,
 }
 
@@ -217,19 +225,36 @@ pub fn analyse<M: Model>(
                     });
                 }
             }
-            if !half.is_finite() || 2.0 * half > 0.5 * parameter.fit_space_range() {
+            if !half.is_finite() || 2.0 * half > parameter.fit_space_range() {
                 warnings.push(Warning::PoorlyDetermined);
             }
+            let sensitivity = ((0..n)
+                .map(|row| (jacobian[(row, i)] * parameter.fit_space_range()).powi(2))
+                .sum::<f64>()
+                / n as f64)
+                .sqrt();
             Estimate {
                 name: parameter.name.clone(),
                 unit: parameter.unit.clone(),
                 value: values[i],
                 standard_error_fit_space: standard_error,
                 interval_95,
+                sensitivity,
+                sensitivity_rank: 0,
                 warnings,
             }
         })
-        .collect();
+        .collect::<Vec<_>>();
+    let mut order: Vec<usize> = (0..p).collect();
+    order.sort_by(|&a, &b| {
+        estimates[b]
+            .sensitivity
+            .total_cmp(&estimates[a].sensitivity)
+    });
+    let mut estimates = estimates;
+    for (rank, &i) in order.iter().enumerate() {
+        estimates[i].sensitivity_rank = rank + 1;
+    }
     Ok(Identifiability {
         estimates,
         correlation,

@@ -131,6 +131,8 @@ pub struct RunSummary {
     pub elapsed_s: f64,
     pub parameters: Vec<SummaryParameter>,
     pub correlation: Vec<Vec<f64>>,
+    /// Covariance in fit space (values, or log10 of values on a log scale), row-major.
+    pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
     pub residual_variance: f64,
     pub singular_values: Vec<f64>,
@@ -149,6 +151,9 @@ pub struct SummaryParameter {
     pub lower_95: Option<f64>,
     pub upper_95: Option<f64>,
     pub standard_error_fit_space: Option<f64>,
+    /// Composite scaled sensitivity and its rank (1 = the data see this one most).
+    pub sensitivity: Option<f64>,
+    pub sensitivity_rank: Option<usize>,
     pub warnings: Vec<String>,
 }
 
@@ -598,6 +603,8 @@ fn finish(
                 standard_error_fit_space: estimate
                     .map(|e| e.standard_error_fit_space)
                     .filter(|v| v.is_finite()),
+                sensitivity: estimate.map(|e| e.sensitivity),
+                sensitivity_rank: estimate.map(|e| e.sensitivity_rank),
                 warnings: estimate.map_or_else(Vec::new, |e| {
                     e.warnings.iter().map(|w| w.to_string()).collect()
                 }),
@@ -630,6 +637,9 @@ fn finish(
         correlation: analysis
             .as_ref()
             .map_or_else(Vec::new, |a| a.correlation.clone()),
+        covariance: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.covariance.clone()),
         n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
         residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
         singular_values: analysis
