@@ -106,3 +106,16 @@ impl Source {
         }
     }
 }
+
+/// An error and its causes as one line, `outer: cause: cause` (for errors that are folded into
+/// another error's message rather than kept as its source).
+pub(crate) fn error_chain(error: &dyn std::error::Error) -> String {
+    let mut text = error.to_string();
+    let mut source = error.source();
+    while let Some(cause) = source {
+        text.push_str(": ");
+        text.push_str(&cause.to_string());
+        source = cause.source();
+    }
+    text
+}

@@ -10,7 +10,7 @@ use toml::Spanned;
 
 use super::parameters::{FreeParameter, Prior, PropertyPart, Scale, Target};
 use crate::case::material::MaterialModel;
-use crate::case::source::Source;
+use crate::case::source::{error_chain, Source};
 use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
 use crate::data::repeats::{combine, Alignment};
 use crate::data::{reduce, TestDescription};
@@ -580,14 +580,18 @@ fn build_case(
             source.invalid(
                 &test.span(),
                 &key("tests"),
-                format!("cannot use {}: {err}", test_path.display()),
+                format!("cannot use {}: {}", test_path.display(), error_chain(&err)),
             )
         })?;
         let result = reduce(&description).map_err(|err| {
             source.invalid(
                 &test.span(),
                 &key("tests"),
-                format!("cannot reduce {}: {err}", test_path.display()),
+                format!(
+                    "cannot reduce {}: {}",
+                    test_path.display(),
+                    error_chain(&err)
+                ),
             )
         })?;
         reduced.push(result);

@@ -34,7 +34,7 @@ use progress::{ParameterInfo, PartInfo, ProgressEvent, ProgressWriter, FORMAT_VE
 /// Errors of a fit run.
 #[derive(Debug, thiserror::Error)]
 pub enum RunError {
-    #[error("{0}")]
+    #[error(transparent)]
     Job(#[from] crate::case::CaseError),
     #[error("{action} {}", path.display())]
     Io {

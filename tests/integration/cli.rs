@@ -131,3 +131,33 @@ fn help_teaches_the_simulate_command() {
         "{stdout}"
     );
 }
+
+/// Each broken fit job gives an error naming file, line and key (issue 4's bad-job list).
+#[test]
+fn broken_fit_jobs_give_errors_that_name_file_line_and_key() {
+    let runs = scratch_dir("bad-jobs");
+    let cases = [
+        ("unknown-path.toml", "unknown-path.toml:7: `parameter[0].path` `component.virgin.thermal_diffusivity` is not a parameter path"),
+        ("bounds-reversed.toml", "bounds-reversed.toml:9: `parameter[0].max` must be above min (0.5), got 0.1"),
+        ("start-outside.toml", "start-outside.toml:10: `parameter[0].start` 0.9 lies outside the bounds 0.1..0.5"),
+        ("missing-data.toml", "missing-data.toml:13: `case[0].tests` cannot use tests/bad-input/fit/no-such-test.toml: cannot read"),
+    ];
+    for (file, expected) in cases {
+        let path = Path::new("tests/bad-input/fit").join(file);
+        let output = emberfit(&[
+            "fit",
+            path.to_str().unwrap(),
+            "--headless",
+            "--runs-dir",
+            runs.to_str().unwrap(),
+        ]);
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert_eq!(output.status.code(), Some(1), "{file}: {stderr}");
+        assert!(
+            stderr.contains(expected),
+            "{file}: expected `{expected}` in:\n{stderr}"
+        );
+    }
+    // Nothing half-made is left behind by a job that never started.
+    assert_eq!(std::fs::read_dir(&runs).map(|d| d.count()).unwrap_or(0), 0);
+}
