@@ -234,3 +234,72 @@ fn a_killed_fit_resumes_to_the_result_of_an_uninterrupted_run() {
     assert_eq!(iterations.len(), n, "an iteration was logged twice");
     let _ = std::fs::remove_dir_all(&root);
 }
+
+/// The README's demo (7 free parameters, 25 and 50 kW/m²): each true value of
+/// demo-cases/ridgeline-panel/material-true.toml lies inside its 95 % interval, and the
+/// calibrated model predicts the held-out 75 kW/m² peak HRR of the true material within 3 %
+/// (issue 4's twin criterion).
+#[test]
+fn demo_fit_recovers_the_truth_and_predicts_the_held_out_irradiance() {
+    let root = scratch("demo");
+    let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let no = Arc::new(AtomicBool::new(false));
+    let report = run_fit(
+        &manifest.join("demo-cases/ridgeline-panel/fit.toml"),
+        &options(&root, "demo", false),
+        no.clone(),
+        no,
+    )
+    .expect("the demo fit runs");
+    let truth = [
+        ("component.virgin.conductivity_w_m_k", 0.17),
+        ("component.virgin.specific_heat_j_kg_k", 1550.0),
+        // A = 3.0e13 1/s with E = 188 kJ/mol at 10 K/min (Kissinger's condition).
+        (
+            "reaction.0.peak_temperature_k",
+            emberfit::fit::parameters::peak_temperature_k(3.0e13, 188e3, 10.0 / 60.0),
+        ),
+        ("reaction.0.heat_of_reaction_kj_kg", 1100.0),
+        ("component.virgin.absorption_per_m", 1500.0),
+        ("heat_of_combustion_mj_kg", 23.0),
+        ("exposure.flame_heat_flux_kw_m2", 12.0),
+    ];
+    for ((name, value), fitted) in truth.iter().zip(&report.summary.parameters) {
+        assert_eq!(&fitted.name, name);
+        let (lower, upper) = (fitted.lower_95.unwrap(), fitted.upper_95.unwrap());
+        eprintln!(
+            "demo: {name} = {:.5} (truth {value:.5}), 95 % [{lower:.5}, {upper:.5}]",
+            fitted.value
+        );
+        assert!(
+            lower <= *value && *value <= upper,
+            "{name}: truth {value} outside [{lower}, {upper}]"
+        );
+    }
+    let scenario_path = manifest.join("demo-cases/ridgeline-panel/scenario.toml");
+    let peak_hrr = |material: Option<&Path>| {
+        let mut loaded = emberfit::case::load_scenario(&scenario_path).unwrap();
+        if let Some(path) = material {
+            loaded
+                .use_specimen_material(&emberfit::case::load_material(path).unwrap())
+                .unwrap();
+        }
+        loaded.set_constant_irradiance_w_m2(75e3);
+        loaded.scenario.duration_s = 900.0;
+        emberfit::physics::simulate(&loaded.scenario)
+            .unwrap()
+            .summary
+            .peak_hrr_w_m2
+    };
+    let predicted = peak_hrr(Some(&report.directory.join("best.toml")));
+    let true_peak = peak_hrr(None);
+    let error = (predicted - true_peak).abs() / true_peak;
+    eprintln!(
+        "demo: 75 kW/m² peak HRR predicted {:.1} kW/m², true {:.1} kW/m², error {:.2} %",
+        predicted / 1e3,
+        true_peak / 1e3,
+        100.0 * error
+    );
+    assert!(error < 0.03);
+    let _ = std::fs::remove_dir_all(&root);
+}
