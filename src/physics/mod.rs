@@ -4,6 +4,7 @@
 
 pub mod kinetics;
 pub mod material;
+pub mod zero_d;
 
 /// Errors from building or running a model.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
