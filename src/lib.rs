@@ -1,4 +1,6 @@
 //! emberfit: turns cone calorimeter and milligram-scale test data into a calibrated pyrolysis
 //! model and predicts untested conditions. The architecture is described in DEVELOPERS.md.
 
+pub mod case;
+pub mod export;
 pub mod physics;

@@ -63,7 +63,8 @@ impl PropertyLaw {
             .sum()
     }
 
-    fn check(&self, what: &str) -> Result<(), PhysicsError> {
+    /// Rejects non-positive values, unordered tables and non-finite exponents.
+    pub fn validate(&self, what: &str) -> Result<(), PhysicsError> {
         match self {
             PropertyLaw::PowerLaw {
                 value_at_reference,
@@ -180,10 +181,12 @@ impl Material {
         for component in &components {
             let what = |field: &str| format!("component `{}` {field}", component.name);
             require_positive(&what("density"), component.density_kg_m3)?;
-            component.conductivity_w_m_k.check(&what("conductivity"))?;
+            component
+                .conductivity_w_m_k
+                .validate(&what("conductivity"))?;
             component
                 .specific_heat_j_kg_k
-                .check(&what("specific heat"))?;
+                .validate(&what("specific heat"))?;
             require_fraction(&what("emissivity"), component.emissivity)?;
             if let Some(kappa) = component.absorption_coefficient_per_m {
                 require_positive(&what("absorption coefficient"), kappa)?;

@@ -4,7 +4,14 @@
 
 pub mod kinetics;
 pub mod material;
+pub mod output;
+pub mod scenario;
+pub mod solver;
 pub mod zero_d;
+
+pub use output::{History, Sample, Summary};
+pub use scenario::Scenario;
+pub use solver::simulate;
 
 /// Errors from building or running a model.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -12,6 +19,9 @@ pub enum PhysicsError {
     /// An input that no physical specimen can have.
     #[error("{what} {problem}")]
     Invalid { what: String, problem: String },
+    /// The solver could not advance.
+    #[error("the solver could not advance at t = {time_s:.3} s: {detail}")]
+    NoConvergence { time_s: f64, detail: String },
 }
 
 impl PhysicsError {

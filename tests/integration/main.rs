@@ -1,1 +1,4 @@
+//! The integration tests: one binary, one module per concern.
 
+mod util;
+mod verification;

@@ -1,0 +1,276 @@
+//! Material model files: components with their property laws, reactions, and the heat of
+//! combustion of the fuel gas (docs/file-formats.md, "Material model").
+
+use std::path::Path;
+
+use serde::{Deserialize, Serialize};
+use toml::Spanned;
+
+use super::source::Source;
+use super::CaseError;
+use crate::physics::material::{
+    Component, GasRelease, Material, PropertyLaw, Reaction, DEFAULT_REFERENCE_TEMPERATURE_K,
+};
+
+/// A material model file as written.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct MaterialFile {
+    pub title: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub notes: Option<String>,
+    /// Effective heat of combustion of the fuel gas, MJ/kg (combustion efficiency × net heat
+    /// of combustion). Omit for a material that gives no fuel.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub heat_of_combustion_mj_kg: Option<Spanned<f64>>,
+    #[serde(rename = "component")]
+    pub components: Vec<ComponentFile>,
+    #[serde(rename = "reaction", default, skip_serializing_if = "Vec::is_empty")]
+    pub reactions: Vec<ReactionFile>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ComponentFile {
+    pub name: Spanned<String>,
+    pub density_kg_m3: Spanned<f64>,
+    pub conductivity_w_m_k: Spanned<PropertyFile>,
+    pub specific_heat_j_kg_k: Spanned<PropertyFile>,
+    pub emissivity: Spanned<f64>,
+    /// In-depth absorption coefficient, 1/m; omit for an opaque component.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub absorption_per_m: Option<Spanned<f64>>,
+}
+
+/// A property: a number, a power law `{ value, exponent, reference_k }`, or a table
+/// `[[T_K, value], ...]`.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(untagged)]
+pub enum PropertyFile {
+    Constant(f64),
+    Table(Vec<[f64; 2]>),
+    PowerLaw {
+        value: f64,
+        exponent: f64,
+        #[serde(default, skip_serializing_if = "Option::is_none")]
+        reference_k: Option<f64>,
+    },
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ReactionFile {
+    /// Reactant component name.
+    pub from: Spanned<String>,
+    /// Condensed product component name; omit when the reactant turns wholly to gas.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub to: Option<Spanned<String>>,
+    /// Condensed yield ν, kg of product per kg of reactant (required with `to`).
+    #[serde(rename = "yield", default, skip_serializing_if = "Option::is_none")]
+    pub product_yield: Option<Spanned<f64>>,
+    pub pre_exponential_per_s: Spanned<f64>,
+    pub activation_energy_kj_mol: Spanned<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub order: Option<Spanned<f64>>,
+    /// Heat of reaction, kJ per kg of reactant, positive when endothermic.
+    pub heat_of_reaction_kj_kg: Spanned<f64>,
+    /// Fuel mass fraction of the released gas (default 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub fuel_fraction: Option<Spanned<f64>>,
+    /// Heat of combustion of this reaction's fuel gas, MJ/kg (default: the material's).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub heat_of_combustion_mj_kg: Option<Spanned<f64>>,
+}
+
+/// A loaded material: the file as written (kept for export) and the validated physics.
+#[derive(Debug, Clone)]
+pub struct MaterialModel {
+    pub file: MaterialFile,
+    pub material: Material,
+}
+
+/// Reads and validates a material model file.
+pub fn load_material(path: &Path) -> Result<MaterialModel, CaseError> {
+    let source = Source::read(path)?;
+    let file: MaterialFile = source.parse()?;
+    let material = build_material(&source, &file)?;
+    Ok(MaterialModel { file, material })
+}
+
+/// Parses material text that did not come from a file (tests, edited copies); `label` stands
+/// in for the path in messages.
+pub fn material_from_str(label: &Path, text: &str) -> Result<MaterialModel, CaseError> {
+    let source = Source {
+        path: label.to_path_buf(),
+        text: text.to_string(),
+    };
+    let file: MaterialFile = source.parse()?;
+    let material = build_material(&source, &file)?;
+    Ok(MaterialModel { file, material })
+}
+
+/// Validates a material file's values against what is physical (spans give the lines).
+pub(crate) fn build_material(source: &Source, file: &MaterialFile) -> Result<Material, CaseError> {
+    if file.components.is_empty() {
+        return Err(source.inconsistent("a material needs at least one [[component]]"));
+    }
+    let mut components = Vec::with_capacity(file.components.len());
+    for (idx, raw) in file.components.iter().enumerate() {
+        let key = |field: &str| format!("component[{idx}].{field}");
+        let name = raw.name.get_ref().trim().to_string();
+        if name.is_empty() {
+            return Err(source.invalid(&raw.name.span(), &key("name"), "must not be empty"));
+        }
+        if components.iter().any(|c: &Component| c.name == name) {
+            return Err(source.invalid(
+                &raw.name.span(),
+                &key("name"),
+                format!("`{name}` is used twice"),
+            ));
+        }
+        components.push(Component {
+            name,
+            density_kg_m3: source.positive(&raw.density_kg_m3, &key("density_kg_m3"))?,
+            conductivity_w_m_k: property(
+                source,
+                &raw.conductivity_w_m_k,
+                &key("conductivity_w_m_k"),
+            )?,
+            specific_heat_j_kg_k: property(
+                source,
+                &raw.specific_heat_j_kg_k,
+                &key("specific_heat_j_kg_k"),
+            )?,
+            emissivity: source.fraction(&raw.emissivity, &key("emissivity"))?,
+            absorption_coefficient_per_m: raw
+                .absorption_per_m
+                .as_ref()
+                .map(|value| source.positive(value, &key("absorption_per_m")))
+                .transpose()?,
+        });
+    }
+    let material_heat_of_combustion_j_kg = file
+        .heat_of_combustion_mj_kg
+        .as_ref()
+        .map(|value| source.non_negative(value, "heat_of_combustion_mj_kg"))
+        .transpose()?
+        .map(|mj_kg| mj_kg * 1e6);
+    let find = |name: &Spanned<String>, field: &str| -> Result<usize, CaseError> {
+        let wanted = name.get_ref().trim();
+        components
+            .iter()
+            .position(|c| c.name == wanted)
+            .ok_or_else(|| {
+                let known: Vec<&str> = components.iter().map(|c| c.name.as_str()).collect();
+                source.invalid(
+                    &name.span(),
+                    field,
+                    format!(
+                        "names no component: `{wanted}` (components are {})",
+                        known.join(", ")
+                    ),
+                )
+            })
+    };
+    let mut reactions = Vec::with_capacity(file.reactions.len());
+    for (idx, raw) in file.reactions.iter().enumerate() {
+        let key = |field: &str| format!("reaction[{idx}].{field}");
+        let reactant = find(&raw.from, &key("from"))?;
+        let product = raw.to.as_ref().map(|to| find(to, &key("to"))).transpose()?;
+        let product_yield = match (&product, &raw.product_yield) {
+            (Some(_), Some(value)) => source.fraction(value, &key("yield"))?,
+            (Some(_), None) => {
+                return Err(source.invalid(
+                    &raw.from.span(),
+                    &key("yield"),
+                    "is required when the reaction has a condensed product (`to`)",
+                ))
+            }
+            (None, Some(value)) if *value.get_ref() != 0.0 => {
+                return Err(source.invalid(
+                    &value.span(),
+                    &key("yield"),
+                    format!(
+                        "must be 0 without a product (`to`), got {}",
+                        value.get_ref()
+                    ),
+                ))
+            }
+            (None, _) => 0.0,
+        };
+        let fuel_fraction = match &raw.fuel_fraction {
+            Some(value) => source.fraction(value, &key("fuel_fraction"))?,
+            None => 1.0,
+        };
+        let heat_of_combustion_j_kg = match &raw.heat_of_combustion_mj_kg {
+            Some(value) => source.non_negative(value, &key("heat_of_combustion_mj_kg"))? * 1e6,
+            None => match material_heat_of_combustion_j_kg {
+                Some(value) => value,
+                None if fuel_fraction > 0.0 => {
+                    return Err(source.invalid(
+                        &raw.from.span(),
+                        &key("heat_of_combustion_mj_kg"),
+                        "is needed (here or at the top of the file) because this reaction releases fuel; \
+                         set fuel_fraction = 0 for an inert gas such as water vapour",
+                    ))
+                }
+                None => 0.0,
+            },
+        };
+        let order = match &raw.order {
+            Some(value) => source.non_negative(value, &key("order"))?,
+            None => 1.0,
+        };
+        reactions.push(Reaction {
+            reactant,
+            product,
+            product_yield,
+            pre_exponential_per_s: source
+                .positive(&raw.pre_exponential_per_s, &key("pre_exponential_per_s"))?,
+            activation_energy_j_mol: source.non_negative(
+                &raw.activation_energy_kj_mol,
+                &key("activation_energy_kj_mol"),
+            )? * 1e3,
+            order,
+            heat_of_reaction_j_kg: source
+                .finite(&raw.heat_of_reaction_kj_kg, &key("heat_of_reaction_kj_kg"))?
+                * 1e3,
+            gas: GasRelease {
+                fuel_fraction,
+                heat_of_combustion_j_kg,
+            },
+        });
+    }
+    Material::new(components, reactions).map_err(|err| source.inconsistent(err.to_string()))
+}
+
+fn property(
+    source: &Source,
+    raw: &Spanned<PropertyFile>,
+    key: &str,
+) -> Result<PropertyLaw, CaseError> {
+    let span = raw.span();
+    let law = match raw.get_ref() {
+        PropertyFile::Constant(value) => PropertyLaw::constant(*value),
+        PropertyFile::PowerLaw {
+            value,
+            exponent,
+            reference_k,
+        } => PropertyLaw::PowerLaw {
+            value_at_reference: *value,
+            reference_temperature_k: reference_k.unwrap_or(DEFAULT_REFERENCE_TEMPERATURE_K),
+            exponent: *exponent,
+        },
+        PropertyFile::Table(points) => {
+            PropertyLaw::Table(points.iter().map(|p| (p[0], p[1])).collect())
+        }
+    };
+    // The physics check says what is wrong; the span says where.
+    match law.validate(key) {
+        Ok(()) => Ok(law),
+        Err(crate::physics::PhysicsError::Invalid { problem, .. }) => {
+            Err(source.invalid(&span, key, problem))
+        }
+        Err(other) => Err(source.invalid(&span, key, other.to_string())),
+    }
+}

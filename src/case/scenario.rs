@@ -1,0 +1,578 @@
+//! Scenario files: the specimen's layers (each naming a material file), the exposure, the
+//! ignition rule, the back face, probes and numerics (docs/file-formats.md, "Scenario").
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+
+use serde::{Deserialize, Serialize};
+use toml::Spanned;
+
+use super::material::{build_material, MaterialFile, MaterialModel};
+use super::source::Source;
+use super::CaseError;
+use crate::physics::scenario::{
+    BackFace, Exposure, Flameout, IgnitionRule, Layer, Numerics, Probe, Scenario, Schedule,
+    DEFAULT_CONVECTIVE_COEFFICIENT_W_M2_K, DEFAULT_CRITICAL_FUEL_MASS_FLUX_KG_M2_S,
+};
+
+/// Ambient temperature when the file gives none, K (20 °C, a usual laboratory condition).
+pub const DEFAULT_AMBIENT_TEMPERATURE_K: f64 = 293.15;
+/// Default cell size in specimen layers, m: fine enough that halving it changes peak MLR by
+/// less than 1 % on the templates (tests/integration/verification.rs measures it).
+pub const DEFAULT_SPECIMEN_CELL_M: f64 = 1.0e-4;
+/// Default cell size in backing layers, m (they only need to carry heat away).
+pub const DEFAULT_BACKING_CELL_M: f64 = 1.0e-3;
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ScenarioFile {
+    pub title: String,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub notes: Option<String>,
+    pub duration_s: Spanned<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub output_interval_s: Option<Spanned<f64>>,
+    #[serde(rename = "layer")]
+    pub layers: Vec<LayerFile>,
+    pub exposure: ExposureFile,
+    #[serde(default)]
+    pub ignition: IgnitionFile,
+    #[serde(default)]
+    pub back: BackFile,
+    #[serde(rename = "probe", default, skip_serializing_if = "Vec::is_empty")]
+    pub probes: Vec<ProbeFile>,
+    #[serde(default)]
+    pub numerics: NumericsFile,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum LayerRole {
+    Specimen,
+    Backing,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct LayerFile {
+    /// Path of the material file, relative to the scenario file.
+    pub material: Spanned<String>,
+    pub thickness_mm: Spanned<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cells: Option<Spanned<i64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub role: Option<LayerRole>,
+    /// Initial mass fractions by component name (default: all of the first component).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub composition: Option<Spanned<BTreeMap<String, f64>>>,
+    /// Contact resistance between this layer and the one in front of it, m²·K/W.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub contact_resistance_m2_k_w: Option<Spanned<f64>>,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ExposureFile {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub irradiance_kw_m2: Option<Spanned<f64>>,
+    /// `[[time_s, kW/m²], ...]`, linear between points.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub irradiance_table: Option<Spanned<Vec<[f64; 2]>>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ambient_temperature_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub initial_temperature_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub convective_coefficient_w_m2_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flaming_convective_coefficient_w_m2_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flame_heat_flux_kw_m2: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reradiation: Option<bool>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum IgnitionKind {
+    #[default]
+    FuelMassFlux,
+    SurfaceTemperature,
+    Time,
+    Never,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct IgnitionFile {
+    #[serde(default)]
+    pub rule: IgnitionKind,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub critical_fuel_mass_flux_g_m2s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub surface_temperature_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub time_s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flameout_fuel_mass_flux_g_m2s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reignition: Option<bool>,
+}
+
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Default, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum BackKind {
+    #[default]
+    Insulated,
+    Ambient,
+    Fixed,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct BackFile {
+    #[serde(default)]
+    pub boundary: BackKind,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub convective_coefficient_w_m2_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub emissivity: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub ambient_temperature_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub temperature_k: Option<Spanned<f64>>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ProbeFile {
+    pub name: String,
+    pub depth_mm: Spanned<f64>,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct NumericsFile {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_temperature_change_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_conversion_per_step: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub initial_step_s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub max_step_s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub min_step_s: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub iteration_tolerance_k: Option<Spanned<f64>>,
+}
+
+/// A scenario ready to run, with the files it came from.
+#[derive(Debug, Clone)]
+pub struct LoadedScenario {
+    pub path: PathBuf,
+    pub title: String,
+    pub file: ScenarioFile,
+    /// The material of each layer as loaded (same order as the layers).
+    pub materials: Vec<MaterialModel>,
+    /// Where each layer's material file is.
+    pub material_paths: Vec<PathBuf>,
+    pub scenario: Scenario,
+}
+
+impl LoadedScenario {
+    /// Replaces the irradiance with a constant, W/m².
+    pub fn set_constant_irradiance_w_m2(&mut self, irradiance_w_m2: f64) {
+        self.scenario.exposure.irradiance_w_m2 = Schedule::Constant(irradiance_w_m2);
+    }
+
+    /// Replaces the material of every layer that uses the material file `path`.
+    pub fn replace_material(&mut self, path: &Path, model: &MaterialModel) {
+        for (idx, material_path) in self.material_paths.iter().enumerate() {
+            if material_path == path {
+                self.materials[idx] = model.clone();
+                self.scenario.layers[idx].material = model.material.clone();
+            }
+        }
+    }
+}
+
+/// Reads a scenario and the material files of its layers, and validates everything.
+pub fn load_scenario(path: &Path) -> Result<LoadedScenario, CaseError> {
+    let source = Source::read(path)?;
+    let file: ScenarioFile = source.parse()?;
+    let base = path.parent().unwrap_or(Path::new("."));
+    build_scenario(&source, file, base)
+}
+
+fn optional(
+    source: &Source,
+    value: &Option<Spanned<f64>>,
+    field: &str,
+    default: f64,
+    check: fn(&Source, &Spanned<f64>, &str) -> Result<f64, CaseError>,
+) -> Result<f64, CaseError> {
+    match value {
+        Some(value) => check(source, value, field),
+        None => Ok(default),
+    }
+}
+
+fn build_scenario(
+    source: &Source,
+    file: ScenarioFile,
+    base: &Path,
+) -> Result<LoadedScenario, CaseError> {
+    if file.layers.is_empty() {
+        return Err(source.inconsistent("a scenario needs at least one [[layer]]"));
+    }
+    let mut layers = Vec::new();
+    let mut materials = Vec::new();
+    let mut material_paths = Vec::new();
+    for (idx, raw) in file.layers.iter().enumerate() {
+        let key = |field: &str| format!("layer[{idx}].{field}");
+        let material_path = base.join(raw.material.get_ref());
+        let material_source = Source::read(&material_path).map_err(|err| match err {
+            CaseError::Read { source: io, .. } => source.invalid(
+                &raw.material.span(),
+                &key("material"),
+                format!("cannot read {}: {io}", material_path.display()),
+            ),
+            other => other,
+        })?;
+        let material_file: MaterialFile = material_source.parse()?;
+        let material = build_material(&material_source, &material_file)?;
+        let thickness_m = source.positive(&raw.thickness_mm, &key("thickness_mm"))? * 1e-3;
+        let role = raw.role.unwrap_or(if idx == 0 {
+            LayerRole::Specimen
+        } else {
+            LayerRole::Backing
+        });
+        let n_cells = match &raw.cells {
+            Some(cells) => {
+                let n = *cells.get_ref();
+                if !(1..=5000).contains(&n) {
+                    return Err(source.invalid(
+                        &cells.span(),
+                        &key("cells"),
+                        format!("must be within 1..5000, got {n}"),
+                    ));
+                }
+                n as usize
+            }
+            None => {
+                let cell_m = if role == LayerRole::Specimen {
+                    DEFAULT_SPECIMEN_CELL_M
+                } else {
+                    DEFAULT_BACKING_CELL_M
+                };
+                ((thickness_m / cell_m).round() as usize).clamp(5, 400)
+            }
+        };
+        let mut fractions = vec![0.0; material.components.len()];
+        match &raw.composition {
+            None => fractions[0] = 1.0,
+            Some(composition) => {
+                for (name, &fraction) in composition.get_ref() {
+                    let Some(component_idx) = material.component_index(name) else {
+                        return Err(source.invalid(
+                            &composition.span(),
+                            &key("composition"),
+                            format!(
+                                "names `{name}`, which is not a component of {}",
+                                material_path.display()
+                            ),
+                        ));
+                    };
+                    if !(0.0..=1.0).contains(&fraction) {
+                        return Err(source.invalid(
+                            &composition.span(),
+                            &key("composition"),
+                            format!("fraction of `{name}` must be within 0..1, got {fraction}"),
+                        ));
+                    }
+                    fractions[component_idx] = fraction;
+                }
+                let sum: f64 = fractions.iter().sum();
+                if (sum - 1.0).abs() > 1e-6 {
+                    return Err(source.invalid(
+                        &composition.span(),
+                        &key("composition"),
+                        format!("mass fractions must sum to 1, got {sum}"),
+                    ));
+                }
+            }
+        }
+        let contact = optional(
+            source,
+            &raw.contact_resistance_m2_k_w,
+            &key("contact_resistance_m2_k_w"),
+            0.0,
+            Source::non_negative,
+        )?;
+        layers.push(Layer {
+            name: material_file.title.clone(),
+            material: material.clone(),
+            thickness_m,
+            n_cells,
+            initial_mass_fractions: fractions,
+            is_specimen: role == LayerRole::Specimen,
+            contact_resistance_m2_k_w: contact,
+        });
+        materials.push(MaterialModel {
+            file: material_file,
+            material,
+        });
+        material_paths.push(material_path);
+    }
+
+    let exposure_file = &file.exposure;
+    let irradiance_w_m2 = match (&exposure_file.irradiance_kw_m2, &exposure_file.irradiance_table) {
+        (Some(value), None) => Schedule::Constant(source.non_negative(value, "exposure.irradiance_kw_m2")? * 1e3),
+        (None, Some(table)) => {
+            let points = table.get_ref();
+            if points.is_empty() {
+                return Err(source.invalid(&table.span(), "exposure.irradiance_table", "has no points"));
+            }
+            for window in points.windows(2) {
+                if window[1][0] <= window[0][0] {
+                    return Err(source.invalid(
+                        &table.span(),
+                        "exposure.irradiance_table",
+                        format!("times must increase, got {} s after {} s", window[1][0], window[0][0]),
+                    ));
+                }
+            }
+            if let Some(point) = points.iter().find(|p| p[1] < 0.0 || !p[1].is_finite()) {
+                return Err(source.invalid(
+                    &table.span(),
+                    "exposure.irradiance_table",
+                    format!("irradiance must be ≥ 0 kW/m², got {}", point[1]),
+                ));
+            }
+            Schedule::Table(points.iter().map(|p| (p[0], p[1] * 1e3)).collect())
+        }
+        (Some(_), Some(table)) => {
+            return Err(source.invalid(
+                &table.span(),
+                "exposure.irradiance_table",
+                "give either irradiance_kw_m2 or irradiance_table, not both",
+            ))
+        }
+        (None, None) => {
+            return Err(source.inconsistent(
+                "[exposure] needs irradiance_kw_m2 (a constant) or irradiance_table ([[time_s, kW/m²], ...])",
+            ))
+        }
+    };
+    let ambient_k = optional(
+        source,
+        &exposure_file.ambient_temperature_k,
+        "exposure.ambient_temperature_k",
+        DEFAULT_AMBIENT_TEMPERATURE_K,
+        Source::positive,
+    )?;
+    let h = optional(
+        source,
+        &exposure_file.convective_coefficient_w_m2_k,
+        "exposure.convective_coefficient_w_m2_k",
+        DEFAULT_CONVECTIVE_COEFFICIENT_W_M2_K,
+        Source::non_negative,
+    )?;
+    let exposure = Exposure {
+        irradiance_w_m2,
+        ambient_temperature_k: ambient_k,
+        initial_temperature_k: optional(
+            source,
+            &exposure_file.initial_temperature_k,
+            "exposure.initial_temperature_k",
+            ambient_k,
+            Source::positive,
+        )?,
+        convective_coefficient_w_m2_k: h,
+        flaming_convective_coefficient_w_m2_k: optional(
+            source,
+            &exposure_file.flaming_convective_coefficient_w_m2_k,
+            "exposure.flaming_convective_coefficient_w_m2_k",
+            h,
+            Source::non_negative,
+        )?,
+        flame_heat_flux_w_m2: optional(
+            source,
+            &exposure_file.flame_heat_flux_kw_m2,
+            "exposure.flame_heat_flux_kw_m2",
+            0.0,
+            Source::non_negative,
+        )? * 1e3,
+        has_reradiation: exposure_file.reradiation.unwrap_or(true),
+    };
+
+    let ignition_file = &file.ignition;
+    let critical_kg_m2_s = optional(
+        source,
+        &ignition_file.critical_fuel_mass_flux_g_m2s,
+        "ignition.critical_fuel_mass_flux_g_m2s",
+        DEFAULT_CRITICAL_FUEL_MASS_FLUX_KG_M2_S * 1e3,
+        Source::positive,
+    )? * 1e-3;
+    let required =
+        |value: &Option<Spanned<f64>>,
+         field: &str,
+         check: fn(&Source, &Spanned<f64>, &str) -> Result<f64, CaseError>| {
+            value
+                .as_ref()
+                .ok_or_else(|| source.inconsistent(format!("[ignition] rule needs `{field}`")))
+                .and_then(|v| check(source, v, &format!("ignition.{field}")))
+        };
+    let ignition = match ignition_file.rule {
+        IgnitionKind::FuelMassFlux => IgnitionRule::CriticalFuelMassFlux(critical_kg_m2_s),
+        IgnitionKind::SurfaceTemperature => IgnitionRule::SurfaceTemperature(required(
+            &ignition_file.surface_temperature_k,
+            "surface_temperature_k",
+            Source::positive,
+        )?),
+        IgnitionKind::Time => IgnitionRule::AtTime(required(
+            &ignition_file.time_s,
+            "time_s",
+            Source::non_negative,
+        )?),
+        IgnitionKind::Never => IgnitionRule::Never,
+    };
+    let flameout = Flameout {
+        threshold_fuel_mass_flux_kg_m2_s: optional(
+            source,
+            &ignition_file.flameout_fuel_mass_flux_g_m2s,
+            "ignition.flameout_fuel_mass_flux_g_m2s",
+            critical_kg_m2_s * 1e3,
+            Source::non_negative,
+        )? * 1e-3,
+        may_reignite: ignition_file.reignition.unwrap_or(false),
+    };
+
+    let back_file = &file.back;
+    let back = match back_file.boundary {
+        BackKind::Insulated => BackFace::Insulated,
+        BackKind::Ambient => BackFace::LossToAmbient {
+            convective_coefficient_w_m2_k: optional(
+                source,
+                &back_file.convective_coefficient_w_m2_k,
+                "back.convective_coefficient_w_m2_k",
+                DEFAULT_CONVECTIVE_COEFFICIENT_W_M2_K,
+                Source::non_negative,
+            )?,
+            emissivity: optional(
+                source,
+                &back_file.emissivity,
+                "back.emissivity",
+                0.9,
+                Source::fraction,
+            )?,
+            ambient_temperature_k: optional(
+                source,
+                &back_file.ambient_temperature_k,
+                "back.ambient_temperature_k",
+                ambient_k,
+                Source::positive,
+            )?,
+        },
+        BackKind::Fixed => BackFace::FixedTemperature(match &back_file.temperature_k {
+            Some(value) => source.positive(value, "back.temperature_k")?,
+            None => {
+                return Err(source.inconsistent("[back] boundary = \"fixed\" needs `temperature_k`"))
+            }
+        }),
+    };
+
+    let total_thickness_m: f64 = layers.iter().map(|l| l.thickness_m).sum();
+    let mut probes = Vec::new();
+    for (idx, raw) in file.probes.iter().enumerate() {
+        let key = format!("probe[{idx}].depth_mm");
+        let depth_m = source.non_negative(&raw.depth_mm, &key)? * 1e-3;
+        if depth_m > total_thickness_m {
+            return Err(source.invalid(
+                &raw.depth_mm.span(),
+                &key,
+                format!("is deeper than the stack ({} mm)", total_thickness_m * 1e3),
+            ));
+        }
+        probes.push(Probe {
+            name: raw.name.clone(),
+            depth_m,
+        });
+    }
+
+    let defaults = Numerics::default();
+    let n = &file.numerics;
+    let numerics = Numerics {
+        max_temperature_change_k: optional(
+            source,
+            &n.max_temperature_change_k,
+            "numerics.max_temperature_change_k",
+            defaults.max_temperature_change_k,
+            Source::positive,
+        )?,
+        max_conversion_per_step: optional(
+            source,
+            &n.max_conversion_per_step,
+            "numerics.max_conversion_per_step",
+            defaults.max_conversion_per_step,
+            Source::fraction,
+        )?,
+        initial_step_s: optional(
+            source,
+            &n.initial_step_s,
+            "numerics.initial_step_s",
+            defaults.initial_step_s,
+            Source::positive,
+        )?,
+        max_step_s: optional(
+            source,
+            &n.max_step_s,
+            "numerics.max_step_s",
+            defaults.max_step_s,
+            Source::positive,
+        )?,
+        min_step_s: optional(
+            source,
+            &n.min_step_s,
+            "numerics.min_step_s",
+            defaults.min_step_s,
+            Source::positive,
+        )?,
+        iteration_tolerance_k: optional(
+            source,
+            &n.iteration_tolerance_k,
+            "numerics.iteration_tolerance_k",
+            defaults.iteration_tolerance_k,
+            Source::positive,
+        )?,
+    };
+    let scenario = Scenario {
+        layers,
+        exposure,
+        ignition,
+        flameout,
+        back,
+        duration_s: source.positive(&file.duration_s, "duration_s")?,
+        output_interval_s: optional(
+            source,
+            &file.output_interval_s,
+            "output_interval_s",
+            1.0,
+            Source::positive,
+        )?,
+        probes,
+        numerics,
+    };
+    scenario
+        .check()
+        .map_err(|err| source.inconsistent(err.to_string()))?;
+    Ok(LoadedScenario {
+        path: source.path.clone(),
+        title: file.title.clone(),
+        file,
+        materials,
+        material_paths,
+        scenario,
+    })
+}

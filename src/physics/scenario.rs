@@ -1,0 +1,324 @@
+//! What a simulation is asked to do: the specimen's layers, the exposure, ignition and
+//! flame-out rules, the back face and the numerical settings (physics.md §1). Validated on
+//! construction by `Scenario::check`, so the solver can trust every value.
+
+use super::material::{require_fraction, require_non_negative, require_positive, Material};
+use super::PhysicsError;
+
+/// Stefan–Boltzmann constant, W/(m²·K⁴) (CODATA 2018, as physics.md §1 gives it).
+pub const STEFAN_BOLTZMANN_W_M2_K4: f64 = 5.670374419e-8;
+
+/// Convective coefficient at the exposed face, W/(m²·K); common practice for the cone
+/// calorimeter, no single published source (physics.md §1).
+pub const DEFAULT_CONVECTIVE_COEFFICIENT_W_M2_K: f64 = 10.0;
+
+/// Critical fuel mass flux for ignition, kg/(m²·s); about 2 g/(m²·s) is a usual default
+/// (physics.md §1, common practice).
+pub const DEFAULT_CRITICAL_FUEL_MASS_FLUX_KG_M2_S: f64 = 2.0e-3;
+
+/// One layer of the specimen stack, exposed face first.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Layer {
+    pub name: String,
+    pub material: Material,
+    pub thickness_m: f64,
+    pub n_cells: usize,
+    /// Initial mass fraction of each of the material's components (sums to 1).
+    pub initial_mass_fractions: Vec<f64>,
+    /// True for the tested material (weighed by the load cell), false for backing.
+    pub is_specimen: bool,
+    /// Thermal contact resistance between this layer and the one in front of it, m²·K/W.
+    pub contact_resistance_m2_k_w: f64,
+}
+
+/// A value that may change with time: constant or a (time s, value) table, linear between
+/// points and constant outside them.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Schedule {
+    Constant(f64),
+    Table(Vec<(f64, f64)>),
+}
+
+impl Schedule {
+    /// Value at `time_s`.
+    pub fn at(&self, time_s: f64) -> f64 {
+        match self {
+            Schedule::Constant(value) => *value,
+            Schedule::Table(points) => {
+                let first = points[0];
+                if time_s <= first.0 {
+                    return first.1;
+                }
+                for window in points.windows(2) {
+                    let (t0, v0) = window[0];
+                    let (t1, v1) = window[1];
+                    if time_s <= t1 {
+                        return v0 + (v1 - v0) * (time_s - t0) / (t1 - t0);
+                    }
+                }
+                points[points.len() - 1].1
+            }
+        }
+    }
+
+    /// The first table point strictly after `time_s`, where a time step should end so the
+    /// solver does not step over a change of slope.
+    pub fn next_breakpoint_after(&self, time_s: f64) -> Option<f64> {
+        match self {
+            Schedule::Constant(_) => None,
+            Schedule::Table(points) => points.iter().map(|p| p.0).find(|&t| t > time_s),
+        }
+    }
+
+    fn check(&self, what: &str) -> Result<(), PhysicsError> {
+        match self {
+            Schedule::Constant(value) => require_non_negative(what, *value),
+            Schedule::Table(points) => {
+                if points.is_empty() {
+                    return Err(PhysicsError::invalid(what, "table has no points"));
+                }
+                for window in points.windows(2) {
+                    if window[1].0 <= window[0].0 {
+                        return Err(PhysicsError::invalid(
+                            what,
+                            format!(
+                                "table times must increase, got {} s after {} s",
+                                window[1].0, window[0].0
+                            ),
+                        ));
+                    }
+                }
+                points
+                    .iter()
+                    .try_for_each(|p| require_non_negative(what, p.1))
+            }
+        }
+    }
+}
+
+/// The heating of the exposed face.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Exposure {
+    /// Irradiance q_ext, W/m².
+    pub irradiance_w_m2: Schedule,
+    /// Ambient (gas and surroundings) temperature T∞, K.
+    pub ambient_temperature_k: f64,
+    /// Initial temperature of the whole stack, K.
+    pub initial_temperature_k: f64,
+    /// Convective coefficient before ignition, W/(m²·K).
+    pub convective_coefficient_w_m2_k: f64,
+    /// Convective coefficient while the flame is on, W/(m²·K).
+    pub flaming_convective_coefficient_w_m2_k: f64,
+    /// Flame heat flux q_flame while the flame is on, W/m².
+    pub flame_heat_flux_w_m2: f64,
+    /// Whether the face re-radiates εσ(T_s⁴ − T∞⁴); false only for loss-free verification.
+    pub has_reradiation: bool,
+}
+
+/// When the specimen is declared ignited (physics.md §1 "Ignition and heat release").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum IgnitionRule {
+    /// Fuel mass flux reaches this value, kg/(m²·s).
+    CriticalFuelMassFlux(f64),
+    /// Exposed-surface temperature reaches this value, K.
+    SurfaceTemperature(f64),
+    /// At this time, s (e.g. the measured one).
+    AtTime(f64),
+    /// Never: no flame, no HRR (a gasification or inert test).
+    Never,
+}
+
+/// When an established flame goes out.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Flameout {
+    /// The flame goes out when the fuel mass flux falls below this, kg/(m²·s), after having
+    /// exceeded it while ignited.
+    pub threshold_fuel_mass_flux_kg_m2_s: f64,
+    /// Whether the ignition rule may ignite the specimen again after a flame-out.
+    pub may_reignite: bool,
+}
+
+/// The far face of the stack.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum BackFace {
+    Insulated,
+    /// Convection and radiation to the ambient at `ambient_temperature_k`.
+    LossToAmbient {
+        convective_coefficient_w_m2_k: f64,
+        emissivity: f64,
+        ambient_temperature_k: f64,
+    },
+    FixedTemperature(f64),
+}
+
+/// A temperature probe at a depth measured from the initial exposed surface.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Probe {
+    pub name: String,
+    pub depth_m: f64,
+}
+
+/// Step-size control and iteration tolerances.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Numerics {
+    /// Largest temperature change of any cell or face in one step, K.
+    pub max_temperature_change_k: f64,
+    /// Largest mass consumed in one cell in one step, as a fraction of its initial mass.
+    pub max_conversion_per_step: f64,
+    /// First step, s.
+    pub initial_step_s: f64,
+    /// Longest step, s.
+    pub max_step_s: f64,
+    /// Shortest step before the solver gives up with an error, s.
+    pub min_step_s: f64,
+    /// Iteration on the non-linear terms stops when no temperature changes by more, K.
+    pub iteration_tolerance_k: f64,
+}
+
+impl Default for Numerics {
+    /// Defaults chosen so that halving the cell size and both step limits changes peak MLR
+    /// by less than 1% on the templates (measured in tests/integration/verification.rs).
+    fn default() -> Self {
+        Numerics {
+            max_temperature_change_k: 4.0,
+            max_conversion_per_step: 0.05,
+            initial_step_s: 0.05,
+            max_step_s: 5.0,
+            min_step_s: 1e-7,
+            iteration_tolerance_k: 1e-3,
+        }
+    }
+}
+
+/// Everything a run needs, in SI units.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Scenario {
+    pub layers: Vec<Layer>,
+    pub exposure: Exposure,
+    pub ignition: IgnitionRule,
+    pub flameout: Flameout,
+    pub back: BackFace,
+    pub duration_s: f64,
+    pub output_interval_s: f64,
+    pub probes: Vec<Probe>,
+    pub numerics: Numerics,
+}
+
+impl Scenario {
+    /// Rejects inputs no real specimen or test can have, with the reason.
+    pub fn check(&self) -> Result<(), PhysicsError> {
+        if self.layers.is_empty() {
+            return Err(PhysicsError::invalid("specimen", "has no layers"));
+        }
+        if !self.layers[0].is_specimen {
+            return Err(PhysicsError::invalid(
+                "layer 1",
+                "must be specimen (the exposed layer is the tested material)",
+            ));
+        }
+        for (layer_idx, layer) in self.layers.iter().enumerate() {
+            let what = |field: &str| format!("layer {} (`{}`) {field}", layer_idx + 1, layer.name);
+            require_positive(&what("thickness"), layer.thickness_m)?;
+            if layer.n_cells == 0 {
+                return Err(PhysicsError::invalid(
+                    &what("cells"),
+                    "must be at least 1, got 0",
+                ));
+            }
+            if layer.initial_mass_fractions.len() != layer.material.components.len() {
+                return Err(PhysicsError::invalid(
+                    &what("composition"),
+                    format!(
+                        "has {} fractions for {} components",
+                        layer.initial_mass_fractions.len(),
+                        layer.material.components.len()
+                    ),
+                ));
+            }
+            for &fraction in &layer.initial_mass_fractions {
+                require_fraction(&what("composition"), fraction)?;
+            }
+            let sum: f64 = layer.initial_mass_fractions.iter().sum();
+            if (sum - 1.0).abs() > 1e-6 {
+                return Err(PhysicsError::invalid(
+                    &what("composition"),
+                    format!("mass fractions must sum to 1, got {sum}"),
+                ));
+            }
+            require_non_negative(&what("contact resistance"), layer.contact_resistance_m2_k_w)?;
+            if layer.is_specimen && layer_idx > 0 && !self.layers[layer_idx - 1].is_specimen {
+                return Err(PhysicsError::invalid(
+                    &what("role"),
+                    "specimen layers must come before backing layers",
+                ));
+            }
+        }
+        let exposure = &self.exposure;
+        exposure.irradiance_w_m2.check("irradiance")?;
+        require_positive("ambient temperature", exposure.ambient_temperature_k)?;
+        require_positive("initial temperature", exposure.initial_temperature_k)?;
+        require_non_negative(
+            "convective coefficient",
+            exposure.convective_coefficient_w_m2_k,
+        )?;
+        require_non_negative(
+            "convective coefficient after ignition",
+            exposure.flaming_convective_coefficient_w_m2_k,
+        )?;
+        require_non_negative("flame heat flux", exposure.flame_heat_flux_w_m2)?;
+        match self.ignition {
+            IgnitionRule::CriticalFuelMassFlux(flux) => {
+                require_positive("critical fuel mass flux", flux)?
+            }
+            IgnitionRule::SurfaceTemperature(temperature) => {
+                require_positive("ignition temperature", temperature)?
+            }
+            IgnitionRule::AtTime(time) => require_non_negative("ignition time", time)?,
+            IgnitionRule::Never => {}
+        }
+        require_non_negative(
+            "flame-out fuel mass flux",
+            self.flameout.threshold_fuel_mass_flux_kg_m2_s,
+        )?;
+        match self.back {
+            BackFace::Insulated => {}
+            BackFace::LossToAmbient {
+                convective_coefficient_w_m2_k,
+                emissivity,
+                ambient_temperature_k,
+            } => {
+                require_non_negative("back convective coefficient", convective_coefficient_w_m2_k)?;
+                require_fraction("back emissivity", emissivity)?;
+                require_positive("back ambient temperature", ambient_temperature_k)?;
+            }
+            BackFace::FixedTemperature(temperature) => {
+                require_positive("back temperature", temperature)?
+            }
+        }
+        require_positive("duration", self.duration_s)?;
+        require_positive("output interval", self.output_interval_s)?;
+        let total_thickness_m: f64 = self.layers.iter().map(|l| l.thickness_m).sum();
+        for probe in &self.probes {
+            let what = format!("probe `{}` depth", probe.name);
+            require_non_negative(&what, probe.depth_m)?;
+            if probe.depth_m > total_thickness_m {
+                return Err(PhysicsError::invalid(
+                    &what,
+                    format!(
+                        "is {} mm, deeper than the stack ({} mm)",
+                        probe.depth_m * 1e3,
+                        total_thickness_m * 1e3
+                    ),
+                ));
+            }
+        }
+        let numerics = &self.numerics;
+        require_positive("max temperature change", numerics.max_temperature_change_k)?;
+        require_positive("max conversion per step", numerics.max_conversion_per_step)?;
+        require_positive("initial step", numerics.initial_step_s)?;
+        require_positive("max step", numerics.max_step_s)?;
+        require_positive("min step", numerics.min_step_s)?;
+        require_positive("iteration tolerance", numerics.iteration_tolerance_k)?;
+        Ok(())
+    }
+}
