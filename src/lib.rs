@@ -3,4 +3,5 @@
 
 pub mod case;
 pub mod export;
+pub mod microscale;
 pub mod physics;

@@ -1,4 +1,5 @@
 //! The integration tests: one binary, one module per concern.
 
+mod microscale;
 mod util;
 mod verification;
