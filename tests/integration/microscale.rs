@@ -339,3 +339,166 @@ fn macfp_pmma_kissinger_and_case_residuals() {
     println!("pmma 10 K/min residual rms (mass fraction) with the kissinger kinetics: {rms:.4}");
     assert!(rms < 0.05, "{rms}");
 }
+
+fn emberfit() -> std::process::Command {
+    let mut command = std::process::Command::new(env!("CARGO_BIN_EXE_emberfit"));
+    command.current_dir(env!("CARGO_MANIFEST_DIR"));
+    command
+}
+
+fn scratch_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("emberfit-{name}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// `emberfit simulate` on the milligram-scale demo scenario writes the documented columns, and
+/// the peak of its `mlr_per_s` column sits where Kissinger's exact first-order condition puts it
+/// for the template's kinetics (A = 2e13 1/s, E = 188 kJ/mol, 10 K/min; Kissinger 1957). 0.1 K:
+/// the CSV rows are 0.33 K apart and the peak is refined by a parabola.
+#[test]
+fn simulate_runs_a_milligram_scenario_and_its_peak_obeys_kissinger_1957() {
+    let out = scratch_dir("simulate").join("tga.csv");
+    let output = emberfit()
+        .args(["simulate", "demo-cases/pmma-tga/scenario.toml", "--out"])
+        .arg(&out)
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let text = std::fs::read_to_string(&out).unwrap();
+    let mut lines = text.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "time_s,temperature_k,mass_fraction,mlr_per_s,dsc_w_g,mcc_w_g"
+    );
+    let rows: Vec<Vec<f64>> = lines
+        .map(|l| l.split(',').map(|v| v.parse().unwrap()).collect())
+        .collect();
+    let times: Vec<f64> = rows.iter().map(|r| r[0]).collect();
+    let rates: Vec<f64> = rows.iter().map(|r| r[3]).collect();
+    let (peak_s, _) = emberfit::physics::zero_d::parabolic_peak(&times, &rates).unwrap();
+    // The programme: 600 s hold at 323 K, then 10 K/min.
+    let peak_k = 323.0 + (peak_s - 600.0) / 6.0;
+    let exact_k = kissinger_peak_k(2.0e13, 1.88e5, 10.0 / 60.0);
+    println!("demo scenario peak {peak_k:.3} K, kissinger {exact_k:.3} K");
+    assert!((peak_k - exact_k).abs() < 0.1, "{peak_k} vs {exact_k}");
+    assert!(
+        rows.last().unwrap()[2] < 1e-6,
+        "the sample must be gone at 823 K"
+    );
+    std::fs::remove_dir_all(out.parent().unwrap()).ok();
+}
+
+#[test]
+fn simulate_rejects_an_irradiance_for_a_milligram_scenario() {
+    let output = emberfit()
+        .args([
+            "simulate",
+            "demo-cases/pmma-tga/scenario.toml",
+            "--flux",
+            "50",
+        ])
+        .output()
+        .unwrap();
+    assert!(!output.status.success());
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        stderr.contains("--flux") && stderr.contains("milligram"),
+        "{stderr}"
+    );
+}
+
+#[test]
+fn a_bad_milligram_scenario_key_is_reported_with_file_line_and_key() {
+    let dir = scratch_dir("bad-scenario");
+    let path = dir.join("bad.toml");
+    let material = Path::new(env!("CARGO_MANIFEST_DIR")).join("models/thermoplastic.toml");
+    std::fs::write(
+        &path,
+        format!(
+            "title = \"bad\"\nmaterial = \"{}\"\n[programme]\nstart_k = 300.0\n\
+             [[programme.step]]\nramp_k_min = -5.0\nto_k = 800.0\n",
+            material.display()
+        ),
+    )
+    .unwrap();
+    let output = emberfit().arg("simulate").arg(&path).output().unwrap();
+    assert!(!output.status.success());
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(
+        stderr.contains("bad.toml:6")
+            && stderr.contains("programme.step[0].ramp_k_min")
+            && stderr.contains("-5"),
+        "{stderr}"
+    );
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+/// `emberfit isoconversional` on TGA files written the way labs write them (names row, units
+/// row, mass in mg) from single-step kinetics: the JSON's Friedman E is the simulated E within
+/// 1 % (ICTAC, Vyazovkin et al. 2011), Kissinger's too, and no drift warning is given.
+#[test]
+fn isoconversional_command_reads_lab_style_files_and_recovers_e() {
+    let (a, e) = (5.0e13, 2.1e5);
+    let material = single_step_material(a, e, 1.0).unwrap();
+    let dir = scratch_dir("iso");
+    let mut files = Vec::new();
+    for beta in [5.0, 10.0, 20.0] {
+        let settings = ZeroDSettings {
+            output_interval_s: 3.0,
+            ..ZeroDSettings::default()
+        };
+        let h = tga(&material, &[1.0], beta, settings);
+        let mut text = String::from("\u{feff}time,Temp,mass\n[s],[K],[mg]\n");
+        for idx in 0..h.time_s.len() {
+            text.push_str(&format!(
+                "{:.1},{:.3},{:.6}\n",
+                h.time_s[idx],
+                h.temperature_k[idx],
+                4.0 * h.mass_fraction[idx]
+            ));
+        }
+        let path = dir.join(format!("tga_{beta}k.csv"));
+        std::fs::write(&path, text).unwrap();
+        files.push(path);
+    }
+    let output = emberfit()
+        .arg("isoconversional")
+        .args(&files)
+        .arg("--json")
+        .output()
+        .unwrap();
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let report: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
+    let friedman = report["methods"]["friedman"].as_array().unwrap();
+    assert_eq!(friedman.len(), 17);
+    for point in friedman {
+        let e_kj = point["activation_energy_kj_mol"].as_f64().unwrap();
+        assert!((e_kj - 210.0).abs() < 2.1, "{point}");
+    }
+    let kissinger_kj = report["kissinger"]["activation_energy_kj_mol"]
+        .as_f64()
+        .unwrap();
+    assert!((kissinger_kj - 210.0).abs() < 2.1, "{kissinger_kj}");
+    assert!(report["warnings"].as_array().unwrap().is_empty());
+    std::fs::remove_dir_all(&dir).ok();
+}
+
+#[test]
+fn isoconversional_command_refuses_a_single_file() {
+    let output = emberfit()
+        .args(["isoconversional", "only-one.csv"])
+        .output()
+        .unwrap();
+    assert!(!output.status.success());
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("FILE.csv"), "{stderr}");
+}
