@@ -788,6 +788,77 @@ mod tests {
         assert!((peak_k - low).abs() < 0.1, "{peak_k} vs {low}");
     }
 
+    /// A stiff chain a → b → gas whose intermediate b decomposes ~10⁴ times faster than it
+    /// forms: Dormand–Prince must stop with an error that names the implicit integrator, and
+    /// the implicit one must give the quasi-steady result, where the gas comes off at the rate
+    /// of the slow first step, so its peak obeys Kissinger's condition for that step
+    /// (Kissinger 1957; 0.5 K allows for the small hold-up in b).
+    #[test]
+    fn stiff_chain_needs_the_implicit_integrator_and_follows_the_slow_step() {
+        let (a1, e1) = (1e13, 2.0e5);
+        let slow = |reactant, product| Reaction {
+            reactant,
+            product,
+            product_yield: if product.is_some() { 1.0 } else { 0.0 },
+            pre_exponential_per_s: a1,
+            activation_energy_j_mol: e1,
+            order: 1.0,
+            heat_of_reaction_j_kg: 0.0,
+            gas: GasRelease {
+                fuel_fraction: 1.0,
+                heat_of_combustion_j_kg: 0.0,
+            },
+        };
+        let fast = Reaction {
+            pre_exponential_per_s: 1e12,
+            activation_energy_j_mol: 1.0e5,
+            ..slow(1, None)
+        };
+        let material = Material::new(
+            vec![component("a"), component("b")],
+            vec![slow(0, Some(1)), fast],
+        )
+        .unwrap();
+        let beta = 10.0 / 60.0;
+        let programme = TemperatureProgramme::ramp(300.0, beta, 900.0).unwrap();
+        let explicit = simulate_zero_d(
+            &material,
+            &[1.0, 0.0],
+            &programme,
+            &ZeroDSettings::default(),
+        );
+        let message = explicit.unwrap_err().to_string();
+        assert!(message.contains("implicit"), "{message}");
+        let settings = ZeroDSettings {
+            integrator: Integrator::Implicit,
+            relative_tolerance: 1e-6,
+            absolute_tolerance: 1e-8,
+            ..ZeroDSettings::default()
+        };
+        let history = simulate_zero_d(&material, &[1.0, 0.0], &programme, &settings).unwrap();
+        let (_, peak_k, _) = history.mass_loss_rate_peak().unwrap();
+        let condition = |t: f64| {
+            e1 * beta / (GAS_CONSTANT_J_MOL_K * t * t)
+                - a1 * (-e1 / (GAS_CONSTANT_J_MOL_K * t)).exp()
+        };
+        let (mut low, mut high) = (400.0, 900.0);
+        for _ in 0..100 {
+            let mid = 0.5 * (low + high);
+            if condition(mid) > 0.0 {
+                low = mid;
+            } else {
+                high = mid;
+            }
+        }
+        println!(
+            "stiff chain: dormand–prince: {message}; implicit peak {peak_k:.3} K vs {low:.3} K, \
+             {} steps",
+            history.n_steps
+        );
+        assert!((peak_k - low).abs() < 0.5, "{peak_k} vs {low}");
+        assert!(*history.mass_fraction.last().unwrap() < 1e-9);
+    }
+
     #[test]
     fn parabolic_peak_finds_the_vertex_of_a_sampled_parabola() {
         let times: Vec<f64> = (0..10).map(f64::from).collect();
