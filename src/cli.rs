@@ -28,6 +28,14 @@ pub enum Command {
     /// A milligram-scale scenario (one with a [programme] table: a heating programme instead of
     /// an irradiance) runs the 0-D TGA/DSC/MCC model; see docs/milligram-scale.md.
     Simulate(SimulateArgs),
+    /// Make measured-like test data from a scenario: the simulated mass and HRR as a cone
+    /// calorimeter would log them, with load-cell noise, HRR noise and a start-time offset.
+    ///
+    /// For demo cases and twin experiments (fit data whose true parameters are known). The
+    /// same seed gives the same file on every machine.
+    ///
+    /// Example: emberfit synthesize demo-cases/ridgeline-panel/scenario.toml --flux 25 --seed 3 --out test-25.csv
+    Synthesize(SynthesizeArgs),
     /// Model-free kinetics from TGA (or MCC) runs at several heating rates.
     ///
     /// Reads two or more files (a row of column names, a row of units such as [s], [K] or
@@ -50,6 +58,36 @@ pub enum Command {
     ///   emberfit isoconversional tga/*.csv --json > kinetics.json
     #[command(verbatim_doc_comment)]
     Isoconversional(IsoconversionalArgs),
+}
+
+#[derive(Debug, clap::Args)]
+pub struct SynthesizeArgs {
+    /// Scenario file (TOML) whose material plays the real specimen.
+    pub scenario: PathBuf,
+    /// Irradiance, kW/m² (default: the scenario's).
+    #[arg(long, value_name = "KW_M2")]
+    pub flux: Option<f64>,
+    /// Simulated duration, s (default: the scenario's).
+    #[arg(long, value_name = "S")]
+    pub duration: Option<f64>,
+    /// Seed of the noise generator.
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Exposed specimen area, m².
+    #[arg(long, value_name = "M2", default_value_t = 0.01)]
+    pub area_m2: f64,
+    /// Load-cell noise (standard deviation), g.
+    #[arg(long, value_name = "G", default_value_t = 0.05)]
+    pub mass_noise_g: f64,
+    /// HRR noise (standard deviation), kW/m², on top of 3 % of the signal.
+    #[arg(long, value_name = "KW_M2", default_value_t = 2.0)]
+    pub hrr_noise_kw_m2: f64,
+    /// Largest start-time offset of the logged clock, s (uniform in ±this).
+    #[arg(long, value_name = "S", default_value_t = 3.0)]
+    pub time_jitter_s: f64,
+    /// Output CSV (`time_s,mass_g,hrr_kw_m2`).
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: PathBuf,
 }
 
 #[derive(Debug, clap::Args)]

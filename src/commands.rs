@@ -6,13 +6,76 @@ use emberfit::case::load_scenario;
 use emberfit::export::{curves::curves_csv, write_atomically};
 use emberfit::physics::{simulate as run_simulation, History};
 
-use crate::cli::{Cli, Command, SimulateArgs};
+use crate::cli::{Cli, Command, SimulateArgs, SynthesizeArgs};
 
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Simulate(args) => simulate(args),
+        Command::Synthesize(args) => synthesize(args),
         Command::Isoconversional(args) => milligram::isoconversional(args),
     }
+}
+
+fn synthesize(args: SynthesizeArgs) -> Result<()> {
+    let mut loaded = load_scenario(&args.scenario).context("loading the scenario")?;
+    if let Some(flux_kw_m2) = args.flux {
+        check_flux(flux_kw_m2)?;
+        loaded.set_constant_irradiance_w_m2(flux_kw_m2 * 1e3);
+    }
+    if let Some(duration_s) = args.duration {
+        check_duration(duration_s)?;
+        loaded.scenario.duration_s = duration_s;
+    }
+    for (name, value) in [
+        ("--area-m2", args.area_m2),
+        ("--mass-noise-g", args.mass_noise_g),
+        ("--hrr-noise-kw-m2", args.hrr_noise_kw_m2),
+        ("--time-jitter-s", args.time_jitter_s),
+    ] {
+        if !(value >= 0.0 && value.is_finite()) {
+            bail!("{name} must be ≥ 0, got {value}");
+        }
+    }
+    if args.area_m2 <= 0.0 {
+        bail!("--area-m2 must be > 0, got {}", args.area_m2);
+    }
+    let history = run_simulation(&loaded.scenario)
+        .with_context(|| format!("simulating {}", loaded.path.display()))?;
+    let noise = emberfit::synthetic::NoiseModel {
+        area_m2: args.area_m2,
+        mass_noise_g: args.mass_noise_g,
+        hrr_noise_kw_m2: args.hrr_noise_kw_m2,
+        time_jitter_s: args.time_jitter_s,
+        ..Default::default()
+    };
+    let test = emberfit::synthetic::synthesize(&history, &noise, args.seed);
+    let bytes = emberfit::synthetic::synthetic_csv(&test).context("formatting the test data")?;
+    write_atomically(&args.out, &bytes)
+        .with_context(|| format!("writing {}", args.out.display()))?;
+    println!(
+        "{}: {} rows, initial mass {:.2} g, clock offset {:+.2} s, ignition {}",
+        args.out.display(),
+        test.time_s.len(),
+        test.initial_mass_g,
+        test.time_offset_s,
+        test.ignition_time_s
+            .map_or("none".into(), |t| format!("{t:.1} s (logged clock)"))
+    );
+    Ok(())
+}
+
+fn check_flux(flux_kw_m2: f64) -> Result<()> {
+    if !(0.0..=500.0).contains(&flux_kw_m2) {
+        bail!("--flux must be within 0..500 kW/m², got {flux_kw_m2}");
+    }
+    Ok(())
+}
+
+fn check_duration(duration_s: f64) -> Result<()> {
+    if !(duration_s > 0.0 && duration_s.is_finite()) {
+        bail!("--duration must be > 0 s, got {duration_s}");
+    }
+    Ok(())
 }
 
 fn simulate(args: SimulateArgs) -> Result<()> {
@@ -21,15 +84,11 @@ fn simulate(args: SimulateArgs) -> Result<()> {
     }
     let mut loaded = load_scenario(&args.scenario).context("loading the scenario")?;
     if let Some(flux_kw_m2) = args.flux {
-        if !(0.0..=500.0).contains(&flux_kw_m2) {
-            bail!("--flux must be within 0..500 kW/m², got {flux_kw_m2}");
-        }
+        check_flux(flux_kw_m2)?;
         loaded.set_constant_irradiance_w_m2(flux_kw_m2 * 1e3);
     }
     if let Some(duration_s) = args.duration {
-        if !(duration_s > 0.0 && duration_s.is_finite()) {
-            bail!("--duration must be > 0 s, got {duration_s}");
-        }
+        check_duration(duration_s)?;
         loaded.scenario.duration_s = duration_s;
     }
     let history = run_simulation(&loaded.scenario)
@@ -42,7 +101,22 @@ fn simulate(args: SimulateArgs) -> Result<()> {
     if args.json {
         println!("{}", summary_json(&history));
     } else {
-        print!("{}", summary_table(&loaded.title, &history));
+        let exposure = match &loaded.scenario.exposure.irradiance_w_m2 {
+            emberfit::physics::scenario::Schedule::Constant(q) => format!("{:.1} kW/m²", q * 1e-3),
+            emberfit::physics::scenario::Schedule::Table(points) => {
+                format!("irradiance table of {} points", points.len())
+            }
+        };
+        print!(
+            "{}",
+            summary_table(
+                &format!(
+                    "{} — {exposure}, {:.0} s",
+                    loaded.title, loaded.scenario.duration_s
+                ),
+                &history
+            )
+        );
         if let Some(out) = &args.out {
             println!(
                 "curves written to {} ({} rows)",

@@ -2,6 +2,8 @@
 //! model and predicts untested conditions. The architecture is described in DEVELOPERS.md.
 
 pub mod case;
+pub mod data;
 pub mod export;
 pub mod microscale;
 pub mod physics;
+pub mod synthetic;

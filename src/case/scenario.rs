@@ -19,7 +19,7 @@ use crate::physics::scenario::{
 pub const DEFAULT_AMBIENT_TEMPERATURE_K: f64 = 293.15;
 /// Default cell size in specimen layers, m: fine enough that halving it changes peak MLR by
 /// less than 1 % on the templates (tests/integration/verification.rs measures it).
-pub const DEFAULT_SPECIMEN_CELL_M: f64 = 1.0e-4;
+pub const DEFAULT_SPECIMEN_CELL_M: f64 = 2.0e-4;
 /// Default cell size in backing layers, m (they only need to carry heat away).
 pub const DEFAULT_BACKING_CELL_M: f64 = 1.0e-3;
 

@@ -139,6 +139,8 @@ pub struct Summary {
     pub mass: MassBudget,
     pub n_steps: usize,
     pub n_rejected_steps: usize,
+    /// Linear solves, over accepted and retried steps.
+    pub n_iterations: usize,
 }
 
 /// One cell of the stack at the end of the run.

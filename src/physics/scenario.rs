@@ -180,12 +180,12 @@ impl Default for Numerics {
     /// by less than 1% on the templates (measured in tests/integration/verification.rs).
     fn default() -> Self {
         Numerics {
-            max_temperature_change_k: 4.0,
-            max_conversion_per_step: 0.05,
+            max_temperature_change_k: 8.0,
+            max_conversion_per_step: 0.1,
             initial_step_s: 0.05,
             max_step_s: 5.0,
             min_step_s: 1e-7,
-            iteration_tolerance_k: 1e-3,
+            iteration_tolerance_k: 1e-2,
         }
     }
 }

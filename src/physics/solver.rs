@@ -78,6 +78,10 @@ struct Solver<'a> {
     rate_weighted_temperature: f64,
     n_steps: usize,
     n_rejected: usize,
+    n_iterations: usize,
+    /// Temperature change of the last accepted step and its length, for the predictor.
+    last_change_k: Vec<f64>,
+    last_dt_s: f64,
     samples: Vec<Sample>,
     previous_sample: Sample,
     next_output_s: f64,
@@ -181,6 +185,9 @@ impl<'a> Solver<'a> {
             rate_weighted_temperature: 0.0,
             n_steps: 0,
             n_rejected: 0,
+            n_iterations: 0,
+            last_change_k: Vec::new(),
+            last_dt_s: 0.0,
             samples: Vec::new(),
             previous_sample: Sample::default(),
             next_output_s: 0.0,
@@ -254,11 +261,20 @@ impl<'a> Solver<'a> {
         let n_nodes = n_cells + 2;
         let time_new_s = self.time_s + dt_s;
         let mut work = std::mem::take(&mut self.work);
+        // First iterate: the last step's trend carried forward (a cheap predictor that saves
+        // about one iteration per step); the converged answer does not depend on it.
         work.iterate_k.clear();
         work.iterate_k.extend_from_slice(&self.temperature_k);
+        if self.last_change_k.len() == n_nodes && self.last_dt_s > 0.0 {
+            let ratio = (dt_s / self.last_dt_s).min(2.0);
+            for (guess, change) in work.iterate_k.iter_mut().zip(&self.last_change_k) {
+                *guess += ratio * change;
+            }
+        }
         let mut converged = false;
         let mut budget = EnergyBudget::default();
         for _ in 0..MAX_ITERATIONS {
+            self.n_iterations += 1;
             self.evaluate_cells(&mut work, dt_s);
             let face_absorbed_w_m2 = self.deposit_radiation(&mut work, time_new_s);
             budget = self.assemble_and_solve(&mut work, dt_s, face_absorbed_w_m2);
@@ -459,7 +475,11 @@ impl<'a> Solver<'a> {
         } else {
             0.0
         };
-        emissivity * (exposure.irradiance_w_m2.at(time_s) + flame_w_m2)
+        // The step mean of the irradiance: steps end at the table's breakpoints, so for a
+        // piecewise-linear schedule this integrates the delivered energy exactly.
+        let irradiance_w_m2 =
+            0.5 * (exposure.irradiance_w_m2.at(self.time_s) + exposure.irradiance_w_m2.at(time_s));
+        emissivity * (irradiance_w_m2 + flame_w_m2)
     }
 
     /// Builds the linearised system at the current iterate, solves it into `work.solution_k`
@@ -637,6 +657,14 @@ impl<'a> Solver<'a> {
 
     fn accept(&mut self, dt_s: f64, result: StepResult) {
         let mut work = std::mem::take(&mut self.work);
+        self.last_change_k.clear();
+        self.last_change_k.extend(
+            work.solution_k
+                .iter()
+                .zip(&self.temperature_k)
+                .map(|(new, old)| new - old),
+        );
+        self.last_dt_s = dt_s;
         std::mem::swap(&mut self.temperature_k, &mut work.solution_k);
         std::mem::swap(&mut self.masses, &mut work.new_masses);
         self.work = work;
@@ -788,6 +816,7 @@ impl<'a> Solver<'a> {
     }
 
     fn remove_cell(&mut self, source: usize) {
+        self.last_change_k.clear();
         self.cell_layer.remove(source);
         self.reference_mass.remove(source);
         self.masses
@@ -801,29 +830,11 @@ impl<'a> Solver<'a> {
         let [mlr, fuel_flux, hrr] = rates;
         let n_cells = self.n_cells();
         let mut thicknesses = Vec::with_capacity(n_cells);
-        let mut conductivities = Vec::with_capacity(n_cells);
         let mut specimen_mass = 0.0;
         let mut specimen_thickness = 0.0;
         let mut last_specimen_cell = None;
         for cell_idx in 0..n_cells {
-            let material = self.material(cell_idx);
-            let temperature_k = self.temperature_k[cell_idx + 1];
-            let mut thickness = 0.0;
-            let mut conductivity_volume = 0.0;
-            for (component, &mass) in material
-                .components
-                .iter()
-                .zip(&self.masses[cell_idx * self.stride..])
-            {
-                let volume = mass / component.density_kg_m3;
-                thickness += volume;
-                conductivity_volume += volume * component.conductivity_w_m_k.at(temperature_k);
-            }
-            let conductivity = if thickness > 0.0 {
-                conductivity_volume / thickness
-            } else {
-                material.components[0].conductivity_w_m_k.at(temperature_k)
-            };
+            let thickness = self.cell_thickness_m(cell_idx);
             if self.scenario.layers[self.cell_layer[cell_idx]].is_specimen {
                 specimen_mass += self.masses[cell_idx * self.stride..][..self.stride]
                     .iter()
@@ -832,7 +843,6 @@ impl<'a> Solver<'a> {
                 last_specimen_cell = Some(cell_idx);
             }
             thicknesses.push(thickness);
-            conductivities.push(conductivity);
         }
         let back_node = n_cells + 1;
         let specimen_back_k = match last_specimen_cell {
@@ -841,8 +851,10 @@ impl<'a> Solver<'a> {
             Some(a) if a + 1 < n_cells => {
                 // Interface temperature from the flux through the two half-cells (and contact).
                 let b = a + 1;
-                let ra = thicknesses[a].max(MIN_CELL_THICKNESS_M) / (2.0 * conductivities[a]);
-                let rb = thicknesses[b].max(MIN_CELL_THICKNESS_M) / (2.0 * conductivities[b]);
+                let ra = thicknesses[a].max(MIN_CELL_THICKNESS_M)
+                    / (2.0 * self.cell_conductivity_w_m_k(a));
+                let rb = thicknesses[b].max(MIN_CELL_THICKNESS_M)
+                    / (2.0 * self.cell_conductivity_w_m_k(b));
                 let rc = self.scenario.layers[self.cell_layer[b]].contact_resistance_m2_k_w;
                 let flux = (self.temperature_k[a + 1] - self.temperature_k[b + 1]) / (ra + rc + rb);
                 self.temperature_k[a + 1] - flux * ra
@@ -891,6 +903,39 @@ impl<'a> Solver<'a> {
         }
     }
 
+    /// Thickness of a cell from its component masses, m.
+    fn cell_thickness_m(&self, cell_idx: usize) -> f64 {
+        let material = self.material(cell_idx);
+        material
+            .components
+            .iter()
+            .zip(&self.masses[cell_idx * self.stride..])
+            .map(|(c, m)| m / c.density_kg_m3)
+            .sum()
+    }
+
+    /// Volume-fraction-weighted conductivity of a cell at its temperature, W/(m·K).
+    fn cell_conductivity_w_m_k(&self, cell_idx: usize) -> f64 {
+        let material = self.material(cell_idx);
+        let temperature_k = self.temperature_k[cell_idx + 1];
+        let mut thickness = 0.0;
+        let mut conductivity_volume = 0.0;
+        for (component, &mass) in material
+            .components
+            .iter()
+            .zip(&self.masses[cell_idx * self.stride..])
+        {
+            let volume = mass / component.density_kg_m3;
+            thickness += volume;
+            conductivity_volume += volume * component.conductivity_w_m_k.at(temperature_k);
+        }
+        if thickness > 0.0 {
+            conductivity_volume / thickness
+        } else {
+            material.components[0].conductivity_w_m_k.at(temperature_k)
+        }
+    }
+
     fn finish(self) -> History {
         let remaining_all: f64 = self.masses.iter().sum();
         let specimen_remaining = self.previous_sample.mass_kg_m2;
@@ -918,6 +963,7 @@ impl<'a> Solver<'a> {
             },
             n_steps: self.n_steps,
             n_rejected_steps: self.n_rejected,
+            n_iterations: self.n_iterations,
         };
         let mut depth_m = 0.0;
         let final_cells = (0..self.n_cells())

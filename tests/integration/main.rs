@@ -1,5 +1,7 @@
 //! The integration tests: one binary, one module per concern.
 
+mod cli;
 mod microscale;
+mod properties;
 mod util;
 mod verification;

@@ -265,8 +265,9 @@ fn higher_irradiance_ignites_sooner_and_burns_faster() {
     }
 }
 
-/// An irradiance table is followed: halfway along a linear ramp the absorbed energy equals the
-/// ramp's integral times the emissivity (exact for a piecewise-linear schedule).
+/// An irradiance table is followed: the absorbed energy equals the integral of the
+/// piecewise-linear schedule times the emissivity (the trapezoid rule is exact for it, and
+/// steps end at the table's points).
 #[test]
 fn irradiance_table_is_integrated_exactly() {
     let slab = layer(inert_material(K_W_M_K, RHO_KG_M3, C_J_KG_K), 0.01, 20, true);
@@ -280,5 +281,42 @@ fn irradiance_table_is_integrated_exactly() {
         error < 0.02,
         "absorbed {} vs {expected}",
         history.summary.energy.absorbed_j_m2
+    );
+}
+
+/// Grid and step convergence (physics.md §1 "Numerical requirements"): halving the cell size
+/// and every step limit changes peak MLR by less than 1 % at the default resolution, and the
+/// differences shrink as the grid is refined again, which gives the observed order
+/// p = log₂(|P₁ − P₂| / |P₂ − P₄|).
+#[test]
+fn halving_cells_and_step_limits_changes_peak_mlr_by_less_than_one_percent() {
+    let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+        .join("tests/cases/thermoplastic-on-board.toml");
+    let loaded = emberfit::case::load_scenario(&path).unwrap();
+    let peak_at = |refinement: f64| {
+        let mut scenario = loaded.scenario.clone();
+        for layer in &mut scenario.layers {
+            layer.n_cells = (layer.n_cells as f64 * refinement).round() as usize;
+        }
+        let numerics = &mut scenario.numerics;
+        numerics.max_temperature_change_k /= refinement;
+        numerics.max_conversion_per_step /= refinement;
+        numerics.iteration_tolerance_k /= refinement;
+        simulate(&scenario).unwrap().summary.peak_mlr_kg_m2_s
+    };
+    let (p1, p2, p4) = (peak_at(1.0), peak_at(2.0), peak_at(4.0));
+    let change = (p1 - p2).abs() / p2;
+    let order = ((p1 - p2).abs() / (p2 - p4).abs()).log2();
+    eprintln!(
+        "grid convergence: peak MLR {:.4} / {:.4} / {:.4} g/m2s, default vs half {:.3} %, observed order {order:.2}",
+        p1 * 1e3,
+        p2 * 1e3,
+        p4 * 1e3,
+        100.0 * change
+    );
+    assert!(change < 0.01, "change {change}");
+    assert!(
+        (p2 - p4).abs() < (p1 - p2).abs(),
+        "refining again did not shrink the change"
     );
 }

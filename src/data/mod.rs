@@ -1,0 +1,109 @@
+//! Test data in: reads lab files (a TEST.toml description and its CSV), reduces cone calorimeter
+//! signals to HRR and MLR curves, computes the report quantities of ISO 5660-1, combines repeats
+//! and analyses ignition times across irradiances.
+//!
+//! This module owns everything between a lab's file and the curves the fit uses. It never
+//! prints: every repair it makes to the data is returned as a [`Notice`], every failure as a
+//! [`DataError`] naming file, line and column or field. Curves leave this module in the trade's
+//! units (`hrr_kw_m2`, `mlr_g_m2s`, `mass_g`) because that is what the fit compares with the
+//! lab's own numbers; each name carries its unit.
+
+pub mod derivative;
+pub mod description;
+pub mod ignition;
+pub mod oxygen;
+pub mod reduce;
+pub mod repeats;
+pub mod report;
+pub mod table;
+
+use std::fmt;
+use std::path::PathBuf;
+
+pub use description::TestDescription;
+pub use reduce::{reduce, Reduced};
+
+/// A repair or assumption made while reading or reducing a test (dropped rows, clipped values,
+/// assumed units). Notices are never silent: commands print them and `--json` carries them.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Notice {
+    /// What was done and why, in one lower-case sentence that names the file or column.
+    pub message: String,
+}
+
+impl Notice {
+    /// Makes a notice from any message.
+    pub fn new(message: impl Into<String>) -> Self {
+        Notice {
+            message: message.into(),
+        }
+    }
+}
+
+impl fmt::Display for Notice {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        f.write_str(&self.message)
+    }
+}
+
+/// Everything that can stop a test file from being read or reduced.
+#[derive(Debug, thiserror::Error)]
+pub enum DataError {
+    /// The file could not be opened or read.
+    #[error("cannot read {}", path.display())]
+    Read {
+        /// File that failed.
+        path: PathBuf,
+        /// Operating-system error.
+        #[source]
+        source: std::io::Error,
+    },
+    /// The TOML description is not valid TOML or has a wrongly typed or unknown key.
+    #[error("cannot parse {}", path.display())] // toml's own message adds line and column
+    Syntax {
+        /// File that failed.
+        path: PathBuf,
+        /// Parser error with line and column.
+        #[source]
+        source: toml::de::Error,
+    },
+    /// A key of the TOML description has a value that cannot be used.
+    #[error("{}:{line}: `{field}` {problem}", path.display())]
+    Invalid {
+        /// TOML file.
+        path: PathBuf,
+        /// Line of the offending key (1-based; 0 when the key is missing).
+        line: usize,
+        /// Key path, e.g. `columns.mass.unit`.
+        field: String,
+        /// What is wrong and what was found.
+        problem: String,
+    },
+    /// A cell of a data file cannot be read.
+    #[error("{}:{line}: column `{column}`: {problem}", path.display())]
+    Cell {
+        /// Data file.
+        path: PathBuf,
+        /// Line in the file (1-based).
+        line: usize,
+        /// Column name as in the header.
+        column: String,
+        /// What is wrong and what was found.
+        problem: String,
+    },
+    /// A data file as a whole cannot be used (no header, a missing column, too few rows).
+    #[error("{}: {problem}", path.display())]
+    File {
+        /// Data file.
+        path: PathBuf,
+        /// What is wrong and what was found.
+        problem: String,
+    },
+    /// The data were read but cannot be reduced as asked (e.g. a quantity needs a signal that
+    /// the test does not have).
+    #[error("{problem}")]
+    Reduction {
+        /// What is wrong and what was found.
+        problem: String,
+    },
+}

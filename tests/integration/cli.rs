@@ -1,0 +1,133 @@
+//! The `emberfit` binary on the demo case and on broken files: what a user sees.
+
+use std::path::{Path, PathBuf};
+use std::process::{Command, Output};
+
+fn emberfit(args: &[&str]) -> Output {
+    Command::new(env!("CARGO_BIN_EXE_emberfit"))
+        .args(args)
+        .current_dir(env!("CARGO_MANIFEST_DIR"))
+        .output()
+        .expect("the emberfit binary runs")
+}
+
+fn scratch_dir(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("emberfit-cli-{name}-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    dir
+}
+
+/// The demo case runs as it is and writes the documented columns (issue 2's CSV contract).
+#[test]
+fn simulate_runs_the_demo_case_and_writes_the_documented_columns() {
+    let out = scratch_dir("demo").join("curves.csv");
+    let output = emberfit(&[
+        "simulate",
+        "demo-cases/ridgeline-panel/scenario.toml",
+        "--flux",
+        "35",
+        "--duration",
+        "300",
+        "--out",
+        out.to_str().unwrap(),
+    ]);
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    assert!(
+        output.status.success(),
+        "{stdout}{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    assert!(
+        stdout.contains("ignition") && stdout.contains("peak HRR"),
+        "{stdout}"
+    );
+    let text = std::fs::read_to_string(&out).unwrap();
+    let header = text.lines().next().unwrap();
+    assert!(header.starts_with(
+        "time_s,mass_kg_m2,mlr_g_m2s,fuel_mlr_g_m2s,hrr_kw_m2,surface_temp_k,back_temp_k,thickness_mm"
+    ));
+    assert!(header.ends_with("temp_mid_depth_k"), "{header}");
+    // 0..300 s at 1 s: 301 rows plus the header.
+    assert_eq!(text.lines().count(), 302);
+}
+
+#[test]
+fn simulate_json_summary_has_the_figures() {
+    let output = emberfit(&[
+        "simulate",
+        "demo-cases/ridgeline-panel/scenario.toml",
+        "--json",
+        "--duration",
+        "120",
+    ]);
+    assert!(output.status.success());
+    let value: serde_json::Value = serde_json::from_slice(&output.stdout).unwrap();
+    assert!(value["ignition_time_s"].as_f64().unwrap() > 0.0);
+    assert!(value["energy_balance_relative_residual"].as_f64().unwrap() < 1e-6);
+}
+
+/// Every file in tests/bad-input gives an error naming the file and saying what is wrong,
+/// never a panic (the expected words are listed per file).
+#[test]
+fn broken_files_give_errors_that_name_file_line_and_key() {
+    let cases = [
+        (
+            "negative-density.toml",
+            "negative-density.material.toml:7: `component[0].density_kg_m3` must be > 0, got -1190",
+        ),
+        (
+            "yield-above-one.toml",
+            "yield-above-one.material.toml:22: `reaction[0].yield` must be within 0..1, got 1.4",
+        ),
+        (
+            "zero-thickness.toml",
+            "zero-thickness.toml:7: `layer[0].thickness_mm` must be > 0, got 0",
+        ),
+        ("misspelt-key.toml", "unknown field `irradiance_kw_m`"),
+        (
+            "missing-material.toml",
+            "missing-material.toml:6: `layer[0].material` cannot read",
+        ),
+        (
+            "composition-sum.toml",
+            "composition-sum.toml:8: `layer[0].composition` mass fractions must sum to 1, got 1.2",
+        ),
+        (
+            "probe-too-deep.toml",
+            "probe-too-deep.toml:14: `probe[0].depth_mm` is deeper than the stack",
+        ),
+        (
+            "negative-irradiance.toml",
+            "negative-irradiance.toml:10: `exposure.irradiance_kw_m2` must be ≥ 0, got -50",
+        ),
+        ("unknown-ignition-rule.toml", "unknown variant `spark`"),
+    ];
+    for (file, expected) in cases {
+        let path = Path::new("tests/bad-input").join(file);
+        let output = emberfit(&["simulate", path.to_str().unwrap()]);
+        let stderr = String::from_utf8_lossy(&output.stderr);
+        assert_eq!(output.status.code(), Some(1), "{file}: {stderr}");
+        assert!(
+            stderr.contains(expected),
+            "{file}: expected `{expected}` in:\n{stderr}"
+        );
+        assert!(!stderr.contains("panicked"), "{file}: {stderr}");
+    }
+}
+
+#[test]
+fn misspelt_key_error_gives_the_line() {
+    let output = emberfit(&["simulate", "tests/bad-input/misspelt-key.toml"]);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("line 10"), "{stderr}");
+}
+
+#[test]
+fn help_teaches_the_simulate_command() {
+    let output = emberfit(&["simulate", "--help"]);
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    assert!(
+        stdout.contains("--flux") && stdout.contains("Example"),
+        "{stdout}"
+    );
+}
