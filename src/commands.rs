@@ -344,6 +344,9 @@ mod milligram {
         let mut runs = Vec::with_capacity(args.files.len());
         for path in &args.files {
             let thermogram = read_thermogram(path).context("reading a run")?;
+            for notice in &thermogram.notices {
+                eprintln!("note: {notice}");
+            }
             runs.push(
                 ConversionRun::from_thermogram(&thermogram)
                     .with_context(|| format!("preparing {}", path.display()))?,

@@ -3,12 +3,15 @@
 //! Columns are recognised by their units (and, between DSC and MCC, by their names); values are
 //! converted to SI or to the per-initial-mass units of the 0-D model here, at the edge.
 //!
-//! This is a small reader of our own, because the generic data reader of `src/data/` did not
-//! exist yet when it was written; it can be replaced by that one without changing `Thermogram`.
+//! Columns are chosen here by their units; the cells are read by the generic table reader of
+//! `data::table`, so separators, decimal commas, byte-order marks and blank cells are handled
+//! (and reported as notices) the same way as for cone files.
 
 use std::path::{Path, PathBuf};
 
 use super::MicroscaleError;
+use crate::data::table::{parse_table, ColumnRequest, Quantity};
+use crate::data::Notice;
 
 /// What a milligram-scale file measures.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -46,6 +49,8 @@ pub struct Thermogram {
     pub values: Vec<f64>,
     /// Initial sample mass in mg when the file gives absolute masses (its first reading).
     pub initial_mass_mg: Option<f64>,
+    /// Repairs made while reading (skipped rows, byte-order mark), for the user to see.
+    pub notices: Vec<Notice>,
 }
 
 impl Thermogram {
@@ -143,44 +148,82 @@ fn kind_from_name(name: &str) -> Option<MeasurementKind> {
 /// Reads a TGA, DSC or MCC file. The first column whose unit is a time is time, the first whose
 /// unit is a temperature is temperature, and the first mass or per-mass column is the signal;
 /// further columns (error bands, other signals) are ignored. Rows with a blank cell in one of
-/// the three columns are skipped.
+/// the three columns are skipped, and a notice says how many.
 pub fn read_thermogram(path: &Path) -> Result<Thermogram, MicroscaleError> {
-    let text = std::fs::read_to_string(path).map_err(|source| MicroscaleError::Read {
+    let bytes = std::fs::read(path).map_err(|source| MicroscaleError::Read {
         path: path.to_path_buf(),
         source,
     })?;
-    parse_thermogram(path, &text)
+    parse_thermogram(path, &String::from_utf8_lossy(&bytes))
 }
 
-/// Parses the text of a milligram-scale file; `path` is used in messages only.
-pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, MicroscaleError> {
+/// Column names and units of a file's header: the first non-blank row holds names (a unit in
+/// brackets may follow a name), and the next row holds units when none of its cells is a
+/// number. Returns (line of the units, names, units).
+fn header_units(
+    path: &Path,
+    text: &str,
+) -> Result<(usize, Vec<String>, Vec<String>), MicroscaleError> {
     let format_error = |line: usize, problem: String| MicroscaleError::Format {
         path: path.to_path_buf(),
         line,
         problem,
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut reader = csv::ReaderBuilder::new()
-        .has_headers(false)
-        .flexible(true)
-        .from_reader(text.as_bytes());
-    let mut records = reader.records();
-    let mut next_row = |what: &str| -> Result<(usize, Vec<String>), MicroscaleError> {
-        match records.next() {
-            Some(Ok(record)) => {
-                let line = record.position().map_or(0, |p| p.line() as usize);
-                Ok((line, record.iter().map(|s| s.trim().to_string()).collect()))
-            }
-            Some(Err(err)) => Err(format_error(
-                err.position().map_or(0, |p| p.line() as usize),
-                err.to_string(),
-            )),
-            None => Err(format_error(0, format!("has no {what} row"))),
-        }
+    let mut rows = text
+        .lines()
+        .enumerate()
+        .filter(|(_, line)| !line.trim().is_empty());
+    let (names_idx, names_line) = rows
+        .next()
+        .ok_or_else(|| format_error(1, "is empty: expected a row of column names".into()))?;
+    let delimiter = [',', ';', '\t']
+        .into_iter()
+        .find(|d| names_line.contains(*d))
+        .unwrap_or(',');
+    let split = |line: &str| -> Vec<String> {
+        line.split(delimiter)
+            .map(|cell| cell.trim().trim_matches('"').trim().to_string())
+            .collect()
     };
-    let (_, names) = next_row("column-name")?;
-    let (units_line, units) = next_row("unit")?;
-    let units: Vec<String> = units.iter().map(|u| clean_unit(u)).collect();
+    let names = split(names_line);
+    let mut units: Vec<String> = names
+        .iter()
+        .map(
+            |name| match (name.rfind(['[', '(']), name.ends_with([']', ')'])) {
+                (Some(open), true) => clean_unit(&name[open..]),
+                _ => String::new(),
+            },
+        )
+        .collect();
+    let mut units_line = names_idx + 1;
+    if let Some((idx, line)) = rows.next() {
+        let cells = split(line);
+        let is_units_row = cells
+            .iter()
+            .all(|c| c.is_empty() || c.replace(',', ".").parse::<f64>().is_err());
+        if is_units_row {
+            units_line = idx + 1;
+            for (unit, cell) in units.iter_mut().zip(&cells) {
+                if !cell.is_empty() {
+                    *unit = clean_unit(cell);
+                }
+            }
+        }
+    }
+    Ok((units_line, names, units))
+}
+
+/// Parses the text of a milligram-scale file; `path` is used in messages only. Column
+/// detection is by unit (here); the reading itself is the generic table reader of
+/// `data::table`, which handles byte-order marks, separators, decimal commas and blank cells.
+pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, MicroscaleError> {
+    let format_error = |line: usize, problem: String| MicroscaleError::Format {
+        path: path.to_path_buf(),
+        line,
+        problem,
+    };
+    let (units_line, names, units) = header_units(path, text)?;
     let column = |test: &dyn Fn(&str) -> bool| units.iter().position(|u| test(u));
     let time_col = column(&|u| time_factor_s(u).is_some()).ok_or_else(|| {
         format_error(
@@ -208,7 +251,7 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
         )
     })?;
     let signal = signal_of(&units[signal_col]).unwrap_or(Signal::MassFraction(1.0));
-    let signal_name = names.get(signal_col).cloned().unwrap_or_default();
+    let signal_name = names[signal_col].clone();
     let kind = match signal {
         Signal::MassMg(_) | Signal::MassFraction(_) => MeasurementKind::Tga,
         Signal::PerMassWg(_) => kind_from_name(&signal_name).ok_or_else(|| {
@@ -221,50 +264,73 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
             )
         })?,
     };
-    let time_factor = time_factor_s(&units[time_col]).unwrap_or(1.0);
-    let temperature_offset = temperature_offset_k(&units[temperature_col]).unwrap_or(0.0);
-    let (mut time_s, mut temperature_k, mut raw) = (Vec::new(), Vec::new(), Vec::new());
-    loop {
-        let (line, cells) = match next_row("data") {
-            Ok(row) => row,
-            Err(MicroscaleError::Format { line: 0, .. }) => break,
-            Err(err) => return Err(err),
+    // The table reader finds columns by name, ignoring case and a bracketed unit.
+    let bare = |name: &str| -> String {
+        let name = name.trim();
+        let name = match (name.rfind(['[', '(']), name.ends_with([']', ')'])) {
+            (Some(open), true) if open > 0 => &name[..open],
+            _ => name,
         };
-        let cell = |col: usize| cells.get(col).map(String::as_str).unwrap_or("");
-        if [time_col, temperature_col, signal_col]
-            .iter()
-            .any(|&col| cell(col).is_empty())
-        {
+        name.trim().to_lowercase()
+    };
+    for col in [time_col, temperature_col, signal_col] {
+        if let Some(other) = (0..col).find(|&other| bare(&names[other]) == bare(&names[col])) {
+            return Err(format_error(
+                units_line - 1,
+                format!(
+                    "columns `{}` and `{}` have the same name once case is ignored; rename one",
+                    names[other], names[col]
+                ),
+            ));
+        }
+    }
+    let request = |col: usize, quantity: Quantity| ColumnRequest {
+        name: names[col].clone(),
+        unit: None,
+        quantity,
+        is_required: true,
+    };
+    let table = parse_table(
+        path,
+        text,
+        &[
+            request(time_col, Quantity::Time),
+            request(temperature_col, Quantity::Temperature),
+            request(signal_col, Quantity::Any),
+        ],
+    )
+    .map_err(|err| MicroscaleError::Data(Box::new(err)))?;
+    let mut notices = table.notices.clone();
+    let columns: Vec<&[f64]> = table
+        .columns
+        .iter()
+        .map(|c| c.as_ref().map_or(&[][..], |c| c.values.as_slice()))
+        .collect();
+    let (mut time_s, mut temperature_k, mut raw) = (Vec::new(), Vec::new(), Vec::new());
+    let mut n_incomplete = 0usize;
+    for (row, line) in table.lines.iter().enumerate() {
+        let (t, temp, value) = (columns[0][row], columns[1][row], columns[2][row]);
+        if t.is_nan() || temp.is_nan() || value.is_nan() {
+            n_incomplete += 1;
             continue;
         }
-        let number = |col: usize| -> Result<f64, MicroscaleError> {
-            cell(col)
-                .parse::<f64>()
-                .ok()
-                .filter(|v| v.is_finite())
-                .ok_or_else(|| {
-                    format_error(
-                        line,
-                        format!(
-                            "column `{}` must be a number, got `{}`",
-                            names.get(col).map_or("", String::as_str),
-                            cell(col)
-                        ),
-                    )
-                })
-        };
-        let t = number(time_col)? * time_factor;
         if let Some(&previous) = time_s.last() {
             if t <= previous {
                 return Err(format_error(
-                    line,
+                    *line,
                     format!("time must increase, got {t} s after {previous} s"),
                 ));
             }
         }
         time_s.push(t);
-        temperature_k.push(number(temperature_col)? + temperature_offset);
-        raw.push(number(signal_col)?);
+        temperature_k.push(temp);
+        raw.push(value);
+    }
+    if n_incomplete > 0 {
+        notices.push(Notice::new(format!(
+            "{}: skipped {n_incomplete} rows with a blank time, temperature or `{signal_name}`",
+            path.display()
+        )));
     }
     if time_s.len() < 3 {
         return Err(format_error(
@@ -277,8 +343,8 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
             let first_mg = raw[0] * factor;
             if first_mg <= 0.0 {
                 return Err(format_error(
-                    units_line + 1,
-                    format!("first mass must be > 0, got {} mg", first_mg),
+                    table.lines[0],
+                    format!("first mass must be > 0, got {first_mg} mg"),
                 ));
             }
             (
@@ -296,6 +362,7 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
         temperature_k,
         values,
         initial_mass_mg,
+        notices,
     })
 }
 
@@ -315,7 +382,7 @@ mod tests {
 
     #[test]
     fn tells_dsc_from_mcc_by_the_column_name_and_converts_celsius() {
-        let dsc = "t,T,Heat Flow\nmin,°C,mW/mg\n0,25,0.1\n1,35,0.2\n2,45,0.3\n";
+        let dsc = "t,Temp,Heat Flow\nmin,°C,mW/mg\n0,25,0.1\n1,35,0.2\n2,45,0.3\n";
         let run = parse_thermogram(Path::new("d.csv"), dsc).unwrap();
         assert_eq!(run.kind, MeasurementKind::Dsc);
         assert_eq!(run.time_s[1], 60.0);
@@ -335,6 +402,18 @@ mod tests {
             .to_string();
         assert!(
             message.contains("bad.csv:5") && message.contains("Temp") && message.contains("abc"),
+            "{message}"
+        );
+    }
+
+    #[test]
+    fn columns_whose_names_differ_only_in_case_are_refused() {
+        let text = "t,T,mass\n[s],[K],[mg]\n0,300,4\n1,301,4\n2,302,3\n";
+        let message = parse_thermogram(Path::new("x.csv"), text)
+            .unwrap_err()
+            .to_string();
+        assert!(
+            message.contains("x.csv:1") && message.contains("`t` and `T`"),
             "{message}"
         );
     }

@@ -58,6 +58,9 @@ pub enum MicroscaleError {
         #[source]
         source: Box<crate::case::CaseError>,
     },
+    /// The generic table reader could not read a data file.
+    #[error(transparent)]
+    Data(Box<crate::data::DataError>),
     /// Data that the analysis cannot use.
     #[error("{0}")]
     Analysis(String),

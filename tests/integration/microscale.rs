@@ -502,3 +502,61 @@ fn isoconversional_command_refuses_a_single_file() {
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert!(stderr.contains("FILE.csv"), "{stderr}");
 }
+
+/// Open PMMA data (MaCFP; acceptance criteria in the data's PROVENANCE.md): every TGA, DSC and
+/// MCC file of the set is read with its kind recognised, and the MCC heat of combustion, the
+/// time integral of the HRR per initial mass (the residue is nil), lies in the source's band of
+/// 24 ± 1.5 kJ/g. The DSC files' heat flow integrates to a positive heat over each run (the
+/// source's DSC criterion, endothermic positive), which checks the sign and unit handling.
+#[test]
+fn macfp_pmma_files_are_read_and_mcc_heat_of_combustion_is_in_band() {
+    let Some(folder) = reference_folder() else {
+        return;
+    };
+    let trapezoid = |t: &[f64], v: &[f64]| -> f64 {
+        t.windows(2)
+            .zip(v.windows(2))
+            .map(|(t, v)| 0.5 * (t[1] - t[0]) * (v[0] + v[1]))
+            .sum()
+    };
+    let mut counts = [0usize; 3];
+    for (sub, kind) in [
+        ("tga", emberfit::microscale::MeasurementKind::Tga),
+        ("dsc", emberfit::microscale::MeasurementKind::Dsc),
+        ("mcc", emberfit::microscale::MeasurementKind::Mcc),
+    ] {
+        let mut paths: Vec<PathBuf> = std::fs::read_dir(folder.join(sub))
+            .unwrap()
+            .map(|entry| entry.unwrap().path())
+            .filter(|p| p.extension().is_some_and(|e| e == "csv"))
+            .collect();
+        paths.sort();
+        for path in paths {
+            let run = read_thermogram(&path).unwrap();
+            assert_eq!(run.kind, kind, "{}", path.display());
+            assert!(run.time_s.len() > 100, "{}", path.display());
+            match kind {
+                emberfit::microscale::MeasurementKind::Tga => {
+                    assert!((run.values[0] - 1.0).abs() < 1e-3);
+                    counts[0] += 1;
+                }
+                emberfit::microscale::MeasurementKind::Dsc => {
+                    let heat_j_g = trapezoid(&run.time_s, &run.values);
+                    assert!(heat_j_g > 0.0, "{}: {heat_j_g} J/g", path.display());
+                    counts[1] += 1;
+                }
+                emberfit::microscale::MeasurementKind::Mcc => {
+                    let heat_kj_g = trapezoid(&run.time_s, &run.values) * 1e-3;
+                    println!("{}: heat of combustion {heat_kj_g:.2} kJ/g", path.display());
+                    assert!((heat_kj_g - 24.0).abs() <= 1.5, "{heat_kj_g}");
+                    counts[2] += 1;
+                }
+            }
+        }
+    }
+    println!(
+        "read {} tga, {} dsc, {} mcc files",
+        counts[0], counts[1], counts[2]
+    );
+    assert!(counts.iter().all(|&n| n > 0));
+}
