@@ -38,7 +38,9 @@ impl MeasurementKind {
 /// One milligram-scale run read from a file, in the 0-D model's units.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Thermogram {
+    /// File the run was read from.
     pub path: PathBuf,
+    /// What the file measures.
     pub kind: MeasurementKind,
     /// Time, s, from the file's time column.
     pub time_s: Vec<f64>,

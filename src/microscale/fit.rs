@@ -18,7 +18,9 @@ use crate::physics::PhysicsError;
 /// One milligram-scale measurement prepared for comparison with the 0-D model.
 #[derive(Debug, Clone, PartialEq)]
 pub struct MilligramCase {
+    /// Where the case came from (the file path), for messages.
     pub label: String,
+    /// What the case measures; selects the model signal compared.
     pub kind: MeasurementKind,
     /// Data times, s, as in the file.
     pub time_s: Vec<f64>,
@@ -157,6 +159,7 @@ pub struct SingleStepFit {
     pub rms_conversion_error: f64,
     /// Kissinger's estimate that started the search: (A 1/s, E J/mol).
     pub kissinger_start: (f64, f64),
+    /// Nelder–Mead iterations used.
     pub n_iterations: u64,
 }
 

@@ -31,7 +31,9 @@ pub struct ConversionRun {
     pub label: String,
     /// Mean heating rate over the reacting part of the run, K/s.
     pub heating_rate_k_s: f64,
+    /// Time of each row, s.
     pub time_s: Vec<f64>,
+    /// Sample temperature of each row, K.
     pub temperature_k: Vec<f64>,
     /// Conversion α, 0 at the start, 1 at the end.
     pub conversion: Vec<f64>,
@@ -289,6 +291,7 @@ impl Method {
 /// Result of one regression at one conversion.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct IsoconversionalPoint {
+    /// Conversion α at which E was estimated, 0..1.
     pub conversion: f64,
     /// Activation energy, J/mol.
     pub activation_energy_j_mol: f64,
@@ -303,10 +306,13 @@ pub struct IsoconversionalPoint {
 /// A least-squares line with its quality.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct LineFit {
+    /// Slope of the line, in y per x.
     pub slope: f64,
+    /// Intercept of the line at x = 0, in y.
     pub intercept: f64,
     /// Standard error of the slope (NaN with two points).
     pub slope_standard_error: f64,
+    /// Coefficient of determination, 0..1.
     pub r_squared: f64,
 }
 
@@ -411,6 +417,7 @@ pub struct KissingerEstimate {
     pub pre_exponential_per_s: f64,
     /// Standard error of E, J/mol (NaN with two runs).
     pub standard_error_j_mol: f64,
+    /// Coefficient of determination of the Kissinger line, 0..1.
     pub r_squared: f64,
     /// (heating rate K/s, peak temperature K) used.
     pub peaks: Vec<(f64, f64)>,
@@ -450,6 +457,7 @@ pub fn kissinger(peaks: &[(f64, f64)]) -> Result<KissingerEstimate, MicroscaleEr
 pub struct IsoconversionalReport {
     /// (method, E against conversion) for Friedman, KAS and OFW.
     pub profiles: Vec<(Method, Vec<IsoconversionalPoint>)>,
+    /// Kissinger's E and A from the rate-peak temperatures.
     pub kissinger: KissingerEstimate,
     /// Warnings for the reader, e.g. that E varies too much for one step.
     pub warnings: Vec<String>,

@@ -33,6 +33,7 @@ pub const ZERO_D_COLUMNS: [&str; 6] = [
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct MilligramScenarioFile {
+    /// What is simulated.
     pub title: String,
     #[serde(default)]
     pub notes: Option<String>,
@@ -41,6 +42,7 @@ pub struct MilligramScenarioFile {
     /// Initial mass fractions by component name; default: all of the first component.
     #[serde(default)]
     pub composition: Option<Spanned<BTreeMap<String, f64>>>,
+    /// `[programme]`: the heating programme.
     pub programme: ProgrammeFile,
     /// Time between output rows, s (default 1).
     #[serde(default)]
@@ -56,6 +58,7 @@ pub struct MilligramScenarioFile {
 #[derive(Debug, Clone, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct ProgrammeFile {
+    /// Sample temperature at time 0, K.
     pub start_k: Spanned<f64>,
     #[serde(rename = "step")]
     pub steps: Vec<Spanned<StepFile>>,
@@ -89,13 +92,19 @@ pub struct NumericsFile {
 /// A milligram-scale scenario ready to run.
 #[derive(Debug, Clone)]
 pub struct MilligramScenario {
+    /// Scenario file.
     pub path: PathBuf,
+    /// What is simulated, from the file.
     pub title: String,
+    /// Material file, resolved against the scenario's folder.
     pub material_path: PathBuf,
+    /// The loaded material.
     pub material: MaterialModel,
     /// Initial mass fraction of each component of the material, summing to 1.
     pub initial_mass_fractions: Vec<f64>,
+    /// The heating programme, in SI.
     pub programme: TemperatureProgramme,
+    /// Output interval, integrator, tolerances and the DSC sensible-heat switch.
     pub settings: ZeroDSettings,
 }
 

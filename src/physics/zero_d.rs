@@ -161,6 +161,7 @@ pub enum Integrator {
 /// Numerical and output settings of a 0-D run.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ZeroDSettings {
+    /// Which integrator advances the masses.
     pub integrator: Integrator,
     /// Time between output rows, s (the last row falls on the end of the programme).
     pub output_interval_s: f64,
@@ -509,8 +510,7 @@ fn implicit_piece(
     rates: &mut [f64],
     history: &mut ZeroDHistory,
 ) -> Result<(), PhysicsError> {
-    let n_reactions = material.reactions.len();
-    let mut constants = vec![0.0; n_reactions];
+    let mut constants = vec![0.0; material.reactions.len()];
     let (mut coarse, mut half, mut fine) = (
         StepMasses::default(),
         StepMasses::default(),
