@@ -492,6 +492,14 @@ mod milligram {
                 fit.order,
                 fit.rms_conversion_error
             ));
+            out.push_str(&format!(
+                "  as a [[reaction]] of a material file (docs/file-formats.md):\n    \
+                 pre_exponential_per_s = {:.4e}\n    activation_energy_kj_mol = {:.2}\n    \
+                 order = {:.3}\n",
+                fit.pre_exponential_per_s,
+                fit.activation_energy_j_mol * 1e-3,
+                fit.order
+            ));
             for ((run, peak), model_k) in runs.iter().zip(&k.peaks).zip(predicted) {
                 out.push_str(&format!(
                     "  {:>7.2} K/min  peak measured {:.1} K, model {:.1} K\n",

@@ -6,12 +6,15 @@ use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::neldermead::NelderMead;
 
 use super::files::{line_fit, MeasurementKind, Thermogram};
-use super::isoconversional::{kissinger, ConversionRun};
+use super::isoconversional::{
+    conversion_from_mass, conversion_from_release, kissinger, ConversionRun,
+};
 use super::MicroscaleError;
 use crate::physics::kinetics::GAS_CONSTANT_J_MOL_K;
 use crate::physics::material::{Component, GasRelease, Material, PropertyLaw, Reaction};
 use crate::physics::zero_d::{
-    interpolate, simulate_zero_d, Integrator, TemperatureProgramme, ZeroDHistory, ZeroDSettings,
+    interpolate, simulate_zero_d, Integrator, ProgrammeSegment, TemperatureProgramme, ZeroDHistory,
+    ZeroDSettings,
 };
 use crate::physics::PhysicsError;
 
@@ -33,34 +36,44 @@ pub struct MilligramCase {
 }
 
 impl MilligramCase {
-    /// A case from a file: the programme is the least-squares line of the measured temperature
-    /// against time over the rows where the sample reacts (TGA: 5–95 % of the mass change; DSC
-    /// and MCC: all rows), from the first to the last data time.
+    /// A case from a file. The programme reproduces the measured temperature over the rows
+    /// where the sample reacts (TGA: 5–95 % of the mass change; MCC: of the heat released; DSC:
+    /// all rows): a least-squares line of temperature against time from the first to the last
+    /// data time, or, when that line changes by less than 1 K over the run, an isothermal hold
+    /// at the mean temperature.
     pub fn from_thermogram(run: &Thermogram) -> Result<Self, MicroscaleError> {
         let label = run.path.display().to_string();
-        let rows: Vec<usize> = match run.kind {
-            MeasurementKind::Tga | MeasurementKind::Mcc => {
-                let conversion = ConversionRun::from_thermogram(run)?;
-                (0..conversion.conversion.len())
-                    .filter(|&idx| (0.05..=0.95).contains(&conversion.conversion[idx]))
-                    .collect()
+        let conversion = match run.kind {
+            MeasurementKind::Tga => Some(conversion_from_mass(&label, &run.values)?),
+            MeasurementKind::Mcc => {
+                Some(conversion_from_release(&label, &run.time_s, &run.values)?)
             }
-            MeasurementKind::Dsc => (0..run.time_s.len()).collect(),
+            MeasurementKind::Dsc => None,
+        };
+        let rows: Vec<usize> = match &conversion {
+            Some(conversion) => (0..conversion.len())
+                .filter(|&idx| (0.05..=0.95).contains(&conversion[idx]))
+                .collect(),
+            None => (0..run.time_s.len()).collect(),
         };
         let times: Vec<f64> = rows.iter().map(|&idx| run.time_s[idx]).collect();
         let temps: Vec<f64> = rows.iter().map(|&idx| run.temperature_k[idx]).collect();
-        let (rate_k_s, intercept_k) = line_fit(&times, &temps)
-            .filter(|(slope, _)| *slope > 0.0)
-            .ok_or_else(|| {
-                MicroscaleError::analysis(format!(
-                    "{label}: temperature does not rise while the sample reacts"
-                ))
-            })?;
+        let (rate_k_s, intercept_k) = line_fit(&times, &temps).ok_or_else(|| {
+            MicroscaleError::analysis(format!(
+                "{label}: too few rows while the sample reacts to follow its temperature"
+            ))
+        })?;
         let first_s = run.time_s[0];
         let last_s = run.time_s[run.time_s.len() - 1];
-        let start_k = intercept_k + rate_k_s * first_s;
-        let end_k = intercept_k + rate_k_s * last_s;
-        let programme = TemperatureProgramme::ramp(start_k, rate_k_s, end_k)?;
+        let duration_s = last_s - first_s;
+        let programme = if (rate_k_s * duration_s).abs() < 1.0 {
+            let mean_k = temps.iter().sum::<f64>() / temps.len() as f64;
+            TemperatureProgramme::new(mean_k, vec![ProgrammeSegment::Hold { duration_s }])?
+        } else {
+            let start_k = intercept_k + rate_k_s * first_s;
+            let end_k = intercept_k + rate_k_s * last_s;
+            TemperatureProgramme::ramp(start_k, rate_k_s, end_k)?
+        };
         Ok(MilligramCase {
             label,
             kind: run.kind,
@@ -341,4 +354,62 @@ pub fn predicted_peak_temperature_k(
         .mass_loss_rate_peak()
         .map(|(_, temperature_k, _)| temperature_k)
         .ok_or_else(|| MicroscaleError::analysis("the model gives no mass-loss peak"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use std::path::PathBuf;
+
+    fn tga_file(time_s: Vec<f64>, values: Vec<f64>) -> Thermogram {
+        Thermogram {
+            path: PathBuf::from("synthetic.csv"),
+            kind: MeasurementKind::Tga,
+            temperature_k: time_s.iter().map(|t| 300.0 + 0.2 * t).collect(),
+            time_s,
+            values,
+            initial_mass_mg: Some(5.0),
+            notices: Vec::new(),
+        }
+    }
+
+    /// With E = 0 the rate constant is A at any temperature, so dm/dt = −A·m gives
+    /// m/m₀ = exp(−A·(t − t₀)) exactly: the model curve must follow it at the data times,
+    /// which start at t₀ = 40 s, not at 0 (the programme's time 0 is the first data row).
+    #[test]
+    fn model_curve_at_data_times_follows_the_exact_decay_for_zero_activation_energy() {
+        let a = 2e-3;
+        let time_s: Vec<f64> = (0..400).map(|i| 40.0 + 5.0 * f64::from(i)).collect();
+        let values = time_s.iter().map(|t| (-a * (t - 40.0)).exp()).collect();
+        let case = MilligramCase::from_thermogram(&tga_file(time_s.clone(), values)).unwrap();
+        let material = single_step_material(a, 0.0, 1.0).unwrap();
+        let settings = ZeroDSettings {
+            output_interval_s: 5.0,
+            ..ZeroDSettings::default()
+        };
+        let residual = residuals(&material, &[1.0], &case, &settings).unwrap();
+        assert_eq!(residual.len(), time_s.len());
+        let worst = residual.iter().map(|r| r.abs()).fold(0.0, f64::max);
+        assert!(worst < 1e-6, "{worst}");
+    }
+
+    /// Isothermal TGA: at constant T a first-order reaction gives m/m₀ = exp(−k·t) with
+    /// k = A·exp(−E/(R·T)) (Arrhenius); the case becomes a hold at the file's temperature.
+    #[test]
+    fn an_isothermal_case_follows_the_exact_first_order_decay() {
+        let (a, e, temperature_k) = (1e10, 1.5e5, 600.0);
+        let k = crate::physics::kinetics::rate_constant_per_s(a, e, temperature_k);
+        let time_s: Vec<f64> = (0..300).map(|i| 10.0 + 2.0 * f64::from(i)).collect();
+        let values = time_s.iter().map(|t| (-k * (t - 10.0)).exp()).collect();
+        let mut run = tga_file(time_s, values);
+        run.temperature_k
+            .iter_mut()
+            .for_each(|t| *t = temperature_k);
+        let case = MilligramCase::from_thermogram(&run).unwrap();
+        assert_eq!(case.programme.heating_rate_k_s_at(50.0), 0.0);
+        let material = single_step_material(a, e, 1.0).unwrap();
+        let residual = residuals(&material, &[1.0], &case, &ZeroDSettings::default()).unwrap();
+        let worst = residual.iter().map(|r| r.abs()).fold(0.0, f64::max);
+        assert!(worst < 1e-6, "{worst}");
+    }
 }

@@ -53,23 +53,7 @@ impl ConversionRun {
             .len()
             .min(temperature_k.len())
             .min(mass_fraction.len());
-        let edge = (n / 100).max(1);
-        if n < 3 * edge.max(2) {
-            return Err(MicroscaleError::analysis(format!(
-                "run `{label}` has {n} rows, too few for a conversion curve"
-            )));
-        }
-        let start = mass_fraction[..edge].iter().sum::<f64>() / edge as f64;
-        let end = mass_fraction[n - edge..n].iter().sum::<f64>() / edge as f64;
-        if start - end <= 0.0 {
-            return Err(MicroscaleError::analysis(format!(
-                "run `{label}` loses no mass (start {start:.4}, end {end:.4})"
-            )));
-        }
-        let conversion = mass_fraction[..n]
-            .iter()
-            .map(|m| (start - m) / (start - end))
-            .collect();
+        let conversion = conversion_from_mass(label, &mass_fraction[..n])?;
         Self::from_conversion(label, &time_s[..n], &temperature_k[..n], conversion)
     }
 
@@ -85,20 +69,7 @@ impl ConversionRun {
             .len()
             .min(temperature_k.len())
             .min(release_rate.len());
-        let mut cumulative = vec![0.0; n];
-        for idx in 1..n {
-            cumulative[idx] = cumulative[idx - 1]
-                + 0.5
-                    * (time_s[idx] - time_s[idx - 1])
-                    * (release_rate[idx] + release_rate[idx - 1]);
-        }
-        let total = cumulative.last().copied().unwrap_or(0.0);
-        if total <= 0.0 {
-            return Err(MicroscaleError::analysis(format!(
-                "run `{label}` releases no heat"
-            )));
-        }
-        let conversion = cumulative.iter().map(|c| c / total).collect();
+        let conversion = conversion_from_release(label, &time_s[..n], &release_rate[..n])?;
         Self::from_conversion(label, &time_s[..n], &temperature_k[..n], conversion)
     }
 
@@ -264,6 +235,53 @@ fn quadratic_slope_at(x: &[f64], y: &[f64], at: f64) -> Option<f64> {
     }
     let u = (at - centre) / scale;
     Some((coefficients[1] + 2.0 * coefficients[2] * u) / scale)
+}
+
+/// Conversion from normalised mass: α = (m₀ − m)/(m₀ − m_end), with m₀ and m_end the means of
+/// the first and last 1 % of the rows (at least one each), so baseline noise averages out.
+pub(crate) fn conversion_from_mass(
+    label: &str,
+    mass_fraction: &[f64],
+) -> Result<Vec<f64>, MicroscaleError> {
+    let n = mass_fraction.len();
+    let edge = (n / 100).max(1);
+    if n < 3 * edge.max(2) {
+        return Err(MicroscaleError::analysis(format!(
+            "run `{label}` has {n} rows, too few for a conversion curve"
+        )));
+    }
+    let start = mass_fraction[..edge].iter().sum::<f64>() / edge as f64;
+    let end = mass_fraction[n - edge..].iter().sum::<f64>() / edge as f64;
+    if start - end <= 0.0 {
+        return Err(MicroscaleError::analysis(format!(
+            "run `{label}` loses no mass (start {start:.4}, end {end:.4})"
+        )));
+    }
+    Ok(mass_fraction
+        .iter()
+        .map(|m| (start - m) / (start - end))
+        .collect())
+}
+
+/// Conversion from a release-rate curve: the running trapezoid integral over its total.
+pub(crate) fn conversion_from_release(
+    label: &str,
+    time_s: &[f64],
+    release_rate: &[f64],
+) -> Result<Vec<f64>, MicroscaleError> {
+    let n = time_s.len().min(release_rate.len());
+    let mut cumulative = vec![0.0; n];
+    for idx in 1..n {
+        cumulative[idx] = cumulative[idx - 1]
+            + 0.5 * (time_s[idx] - time_s[idx - 1]) * (release_rate[idx] + release_rate[idx - 1]);
+    }
+    let total = cumulative.last().copied().unwrap_or(0.0);
+    if total <= 0.0 {
+        return Err(MicroscaleError::analysis(format!(
+            "run `{label}` releases no heat"
+        )));
+    }
+    Ok(cumulative.iter().map(|c| c / total).collect())
 }
 
 /// An isoconversional method.
@@ -515,4 +533,52 @@ pub fn analyse(
         kissinger,
         warnings,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// A straight line y = 3 − 2x is recovered exactly, with R² = 1 and zero standard error.
+    #[test]
+    fn regression_of_an_exact_line_is_exact() {
+        let x = [1.0, 2.0, 3.0, 4.0];
+        let y: Vec<f64> = x.iter().map(|v| 3.0 - 2.0 * v).collect();
+        let line = regression(&x, &y).unwrap();
+        assert!((line.slope + 2.0).abs() < 1e-12 && (line.intercept - 3.0).abs() < 1e-12);
+        assert!((line.r_squared - 1.0).abs() < 1e-12 && line.slope_standard_error < 1e-12);
+    }
+
+    /// A constant heat release rate gives a conversion that rises linearly in time.
+    #[test]
+    fn constant_release_rate_gives_linear_conversion() {
+        let time_s: Vec<f64> = (0..=100).map(f64::from).collect();
+        let temperature_k: Vec<f64> = time_s.iter().map(|t| 400.0 + t).collect();
+        let run =
+            ConversionRun::from_release_rate("flat", &time_s, &temperature_k, &[5.0; 101]).unwrap();
+        assert!((run.conversion[25] - 0.25).abs() < 1e-12);
+        assert!((run.heating_rate_k_s - 1.0).abs() < 1e-12);
+        let (_, temperature, rate) = run.at_conversion(0.5).unwrap();
+        assert!((temperature - 450.0).abs() < 1e-9 && (rate - 0.01).abs() < 1e-9);
+    }
+
+    #[test]
+    fn kissinger_refuses_peaks_that_move_down_with_heating_rate() {
+        let message = kissinger(&[(0.1, 650.0), (0.2, 640.0)])
+            .unwrap_err()
+            .to_string();
+        assert!(message.contains("negative activation energy"), "{message}");
+    }
+
+    #[test]
+    fn one_run_is_not_enough_for_an_isoconversional_estimate() {
+        let time_s: Vec<f64> = (0..=100).map(f64::from).collect();
+        let temperature_k: Vec<f64> = time_s.iter().map(|t| 400.0 + t).collect();
+        let run =
+            ConversionRun::from_release_rate("one", &time_s, &temperature_k, &[1.0; 101]).unwrap();
+        let message = activation_energy_profile(&[run], Method::Friedman, &[0.5])
+            .unwrap_err()
+            .to_string();
+        assert!(message.contains("got 1"), "{message}");
+    }
 }
