@@ -238,58 +238,61 @@ fn pmma_run(folder: &Path, file: &str) -> ConversionRun {
 /// the source's acceptance bands for the nitrogen TGA peak are 640 ± 7.5 K at 10 K/min and
 /// 650 ± 7.5 K at 20 K/min. A first-order single step fitted to the lab's 10 and 20 K/min runs
 /// must put its own peaks in those bands and predict the peak of the 30 K/min run within 3 K
-/// (the issue's check). The runs' actual heating rates (10.4, 21.4, 32.8 K/min) are used.
+/// (the issue's check), for each of the lab's three replicates. The runs' heating rates while
+/// they react (10.3, 21.1, 32.3 K/min) are used, not the nominal ones.
 #[test]
 fn macfp_pmma_fit_to_two_heating_rates_predicts_the_third_peak() {
     let Some(folder) = reference_folder() else {
         return;
     };
-    let run_10 = pmma_run(&folder, "tga/tga_n2_10k_lab-a_1.csv");
-    let run_20 = pmma_run(&folder, "tga/tga_n2_20k_lab-a_1.csv");
-    let run_30 = pmma_run(&folder, "tga/tga_n2_30k_lab-a_1.csv");
-    let measured: Vec<f64> = [&run_10, &run_20, &run_30]
-        .iter()
-        .map(|r| r.peak_temperature_k().unwrap())
-        .collect();
-    println!(
-        "pmma measured peaks: {:.1} K at {:.2} K/min, {:.1} K at {:.2} K/min, {:.1} K at {:.2} K/min",
-        measured[0],
-        run_10.heating_rate_k_s * 60.0,
-        measured[1],
-        run_20.heating_rate_k_s * 60.0,
-        measured[2],
-        run_30.heating_rate_k_s * 60.0
-    );
-    assert!((measured[0] - 640.0).abs() <= 7.5, "{}", measured[0]);
-    assert!((measured[1] - 650.0).abs() <= 7.5, "{}", measured[1]);
-    let fit = fit_single_step(&[run_10.clone(), run_20.clone()], true).unwrap();
-    let model_10 = predicted_peak_temperature_k(&fit, run_10.heating_rate_k_s).unwrap();
-    let model_20 = predicted_peak_temperature_k(&fit, run_20.heating_rate_k_s).unwrap();
-    let model_30 = predicted_peak_temperature_k(&fit, run_30.heating_rate_k_s).unwrap();
-    println!(
-        "pmma fit (10 + 20 K/min): A {:.4e} 1/s, E {:.2} kJ/mol, n {:.3} (kissinger start {:.4e} 1/s, \
-         {:.2} kJ/mol), rms conversion error {:.4}, {} iterations",
-        fit.pre_exponential_per_s,
-        fit.activation_energy_j_mol * 1e-3,
-        fit.order,
-        fit.kissinger_start.0,
-        fit.kissinger_start.1 * 1e-3,
-        fit.rms_conversion_error,
-        fit.n_iterations
-    );
-    println!(
-        "pmma model peaks: {model_10:.1} K (10), {model_20:.1} K (20), predicted {model_30:.1} K \
-         at 30 K/min vs measured {:.1} K",
-        measured[2]
-    );
-    assert!((model_10 - 640.0).abs() <= 7.5, "{model_10}");
-    assert!((model_20 - 650.0).abs() <= 7.5, "{model_20}");
-    assert!(
-        (model_30 - measured[2]).abs() <= 3.0,
-        "{model_30} vs {}",
-        measured[2]
-    );
-    assert!(fit.rms_conversion_error < 0.05);
+    for replicate in 1..=3 {
+        let run_10 = pmma_run(&folder, &format!("tga/tga_n2_10k_lab-a_{replicate}.csv"));
+        let run_20 = pmma_run(&folder, &format!("tga/tga_n2_20k_lab-a_{replicate}.csv"));
+        let run_30 = pmma_run(&folder, &format!("tga/tga_n2_30k_lab-a_{replicate}.csv"));
+        let measured: Vec<f64> = [&run_10, &run_20, &run_30]
+            .iter()
+            .map(|r| r.peak_temperature_k().unwrap())
+            .collect();
+        println!(
+            "pmma replicate {replicate} measured peaks: {:.1} K at {:.2} K/min, {:.1} K at \
+             {:.2} K/min, {:.1} K at {:.2} K/min",
+            measured[0],
+            run_10.heating_rate_k_s * 60.0,
+            measured[1],
+            run_20.heating_rate_k_s * 60.0,
+            measured[2],
+            run_30.heating_rate_k_s * 60.0
+        );
+        assert!((measured[0] - 640.0).abs() <= 7.5, "{}", measured[0]);
+        assert!((measured[1] - 650.0).abs() <= 7.5, "{}", measured[1]);
+        let fit = fit_single_step(&[run_10.clone(), run_20.clone()], true).unwrap();
+        let model_10 = predicted_peak_temperature_k(&fit, run_10.heating_rate_k_s).unwrap();
+        let model_20 = predicted_peak_temperature_k(&fit, run_20.heating_rate_k_s).unwrap();
+        let model_30 = predicted_peak_temperature_k(&fit, run_30.heating_rate_k_s).unwrap();
+        println!(
+            "pmma replicate {replicate} fit (10 + 20 K/min): A {:.4e} 1/s, E {:.2} kJ/mol, n \
+             {:.3} (kissinger start {:.4e} 1/s, {:.2} kJ/mol), rms conversion error {:.4}",
+            fit.pre_exponential_per_s,
+            fit.activation_energy_j_mol * 1e-3,
+            fit.order,
+            fit.kissinger_start.0,
+            fit.kissinger_start.1 * 1e-3,
+            fit.rms_conversion_error
+        );
+        println!(
+            "pmma replicate {replicate} model peaks: {model_10:.1} K (10), {model_20:.1} K \
+             (20), predicted {model_30:.1} K at 30 K/min vs measured {:.1} K",
+            measured[2]
+        );
+        assert!((model_10 - 640.0).abs() <= 7.5, "{model_10}");
+        assert!((model_20 - 650.0).abs() <= 7.5, "{model_20}");
+        assert!(
+            (model_30 - measured[2]).abs() <= 3.0,
+            "{model_30} vs {}",
+            measured[2]
+        );
+        assert!(fit.rms_conversion_error < 0.05);
+    }
 }
 
 /// Open PMMA data: Kissinger's method over the lab's 3, 10, 20 and 30 K/min runs gives an E
