@@ -23,6 +23,7 @@ fn settings() -> Vec<(&'static str, ZeroDSettings)> {
         ..base
     };
     vec![
+        ("auto (default settings)", base),
         (
             "dormand-prince rtol 1e-8",
             with(Integrator::DormandPrince, 1e-8),

@@ -36,7 +36,7 @@ pub enum Command {
     ///
     /// Example: emberfit synthesize demo-cases/ridgeline-panel/scenario.toml --flux 25 --seed 3 --out test-25.csv
     Synthesize(SynthesizeArgs),
-    /// Model-free kinetics from TGA (or MCC) runs at several heating rates.
+    /// Model-free kinetics from TGA (or MCC) runs at several heating rates
     ///
     /// Reads two or more files (a row of column names, a row of units such as [s], [K] or
     /// [°C], and [mg], [g/g] or [%] for TGA, [W/g] for MCC), turns each into conversion α

@@ -347,10 +347,7 @@ mod milligram {
             for notice in &thermogram.notices {
                 eprintln!("note: {notice}");
             }
-            runs.push(
-                ConversionRun::from_thermogram(&thermogram)
-                    .with_context(|| format!("preparing {}", path.display()))?,
-            );
+            runs.push(ConversionRun::from_thermogram(&thermogram).context("preparing a run")?);
         }
         let report = analyse(&runs, &conversions, args.max_spread / 100.0)
             .context("isoconversional analysis")?;

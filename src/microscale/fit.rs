@@ -197,7 +197,7 @@ pub fn single_step_tga(
 ) -> Result<ZeroDHistory, PhysicsError> {
     let programme = TemperatureProgramme::ramp(start_k, heating_rate_k_s, end_k)?;
     let settings = ZeroDSettings {
-        integrator: Integrator::DormandPrince,
+        integrator: Integrator::Automatic,
         output_interval_s: 0.25 / heating_rate_k_s,
         relative_tolerance: 1e-7,
         absolute_tolerance: 1e-9,

@@ -80,7 +80,8 @@ pub struct StepFile {
 #[derive(Debug, Clone, Default, Deserialize)]
 #[serde(deny_unknown_fields)]
 pub struct NumericsFile {
-    /// "dormand-prince" (default) or "implicit".
+    /// "auto" (default: Dormand–Prince, implicit if that fails), "dormand-prince" or
+    /// "implicit".
     #[serde(default)]
     pub integrator: Option<Spanned<String>>,
     #[serde(default)]
@@ -229,13 +230,16 @@ pub fn milligram_scenario_from_str(
     }
     if let Some(integrator) = &file.numerics.integrator {
         settings.integrator = match integrator.get_ref().as_str() {
+            "auto" => Integrator::Automatic,
             "dormand-prince" => Integrator::DormandPrince,
             "implicit" => Integrator::Implicit,
             other => {
                 return Err(checker.invalid(
                     &integrator.span(),
                     "numerics.integrator",
-                    format!("must be \"dormand-prince\" or \"implicit\", got \"{other}\""),
+                    format!(
+                        "must be \"auto\", \"dormand-prince\" or \"implicit\", got \"{other}\""
+                    ),
                 ))
             }
         };

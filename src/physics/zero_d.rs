@@ -150,8 +150,11 @@ impl TemperatureProgramme {
 /// How the 0-D equations are integrated in time.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
 pub enum Integrator {
-    /// Adaptive explicit Dormand–Prince 5(4) (`ode_solvers::Dopri5`), dense output.
+    /// Dormand–Prince, and the implicit method instead when Dormand–Prince fails (it stops
+    /// when it detects stiffness): fast on ordinary networks, robust on stiff ones.
     #[default]
+    Automatic,
+    /// Adaptive explicit Dormand–Prince 5(4) (`ode_solvers::Dopri5`), dense output.
     DormandPrince,
     /// Backward Euler via `kinetics::advance_masses`, adaptive by step doubling, with
     /// Richardson extrapolation (second order). Robust for stiff networks.
@@ -174,11 +177,12 @@ pub struct ZeroDSettings {
 }
 
 impl Default for ZeroDSettings {
-    /// 1 s output, tolerances 1e-8 relative and 1e-10 absolute (enough for the Kissinger check
-    /// to 0.1 K; see docs/milligram-scale.md), reaction heat only in the DSC signal.
+    /// Automatic integrator, 1 s output, tolerances 1e-8 relative and 1e-10 absolute (far
+    /// within the Kissinger check's 0.1 K; see docs/milligram-scale.md), reaction heat only in
+    /// the DSC signal.
     fn default() -> Self {
         ZeroDSettings {
-            integrator: Integrator::DormandPrince,
+            integrator: Integrator::Automatic,
             output_interval_s: 1.0,
             relative_tolerance: 1e-8,
             absolute_tolerance: 1e-10,
@@ -188,7 +192,7 @@ impl Default for ZeroDSettings {
 }
 
 /// Curves of a 0-D run, one entry per output time, all per unit initial mass.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, PartialEq)]
 pub struct ZeroDHistory {
     /// Time from the start of the programme, s.
     pub time_s: Vec<f64>,
@@ -204,6 +208,8 @@ pub struct ZeroDHistory {
     pub mcc_w_g: Vec<f64>,
     /// Accepted integration steps (for the integrator comparison).
     pub n_steps: usize,
+    /// The integrator that produced these curves (never `Automatic`).
+    pub integrator: Integrator,
 }
 
 impl ZeroDHistory {
@@ -271,7 +277,47 @@ pub fn simulate_zero_d(
     settings: &ZeroDSettings,
 ) -> Result<ZeroDHistory, PhysicsError> {
     check_inputs(material, initial_mass_fractions, settings)?;
-    let mut history = ZeroDHistory::default();
+    if settings.integrator == Integrator::Automatic {
+        let with = |integrator| ZeroDSettings {
+            integrator,
+            ..*settings
+        };
+        // Inputs are checked, so a failure here is Dormand–Prince's (stiffness, step limit).
+        return integrate(
+            material,
+            initial_mass_fractions,
+            programme,
+            &with(Integrator::DormandPrince),
+        )
+        .or_else(|_| {
+            integrate(
+                material,
+                initial_mass_fractions,
+                programme,
+                &with(Integrator::Implicit),
+            )
+        });
+    }
+    integrate(material, initial_mass_fractions, programme, settings)
+}
+
+/// Runs one concrete integrator (`Automatic` is resolved by the caller).
+fn integrate(
+    material: &Material,
+    initial_mass_fractions: &[f64],
+    programme: &TemperatureProgramme,
+    settings: &ZeroDSettings,
+) -> Result<ZeroDHistory, PhysicsError> {
+    let mut history = ZeroDHistory {
+        time_s: Vec::new(),
+        temperature_k: Vec::new(),
+        mass_fraction: Vec::new(),
+        mass_loss_rate_per_s: Vec::new(),
+        dsc_w_g: Vec::new(),
+        mcc_w_g: Vec::new(),
+        n_steps: 0,
+        integrator: settings.integrator,
+    };
     let mut masses = initial_mass_fractions.to_vec();
     let mut rates = vec![0.0; material.reactions.len()];
     record(
@@ -300,7 +346,7 @@ pub fn simulate_zero_d(
                 &mut rates,
                 &mut history,
             )?,
-            Integrator::Implicit => implicit_piece(
+            Integrator::Implicit | Integrator::Automatic => implicit_piece(
                 material,
                 programme,
                 settings,
@@ -490,7 +536,7 @@ fn integration_failure(err: IntegrationError, programme: &TemperatureProgramme) 
     PhysicsError::invalid(
         "dormand–prince integration",
         format!(
-            "failed at {time_s:.3} s ({:.2} K): {err}; try integrator = \"implicit\"",
+            "failed at {time_s:.3} s ({:.2} K): {err}; use integrator = \"implicit\" or \"auto\"",
             programme.temperature_k_at(time_s)
         ),
     )
@@ -821,13 +867,15 @@ mod tests {
         .unwrap();
         let beta = 10.0 / 60.0;
         let programme = TemperatureProgramme::ramp(300.0, beta, 900.0).unwrap();
-        let explicit = simulate_zero_d(
-            &material,
-            &[1.0, 0.0],
-            &programme,
-            &ZeroDSettings::default(),
-        );
-        let message = explicit.unwrap_err().to_string();
+        let explicit_settings = ZeroDSettings {
+            integrator: Integrator::DormandPrince,
+            ..ZeroDSettings::default()
+        };
+        let explicit = simulate_zero_d(&material, &[1.0, 0.0], &programme, &explicit_settings);
+        let message = match explicit {
+            Ok(history) => panic!("dormand–prince ran in {} steps", history.n_steps),
+            Err(err) => err.to_string(),
+        };
         assert!(message.contains("implicit"), "{message}");
         let settings = ZeroDSettings {
             integrator: Integrator::Implicit,
@@ -857,6 +905,20 @@ mod tests {
         );
         assert!((peak_k - low).abs() < 0.5, "{peak_k} vs {low}");
         assert!(*history.mass_fraction.last().unwrap() < 1e-9);
+        // The automatic choice falls back to the implicit method here.
+        let automatic = simulate_zero_d(
+            &material,
+            &[1.0, 0.0],
+            &programme,
+            &ZeroDSettings::default(),
+        )
+        .unwrap();
+        assert_eq!(automatic.integrator, Integrator::Implicit);
+        let (_, automatic_peak_k, _) = automatic.mass_loss_rate_peak().unwrap();
+        assert!(
+            (automatic_peak_k - low).abs() < 0.5,
+            "{automatic_peak_k} vs {low}"
+        );
     }
 
     #[test]
