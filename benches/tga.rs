@@ -25,6 +25,13 @@ fn settings() -> Vec<(&'static str, ZeroDSettings)> {
     vec![
         ("auto (default settings)", base),
         (
+            "auto, 10 s output",
+            ZeroDSettings {
+                output_interval_s: 10.0,
+                ..base
+            },
+        ),
+        (
             "dormand-prince rtol 1e-8",
             with(Integrator::DormandPrince, 1e-8),
         ),
