@@ -333,11 +333,20 @@ pub fn fit_single_step(
         fit_order,
     };
     let (pre_exponential_per_s, activation_energy_j_mol, order) = objective.kinetics(&best);
+    let best_cost = state.get_best_cost();
+    if !best_cost.is_finite() {
+        return Err(MicroscaleError::analysis(format!(
+            "kinetic fit found no candidate the model could simulate (started from kissinger's \
+             E = {:.1} kJ/mol, A = {:.3e} 1/s)",
+            start.activation_energy_j_mol * 1e-3,
+            start.pre_exponential_per_s
+        )));
+    }
     Ok(SingleStepFit {
         pre_exponential_per_s,
         activation_energy_j_mol,
         order,
-        rms_conversion_error: state.get_best_cost().sqrt(),
+        rms_conversion_error: best_cost.sqrt(),
         kissinger_start: (start.pre_exponential_per_s, start.activation_energy_j_mol),
         n_iterations: state.get_iter(),
     })
