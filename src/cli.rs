@@ -36,6 +36,60 @@ pub enum Command {
     ///
     /// Example: emberfit synthesize demo-cases/ridgeline-panel/scenario.toml --flux 25 --seed 3 --out test-25.csv
     Synthesize(SynthesizeArgs),
+    /// Fit a material model to several tests at once and say how well each parameter is
+    /// determined.
+    ///
+    /// Reads a fit job (docs/fit-jobs.md): the starting material and scenario, the free
+    /// parameters with bounds, the cases (test data and the signals to match). Runs a parallel
+    /// differential-evolution search, then a Nelder–Mead refinement, writing everything to
+    /// runs/<name>/ as it goes: progress.jsonl, checkpoint.json, best.toml (the calibrated
+    /// model, ready for `simulate`), per-case CSVs and summary.json. Ctrl-C (or SIGTERM)
+    /// finishes the current generation, writes the checkpoint and all outputs, then exits;
+    /// a second Ctrl-C exits at once. `--resume` continues a stopped or killed run exactly.
+    ///
+    /// Examples:
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --time 8h --threads 2
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --resume
+    #[command(verbatim_doc_comment)]
+    Fit(FitArgs),
+    /// Reduce one cone calorimeter test: read its data, compute HRR and MLR, print the report
+    ///
+    /// Reads a test description (TEST.toml, keys in docs/test-files.md) and the CSV it names,
+    /// or a bare CSV with flags. HRR comes from the lab's HRR column or, with [gas_analysis],
+    /// from the O2 (and CO2, CO) analysers by oxygen consumption (ISO 5660-1; Janssens 1991).
+    /// MLR is the five-point derivative of the mass (ISO 5660-1). Prints time to ignition, peak
+    /// HRR, total heat release, average HRR at 60/180/300 s, mass lost, average MLR between
+    /// 10 % and 90 % of the mass loss, effective heat of combustion (and smoke quantities with a
+    /// photometer column), and every repair made to the data ("note: ..." lines on stderr).
+    ///
+    /// Examples:
+    ///   emberfit reduce tests/pmma-50kw-1.toml
+    ///   emberfit reduce tests/pmma-50kw-1.toml --json --out pmma-50kw-1-reduced.csv
+    ///   emberfit reduce run.csv --area-m2 0.01 --flux-kw-m2 50
+    ///   emberfit reduce run.csv --area-m2 0.0088 --flux-kw-m2 35 --mass-column "Mass (g)"
+    ///       --hrr-column HRR --ignition-time-s 42 --smooth 11
+    #[command(verbatim_doc_comment)]
+    Reduce(Box<ReduceArgs>),
+    /// Analyse ignition times across irradiances: critical heat flux, TRP and apparent kρc
+    ///
+    /// Fits t_ig^(-1/2) (thermally thick), t_ig^(-0.547) (Janssens, thick with heat losses) and
+    /// t_ig^(-1) (thermally thin) against the irradiance by least squares and reports each
+    /// line's flux-axis intercept (the critical heat flux estimate) and R². The thick slope
+    /// gives the thermal response parameter TRP; with an ignition temperature (given, or
+    /// estimated from Janssens' critical heat flux by a surface heat balance) it gives the
+    /// apparent kρc. Warns when the data cannot tell thick from thin (fewer than three
+    /// irradiances, or R² values too close).
+    ///
+    /// Each input is a TEST.toml (its ignition time is the given one or the one detected from
+    /// HRR), or one ignition list TOML naming tests and/or points (see docs/test-files.md).
+    ///
+    /// Examples:
+    ///   emberfit ignition tests/pmma-*.toml
+    ///   emberfit ignition tests/pmma-*.toml --ignition-temperature-c 378 --json
+    ///   emberfit ignition ignition-pmma.toml
+    #[command(verbatim_doc_comment)]
+    Ignition(IgnitionArgs),
     /// Model-free kinetics from TGA (or MCC) runs at several heating rates
     ///
     /// Reads two or more files (a row of column names, a row of units such as [s], [K] or
@@ -125,10 +179,117 @@ pub struct SimulateArgs {
     /// Override the simulated duration, s.
     #[arg(long, value_name = "S")]
     pub duration: Option<f64>,
+    /// Use this material model (e.g. a fit's best.toml) for the specimen layers.
+    #[arg(long, value_name = "MATERIAL.toml")]
+    pub material: Option<PathBuf>,
     /// Write the curves to this CSV file (default: print nothing but the summary).
     #[arg(long, value_name = "FILE.csv")]
     pub out: Option<PathBuf>,
     /// Print the summary as one JSON object instead of a table.
     #[arg(long)]
     pub json: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct ReduceArgs {
+    /// Test description (TEST.toml), or a CSV file to reduce with the flags below.
+    pub input: PathBuf,
+    /// Print the report as one JSON object instead of a table (notices included).
+    #[arg(long)]
+    pub json: bool,
+    /// Write the reduced curves (time_s, hrr_kw_m2, mlr_g_m2s, mass_g, ...) to this CSV file.
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: Option<PathBuf>,
+    /// CSV input only: exposed specimen area, m² (0.01 for a 100 mm square, 0.0088 with the
+    /// ISO 5660-1 retainer frame).
+    #[arg(long, value_name = "M2")]
+    pub area_m2: Option<f64>,
+    /// CSV input only: irradiance set on the heater, kW/m².
+    #[arg(long, value_name = "KW_M2")]
+    pub flux_kw_m2: Option<f64>,
+    /// CSV input only: name of the time column (default `time`, case ignored).
+    #[arg(long, value_name = "NAME")]
+    pub time_column: Option<String>,
+    /// CSV input only: name of the mass column (default `mass`, skipped if the file has none).
+    #[arg(long, value_name = "NAME")]
+    pub mass_column: Option<String>,
+    /// CSV input only: name of the HRR column (default `hrr`, skipped if the file has none).
+    #[arg(long, value_name = "NAME")]
+    pub hrr_column: Option<String>,
+    /// CSV input only: unit of the time column when the file does not say (s, min, ms, h).
+    #[arg(long, value_name = "UNIT")]
+    pub time_unit: Option<String>,
+    /// CSV input only: unit of the mass column when the file does not say (g, kg, mg).
+    #[arg(long, value_name = "UNIT")]
+    pub mass_unit: Option<String>,
+    /// CSV input only: unit of the HRR column when the file does not say (kW/m2, W/m2, kW).
+    #[arg(long, value_name = "UNIT")]
+    pub hrr_unit: Option<String>,
+    /// CSV input only: observed time to sustained ignition, s (default: detected from HRR).
+    #[arg(long, value_name = "S")]
+    pub ignition_time_s: Option<f64>,
+    /// CSV input only: added to the file's times so that 0 is the start of exposure, s.
+    #[arg(long, value_name = "S", allow_hyphen_values = true)]
+    pub time_offset_s: Option<f64>,
+    /// CSV input only: the load cell weighs holder and backing too, so negative readings are
+    /// not clipped.
+    #[arg(long)]
+    pub not_tared: bool,
+    /// CSV input only: heat of combustion for the mass-loss estimate of HRR, MJ/kg.
+    #[arg(long, value_name = "MJ_KG")]
+    pub heat_of_combustion_mj_kg: Option<f64>,
+    /// CSV input only: combustion efficiency for that estimate, 0–1 (default 1).
+    #[arg(long, value_name = "FRACTION")]
+    pub combustion_efficiency: Option<f64>,
+    /// CSV input only: smooth the mass (Savitzky–Golay, quadratic) over this many points
+    /// (odd) before the derivative.
+    #[arg(long, value_name = "POINTS")]
+    pub smooth: Option<usize>,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct IgnitionArgs {
+    /// TEST.toml files (two or more irradiances), or one ignition list TOML.
+    #[arg(required = true)]
+    pub inputs: Vec<PathBuf>,
+    /// Surface ignition temperature, °C, for kρc (default: from the surface heat balance at
+    /// Janssens' critical heat flux).
+    #[arg(long, value_name = "DEGC", allow_hyphen_values = true)]
+    pub ignition_temperature_c: Option<f64>,
+    /// Initial (ambient) temperature, °C (default 20).
+    #[arg(long, value_name = "DEGC", allow_hyphen_values = true)]
+    pub ambient_temperature_c: Option<f64>,
+    /// Print the analysis as one JSON object instead of a table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct FitArgs {
+    /// Fit job file (TOML); see docs/fit-jobs.md.
+    pub job: PathBuf,
+    /// Name of the run directory under --runs-dir (default: the job file's name).
+    #[arg(long)]
+    pub name: Option<String>,
+    /// Where run directories go.
+    #[arg(long, value_name = "DIR", default_value = "runs")]
+    pub runs_dir: PathBuf,
+    /// Continue the run from its last checkpoint (same job, same data, same seed).
+    #[arg(long)]
+    pub resume: bool,
+    /// Worker threads (default: all cores).
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Wall-clock budget, e.g. 90s, 20min, 8h (overrides the job's `settings.time`).
+    #[arg(long, value_name = "DURATION")]
+    pub time: Option<String>,
+    /// Evaluation budget (overrides the job's `settings.max_evaluations`).
+    #[arg(long, value_name = "N")]
+    pub max_evaluations: Option<u64>,
+    /// Random seed (overrides the job's `settings.seed`; ignored with --resume).
+    #[arg(long)]
+    pub seed: Option<u64>,
+    /// Print progress lines instead of opening the terminal interface.
+    #[arg(long)]
+    pub headless: bool,
 }

@@ -1,19 +1,164 @@
 //! One function per subcommand: the wiring between arguments, library and output.
 
+use std::path::Path;
+
 use anyhow::{bail, Context, Result};
 
 use emberfit::case::load_scenario;
+use emberfit::data::derivative::Smoothing;
+use emberfit::data::description::{ColumnName, HrrFromMass};
+use emberfit::data::ignition::{
+    analyse, points_from_tests, IgnitionAnalysis, IgnitionList, IgnitionSettings,
+    IgnitionTemperatureSource,
+};
+use emberfit::data::report::IgnitionSource;
+use emberfit::data::{reduce as reduce_test, Notice, Reduced, TestDescription};
 use emberfit::export::{curves::curves_csv, write_atomically};
 use emberfit::physics::{simulate as run_simulation, History};
 
-use crate::cli::{Cli, Command, SimulateArgs, SynthesizeArgs};
+use crate::cli::{Cli, Command, FitArgs, IgnitionArgs, ReduceArgs, SimulateArgs, SynthesizeArgs};
 
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
         Command::Simulate(args) => simulate(args),
         Command::Synthesize(args) => synthesize(args),
+        Command::Fit(args) => fit(args),
+        Command::Reduce(args) => reduce(*args),
+        Command::Ignition(args) => ignition(args),
         Command::Isoconversional(args) => milligram::isoconversional(args),
     }
+}
+
+fn fit(args: FitArgs) -> Result<()> {
+    use std::sync::atomic::AtomicBool;
+    use std::sync::Arc;
+
+    let threads = args
+        .threads
+        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
+    if threads == 0 {
+        bail!("--threads must be at least 1");
+    }
+    rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build_global()
+        .context("starting the worker threads")?;
+    let time_budget_s = match &args.time {
+        Some(text) => Some(
+            humantime::parse_duration(text)
+                .with_context(|| {
+                    format!("--time `{text}` is not a duration like 90s, 20min or 8h")
+                })?
+                .as_secs_f64(),
+        ),
+        None => None,
+    };
+    let stop = Arc::new(AtomicBool::new(false));
+    let pause = Arc::new(AtomicBool::new(false));
+    // First SIGINT/SIGTERM: stop cleanly after this generation; a second one exits at once.
+    // SIGHUP (a closed terminal or a dropped SSH link) is ignored: the fit keeps running.
+    for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
+        signal_hook::flag::register_conditional_shutdown(signal, 1, Arc::clone(&stop))
+            .context("installing the signal handlers")?;
+        signal_hook::flag::register(signal, Arc::clone(&stop))
+            .context("installing the signal handlers")?;
+    }
+    signal_hook::flag::register(
+        signal_hook::consts::SIGHUP,
+        Arc::new(AtomicBool::new(false)),
+    )
+    .context("installing the signal handlers")?;
+    let options = emberfit::run::RunOptions {
+        runs_root: args.runs_dir.clone(),
+        name: args.name.clone(),
+        resume: args.resume,
+        threads,
+        time_budget_s,
+        max_evaluations: args.max_evaluations,
+        seed: args.seed,
+    };
+    let job = args.job.clone();
+    let worker_stop = Arc::clone(&stop);
+    let worker_pause = Arc::clone(&pause);
+    let worker = std::thread::spawn(move || {
+        emberfit::run::run_fit(&job, &options, worker_stop, worker_pause)
+    });
+    // The directory name the worker will use, to follow its progress.
+    let name = args.name.clone().unwrap_or_else(|| {
+        args.job
+            .file_stem()
+            .map(|s| emberfit::run::slug(&s.to_string_lossy()))
+            .unwrap_or_else(|| "fit".into())
+    });
+    let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
+    let mut follower = emberfit::run::progress::ProgressFollower::new(&directory.progress());
+    if args.resume {
+        // Skip what the earlier process already printed; only new events are shown.
+        let _ = follower.poll();
+    }
+    let print_events = |follower: &mut emberfit::run::progress::ProgressFollower| {
+        if let Ok(events) = follower.poll() {
+            for event in events {
+                if let Some(line) = emberfit::headless::line(&event) {
+                    println!("{line}");
+                }
+            }
+        }
+    };
+    while !worker.is_finished() {
+        print_events(&mut follower);
+        std::thread::sleep(std::time::Duration::from_millis(200));
+    }
+    let report = match worker.join() {
+        Ok(result) => result.context("running the fit")?,
+        Err(_) => bail!(
+            "the fit stopped unexpectedly (a worker thread panicked); the last checkpoint is kept"
+        ),
+    };
+    print_events(&mut follower);
+    print!("{}", fit_summary_table(&report.summary));
+    println!("run directory: {}", report.directory.display());
+    Ok(())
+}
+
+fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
+    use emberfit::headless::significant;
+    let mut out = format!(
+        "\n{}\n  objective {} ({})\n",
+        summary.title,
+        significant(summary.objective, 6),
+        summary.reason
+    );
+    for part in &summary.parts {
+        out.push_str(&format!(
+            "    {:<24} {:<14} {}\n",
+            part.case,
+            part.signal,
+            significant(part.cost, 5)
+        ));
+    }
+    out.push_str("  parameter                                   value          95 % interval\n");
+    for p in &summary.parameters {
+        let interval = match (p.lower_95, p.upper_95) {
+            (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),
+            _ => "undetermined".into(),
+        };
+        out.push_str(&format!(
+            "  {:<40} {:>12} {:<10} {}\n",
+            p.name,
+            significant(p.value, 5),
+            p.unit,
+            interval
+        ));
+        for warning in &p.warnings {
+            out.push_str(&format!("      warning: {warning}\n"));
+        }
+    }
+    if let Some(problem) = &summary.identifiability_problem {
+        out.push_str(&format!("  intervals not computed: {problem}\n"));
+    }
+    out.push_str("  Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.\n");
+    out
 }
 
 fn synthesize(args: SynthesizeArgs) -> Result<()> {
@@ -83,6 +228,12 @@ fn simulate(args: SimulateArgs) -> Result<()> {
         return milligram::simulate(args);
     }
     let mut loaded = load_scenario(&args.scenario).context("loading the scenario")?;
+    if let Some(material) = &args.material {
+        let model = emberfit::case::load_material(material).context("loading the material")?;
+        loaded
+            .use_specimen_material(&model)
+            .with_context(|| format!("using {} for the specimen", material.display()))?;
+    }
     if let Some(flux_kw_m2) = args.flux {
         check_flux(flux_kw_m2)?;
         loaded.set_constant_irradiance_w_m2(flux_kw_m2 * 1e3);
@@ -202,6 +353,434 @@ fn summary_table(title: &str, history: &History) -> String {
     ];
     for (label, value) in rows {
         out.push_str(&format!("  {label:<20} {value}\n"));
+    }
+    out
+}
+
+fn reduce(args: ReduceArgs) -> Result<()> {
+    let is_csv = args
+        .input
+        .extension()
+        .and_then(|e| e.to_str())
+        .is_some_and(|e| matches!(e.to_lowercase().as_str(), "csv" | "txt" | "tsv"));
+    let test = if is_csv {
+        description_from_flags(&args)?
+    } else {
+        let csv_only = [
+            ("--area-m2", args.area_m2.is_some()),
+            ("--flux-kw-m2", args.flux_kw_m2.is_some()),
+            ("--time-column", args.time_column.is_some()),
+            ("--mass-column", args.mass_column.is_some()),
+            ("--hrr-column", args.hrr_column.is_some()),
+            ("--time-unit", args.time_unit.is_some()),
+            ("--mass-unit", args.mass_unit.is_some()),
+            ("--hrr-unit", args.hrr_unit.is_some()),
+            ("--ignition-time-s", args.ignition_time_s.is_some()),
+            ("--time-offset-s", args.time_offset_s.is_some()),
+            ("--not-tared", args.not_tared),
+            (
+                "--heat-of-combustion-mj-kg",
+                args.heat_of_combustion_mj_kg.is_some(),
+            ),
+            (
+                "--combustion-efficiency",
+                args.combustion_efficiency.is_some(),
+            ),
+            ("--smooth", args.smooth.is_some()),
+        ];
+        if let Some((flag, _)) = csv_only.iter().find(|(_, given)| *given) {
+            bail!(
+                "{flag} applies to a CSV input only; with a TEST.toml set it in the file \
+                 (see docs/test-files.md)"
+            );
+        }
+        TestDescription::load(&args.input).context("loading the test description")?
+    };
+    let reduced =
+        reduce_test(&test).with_context(|| format!("reducing {}", test.source.display()))?;
+    if let Some(out) = &args.out {
+        write_atomically(out, reduced_curves_csv(&reduced).as_bytes())
+            .with_context(|| format!("writing {}", out.display()))?;
+    }
+    if args.json {
+        println!("{}", report_json(&reduced));
+    } else {
+        for notice in &reduced.notices {
+            eprintln!("note: {notice}");
+        }
+        print!("{}", report_table(&reduced));
+        if let Some(out) = &args.out {
+            println!(
+                "curves written to {} ({} rows)",
+                out.display(),
+                reduced.time_s.len()
+            );
+        }
+    }
+    Ok(())
+}
+
+/// The test description a bare CSV and the flags make.
+fn description_from_flags(args: &ReduceArgs) -> Result<TestDescription> {
+    let Some(area_m2) = args.area_m2 else {
+        bail!("a CSV input needs --area-m2 (exposed area, e.g. 0.01 for a 100 mm square)");
+    };
+    let Some(flux_kw_m2) = args.flux_kw_m2 else {
+        bail!("a CSV input needs --flux-kw-m2 (irradiance set on the heater, e.g. 50)");
+    };
+    if !(area_m2 > 0.0 && area_m2 <= 1.0) {
+        bail!("--area-m2 must be > 0 and at most 1 m², got {area_m2}");
+    }
+    if !(0.0..=200.0).contains(&flux_kw_m2) {
+        bail!("--flux-kw-m2 must be within 0..200 kW/m², got {flux_kw_m2}");
+    }
+    let mut test = TestDescription::for_csv(&args.input, area_m2, flux_kw_m2);
+    let column = |given: &Option<String>, default: &str, unit: &Option<String>| {
+        let name = given.clone().unwrap_or_else(|| default.to_string());
+        (!name.eq_ignore_ascii_case("none")).then(|| ColumnName {
+            name,
+            unit: unit.clone(),
+            // A column the user named must exist; the default names may be absent.
+            is_required: given.is_some(),
+        })
+    };
+    if let Some(time) = column(&args.time_column, "time", &args.time_unit) {
+        test.columns.time = ColumnName {
+            is_required: true,
+            ..time
+        };
+    } else {
+        bail!("--time-column cannot be `none`: every record needs a time");
+    }
+    test.columns.mass = column(&args.mass_column, "mass", &args.mass_unit);
+    test.columns.hrr = column(&args.hrr_column, "hrr", &args.hrr_unit);
+    test.ignition_time_s = args.ignition_time_s;
+    if let Some(t) = args.ignition_time_s {
+        if t.is_nan() || t < 0.0 {
+            bail!("--ignition-time-s must be >= 0, got {t}");
+        }
+    }
+    test.time_offset_s = args.time_offset_s.unwrap_or(0.0);
+    test.is_mass_tared = !args.not_tared;
+    if let Some(heat_mj_kg) = args.heat_of_combustion_mj_kg {
+        let efficiency = args.combustion_efficiency.unwrap_or(1.0);
+        if !(1.0..=60.0).contains(&heat_mj_kg) {
+            bail!("--heat-of-combustion-mj-kg must be within 1..60 MJ/kg, got {heat_mj_kg}");
+        }
+        if !(efficiency > 0.0 && efficiency <= 1.0) {
+            bail!("--combustion-efficiency must be > 0 and at most 1, got {efficiency}");
+        }
+        test.hrr_from_mass = Some(HrrFromMass {
+            heat_of_combustion_mj_kg: heat_mj_kg,
+            combustion_efficiency: efficiency,
+        });
+    } else if args.combustion_efficiency.is_some() {
+        bail!("--combustion-efficiency needs --heat-of-combustion-mj-kg");
+    }
+    if let Some(points) = args.smooth {
+        if points < 3 || points % 2 == 0 {
+            bail!("--smooth must be an odd number of points, at least 3, got {points}");
+        }
+        test.smoothing = Some(Smoothing {
+            window_points: points,
+            degree: 2,
+        });
+    }
+    Ok(test)
+}
+
+fn report_json(reduced: &Reduced) -> serde_json::Value {
+    let r = &reduced.report;
+    serde_json::json!({
+        "source": reduced.source.display().to_string(),
+        "irradiance_kw_m2": reduced.irradiance_kw_m2,
+        "exposed_area_m2": reduced.exposed_area_m2,
+        "ignition_time_s": r.ignition_time_s,
+        "ignition_time_source": match r.ignition_source {
+            IgnitionSource::Given => "given",
+            IgnitionSource::Detected => "detected",
+            IgnitionSource::Unknown => "unknown",
+        },
+        "peak_hrr_kw_m2": r.peak_hrr_kw_m2,
+        "time_to_peak_hrr_s": r.time_to_peak_hrr_s,
+        "total_heat_release_mj_m2": r.total_heat_release_mj_m2,
+        "avg_hrr_60_kw_m2": r.avg_hrr_60_kw_m2,
+        "avg_hrr_180_kw_m2": r.avg_hrr_180_kw_m2,
+        "avg_hrr_300_kw_m2": r.avg_hrr_300_kw_m2,
+        "initial_mass_g": r.initial_mass_g,
+        "mass_lost_g": r.mass_lost_g,
+        "avg_mlr_10_90_g_m2s": r.avg_mlr_10_90_g_m2s,
+        "peak_mlr_g_m2s": r.peak_mlr_g_m2s,
+        "effective_heat_of_combustion_mj_kg": r.effective_heat_of_combustion_mj_kg,
+        "mean_extinction_coefficient_1_m": r.mean_extinction_coefficient_1_m,
+        "avg_specific_extinction_area_m2_kg": r.avg_specific_extinction_area_m2_kg,
+        "total_smoke_release_m2_m2": r.total_smoke_release_m2_m2,
+        "orifice_constant": reduced.orifice_constant,
+        "end_time_s": r.end_time_s,
+        "n_samples": reduced.time_s.len(),
+        "notices": reduced.notices.iter().map(|n| n.message.clone()).collect::<Vec<_>>(),
+    })
+}
+
+fn report_table(reduced: &Reduced) -> String {
+    let r = &reduced.report;
+    let value = |v: Option<f64>, decimals: usize, unit: &str| match v {
+        Some(v) => format!("{v:.decimals$} {unit}"),
+        None => "-".to_string(),
+    };
+    let ignition_note = match r.ignition_source {
+        IgnitionSource::Given => " (given)",
+        IgnitionSource::Detected => " (detected: HRR held above 10 % of peak; see docs)",
+        IgnitionSource::Unknown => "",
+    };
+    let mut rows = vec![
+        (
+            "time to ignition",
+            format!("{}{ignition_note}", value(r.ignition_time_s, 1, "s")),
+        ),
+        ("peak HRR", value(r.peak_hrr_kw_m2, 1, "kW/m²")),
+        ("time to peak HRR", value(r.time_to_peak_hrr_s, 1, "s")),
+        (
+            "total heat release",
+            value(r.total_heat_release_mj_m2, 2, "MJ/m²"),
+        ),
+        ("average HRR, 60 s", value(r.avg_hrr_60_kw_m2, 1, "kW/m²")),
+        ("average HRR, 180 s", value(r.avg_hrr_180_kw_m2, 1, "kW/m²")),
+        ("average HRR, 300 s", value(r.avg_hrr_300_kw_m2, 1, "kW/m²")),
+        ("initial mass", value(r.initial_mass_g, 2, "g")),
+        ("mass lost", value(r.mass_lost_g, 2, "g")),
+        (
+            "average MLR, 10–90 %",
+            value(r.avg_mlr_10_90_g_m2s, 2, "g/(m²·s)"),
+        ),
+        ("peak MLR", value(r.peak_mlr_g_m2s, 2, "g/(m²·s)")),
+        (
+            "effective heat of combustion",
+            value(r.effective_heat_of_combustion_mj_kg, 2, "MJ/kg"),
+        ),
+    ];
+    if r.mean_extinction_coefficient_1_m.is_some() {
+        rows.push((
+            "mean extinction coefficient",
+            value(r.mean_extinction_coefficient_1_m, 3, "1/m"),
+        ));
+        rows.push((
+            "average specific extinction area",
+            value(r.avg_specific_extinction_area_m2_kg, 1, "m²/kg"),
+        ));
+        rows.push((
+            "total smoke release",
+            value(r.total_smoke_release_m2_m2, 1, "m²/m²"),
+        ));
+    }
+    if let Some(c) = reduced.orifice_constant {
+        rows.push(("orifice constant", format!("{c:.5} m^½·kg^½·K^½")));
+    }
+    let mut out = format!(
+        "{}: {} kW/m², {} m², {} samples to {:.0} s\n",
+        reduced.source.display(),
+        reduced.irradiance_kw_m2,
+        reduced.exposed_area_m2,
+        reduced.time_s.len(),
+        r.end_time_s
+    );
+    for (name, text) in rows {
+        out.push_str(&format!("  {name:<34}{text}\n"));
+    }
+    out
+}
+
+/// The reduced curves as CSV: one row per sample, a column per signal the test has.
+fn reduced_curves_csv(reduced: &Reduced) -> String {
+    let mut columns: Vec<(&str, &Vec<f64>)> = vec![("time_s", &reduced.time_s)];
+    let optional = [
+        ("hrr_kw_m2", &reduced.hrr_kw_m2),
+        ("mlr_g_m2s", &reduced.mlr_g_m2s),
+        ("mass_g", &reduced.mass_g),
+        ("hrr_from_mass_kw_m2", &reduced.hrr_from_mass_kw_m2),
+        (
+            "extinction_coefficient_1_m",
+            &reduced.extinction_coefficient_1_m,
+        ),
+        ("smoke_production_m2_s", &reduced.smoke_production_m2_s),
+    ];
+    for (name, values) in optional {
+        if let Some(values) = values {
+            columns.push((name, values));
+        }
+    }
+    let mut out = columns.iter().map(|c| c.0).collect::<Vec<_>>().join(",");
+    out.push('\n');
+    for idx in 0..reduced.time_s.len() {
+        let row: Vec<String> = columns
+            .iter()
+            .map(|(_, values)| {
+                let v = values[idx];
+                if v.is_finite() {
+                    format!("{v}")
+                } else {
+                    String::new()
+                }
+            })
+            .collect();
+        out.push_str(&row.join(","));
+        out.push('\n');
+    }
+    out
+}
+
+fn ignition(args: IgnitionArgs) -> Result<()> {
+    let is_list = args.inputs.len() == 1 && is_ignition_list(&args.inputs[0])?;
+    let (mut points, notices, mut settings) = if is_list {
+        let list = IgnitionList::load(&args.inputs[0]).context("loading the ignition list")?;
+        let (mut points, notices) =
+            points_from_tests(&list.tests).context("reducing the listed tests")?;
+        points.extend(list.points);
+        (points, notices, list.settings)
+    } else {
+        let (points, notices) = points_from_tests(&args.inputs).context("reducing the tests")?;
+        (points, notices, IgnitionSettings::default())
+    };
+    points.sort_by(|a, b| a.irradiance_kw_m2.total_cmp(&b.irradiance_kw_m2));
+    if let Some(t_c) = args.ignition_temperature_c {
+        if !(50.0..=1500.0).contains(&t_c) {
+            bail!("--ignition-temperature-c must be within 50..1500 °C, got {t_c}");
+        }
+        settings.ignition_temperature_k = Some(t_c + 273.15);
+    }
+    if let Some(t_c) = args.ambient_temperature_c {
+        if !(-40.0..=60.0).contains(&t_c) {
+            bail!("--ambient-temperature-c must be within -40..60 °C, got {t_c}");
+        }
+        settings.ambient_temperature_k = t_c + 273.15;
+    }
+    let analysis = analyse(&points, &settings).context("analysing the ignition times")?;
+    if args.json {
+        println!("{}", ignition_json(&analysis, &notices));
+    } else {
+        for notice in &notices {
+            eprintln!("note: {notice}");
+        }
+        print!("{}", ignition_table(&analysis));
+    }
+    Ok(())
+}
+
+/// Whether a single input is an ignition list (a TOML without `data_file`) rather than a test.
+fn is_ignition_list(path: &Path) -> Result<bool> {
+    let text =
+        std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let table: toml::Table =
+        toml::from_str(&text).with_context(|| format!("cannot parse {}", path.display()))?;
+    Ok(!table.contains_key("data_file"))
+}
+
+fn ignition_json(analysis: &IgnitionAnalysis, notices: &[Notice]) -> serde_json::Value {
+    let fits: Vec<serde_json::Value> = analysis
+        .fits
+        .iter()
+        .map(|f| {
+            serde_json::json!({
+                "correlation": f.correlation.name(),
+                "exponent": f.correlation.exponent(),
+                "slope": f.slope,
+                "intercept": f.intercept,
+                "critical_heat_flux_kw_m2": f.critical_heat_flux_kw_m2,
+                "r_squared": f.r_squared,
+            })
+        })
+        .collect();
+    serde_json::json!({
+        "points": analysis.points.iter().map(|p| serde_json::json!({
+            "irradiance_kw_m2": p.irradiance_kw_m2,
+            "ignition_time_s": p.ignition_time_s,
+            "label": p.label,
+        })).collect::<Vec<_>>(),
+        "n_irradiances": analysis.n_irradiances,
+        "fits": fits,
+        "thermal_response_parameter_kw_s05_m2": analysis.thermal_response_parameter_kw_s05_m2,
+        "ignition_temperature_k": analysis.ignition_temperature.map(|t| t.0),
+        "ignition_temperature_source": analysis.ignition_temperature.map(|t| match t.1 {
+            IgnitionTemperatureSource::Given => "given",
+            IgnitionTemperatureSource::FromCriticalHeatFlux => "from_critical_heat_flux",
+        }),
+        "apparent_krhoc_thick_kw2_s_m4_k2": analysis.apparent_krhoc_thick_kw2_s_m4_k2,
+        "apparent_krhoc_janssens_kw2_s_m4_k2": analysis.apparent_krhoc_janssens_kw2_s_m4_k2,
+        "heat_capacity_per_area_thin_kj_m2_k": analysis.heat_capacity_per_area_thin_kj_m2_k,
+        "critical_heat_flux_from_balance_kw_m2": analysis.critical_heat_flux_from_balance_kw_m2,
+        "warnings": analysis.warnings.iter().map(|w| w.message.clone()).collect::<Vec<_>>(),
+        "notices": notices.iter().map(|n| n.message.clone()).collect::<Vec<_>>(),
+    })
+}
+
+fn ignition_table(analysis: &IgnitionAnalysis) -> String {
+    let mut out = format!(
+        "{} tests at {} irradiances\n\n  irradiance kW/m²  t_ig s  test\n",
+        analysis.points.len(),
+        analysis.n_irradiances
+    );
+    for p in &analysis.points {
+        out.push_str(&format!(
+            "  {:>16.1}  {:>6.1}  {}\n",
+            p.irradiance_kw_m2, p.ignition_time_s, p.label
+        ));
+    }
+    out.push_str("\n  form              t_ig exponent  critical heat flux kW/m²     R²\n");
+    for f in &analysis.fits {
+        out.push_str(&format!(
+            "  {:<16}  {:>13.3}  {:>24.2}  {:>6.4}\n",
+            f.correlation.name(),
+            f.correlation.exponent(),
+            f.critical_heat_flux_kw_m2,
+            f.r_squared
+        ));
+    }
+    out.push_str(&format!(
+        "\n  thermal response parameter (thick)   {:.1} kW·s^½/m²\n",
+        analysis.thermal_response_parameter_kw_s05_m2
+    ));
+    if let Some((t, source)) = analysis.ignition_temperature {
+        let how = match source {
+            IgnitionTemperatureSource::Given => "given",
+            IgnitionTemperatureSource::FromCriticalHeatFlux => {
+                "from the surface balance at Janssens' critical heat flux"
+            }
+        };
+        out.push_str(&format!(
+            "  ignition temperature                 {:.0} K ({:.0} °C, {how})\n",
+            t,
+            t - 273.15
+        ));
+    }
+    let optional = [
+        (
+            "apparent kρc (thick)",
+            analysis.apparent_krhoc_thick_kw2_s_m4_k2,
+            "kW²·s/(m⁴·K²)",
+        ),
+        (
+            "apparent kρc (Janssens)",
+            analysis.apparent_krhoc_janssens_kw2_s_m4_k2,
+            "kW²·s/(m⁴·K²)",
+        ),
+        (
+            "heat capacity per area (thin)",
+            analysis.heat_capacity_per_area_thin_kj_m2_k,
+            "kJ/(m²·K)",
+        ),
+        (
+            "critical heat flux at T_ig (balance)",
+            analysis.critical_heat_flux_from_balance_kw_m2,
+            "kW/m²",
+        ),
+    ];
+    for (name, v, unit) in optional {
+        if let Some(v) = v {
+            out.push_str(&format!("  {name:<37}{v:.3} {unit}\n"));
+        }
+    }
+    for w in &analysis.warnings {
+        out.push_str(&format!("warning: {w}\n"));
     }
     out
 }

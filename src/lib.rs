@@ -4,6 +4,9 @@
 pub mod case;
 pub mod data;
 pub mod export;
+pub mod fit;
+pub mod headless;
 pub mod microscale;
 pub mod physics;
+pub mod run;
 pub mod synthetic;

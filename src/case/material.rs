@@ -27,6 +27,56 @@ pub struct MaterialFile {
     pub components: Vec<ComponentFile>,
     #[serde(rename = "reaction", default, skip_serializing_if = "Vec::is_empty")]
     pub reactions: Vec<ReactionFile>,
+    /// Present in a calibrated model written by a fit: provenance, intervals, and the exposure
+    /// values fitted together with the material.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub calibration: Option<CalibrationFile>,
+}
+
+/// The `[calibration]` table of a calibrated model (docs/file-formats.md).
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CalibrationFile {
+    pub job: String,
+    pub emberfit_version: String,
+    pub date: String,
+    pub objective: f64,
+    /// SHA-256 of every file the fit read, by path.
+    #[serde(default)]
+    pub data_sha256: std::collections::BTreeMap<String, String>,
+    /// Exposure values fitted with the material; `simulate` and `predict` apply them to the
+    /// specimen's scenario (they override the scenario's own values).
+    #[serde(default)]
+    pub scenario: ScenarioCalibration,
+    /// Every fitted value with its 95 % interval.
+    #[serde(rename = "parameter", default)]
+    pub parameters: Vec<CalibratedParameter>,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct ScenarioCalibration {
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flame_heat_flux_kw_m2: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub convective_coefficient_w_m2_k: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub critical_fuel_mass_flux_g_m2s: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct CalibratedParameter {
+    pub path: String,
+    pub unit: String,
+    pub value: f64,
+    pub lower_95: f64,
+    pub upper_95: f64,
+    pub scale: String,
+    /// Standard error in fit space (the value, or its log10 on a log scale).
+    pub standard_error: f64,
+    #[serde(default)]
+    pub warnings: Vec<String>,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]

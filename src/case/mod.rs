@@ -6,7 +6,7 @@
 mod error;
 pub mod material;
 pub mod scenario;
-mod source;
+pub(crate) mod source;
 
 pub use error::CaseError;
 pub use material::{load_material, MaterialModel};

@@ -186,6 +186,39 @@ impl LoadedScenario {
         self.scenario.exposure.irradiance_w_m2 = Schedule::Constant(irradiance_w_m2);
     }
 
+    /// Puts `model` into every specimen layer, with the exposure values a calibrated model
+    /// carries. The layers' compositions name components, so the component list must match.
+    pub fn use_specimen_material(&mut self, model: &MaterialModel) -> Result<(), CaseError> {
+        for (idx, layer) in self.scenario.layers.iter_mut().enumerate() {
+            if !layer.is_specimen {
+                continue;
+            }
+            let names = |m: &crate::physics::material::Material| {
+                m.components
+                    .iter()
+                    .map(|c| c.name.clone())
+                    .collect::<Vec<_>>()
+            };
+            if names(&layer.material) != names(&model.material) {
+                return Err(CaseError::Inconsistent {
+                    path: self.path.clone(),
+                    problem: format!(
+                        "layer {} has components [{}] but the material has [{}]",
+                        idx + 1,
+                        names(&layer.material).join(", "),
+                        names(&model.material).join(", ")
+                    ),
+                });
+            }
+            layer.material = model.material.clone();
+            self.materials[idx] = model.clone();
+        }
+        if let Some(calibration) = &model.file.calibration {
+            apply_calibration(&mut self.scenario, &calibration.scenario);
+        }
+        Ok(())
+    }
+
     /// Replaces the material of every layer that uses the material file `path`.
     pub fn replace_material(&mut self, path: &Path, model: &MaterialModel) {
         for (idx, material_path) in self.material_paths.iter().enumerate() {
@@ -203,6 +236,23 @@ pub fn load_scenario(path: &Path) -> Result<LoadedScenario, CaseError> {
     let file: ScenarioFile = source.parse()?;
     let base = path.parent().unwrap_or(Path::new("."));
     build_scenario(&source, file, base)
+}
+
+/// Applies the exposure values a calibrated material carries.
+fn apply_calibration(scenario: &mut Scenario, fitted: &super::material::ScenarioCalibration) {
+    if let Some(flux) = fitted.flame_heat_flux_kw_m2 {
+        scenario.exposure.flame_heat_flux_w_m2 = flux * 1e3;
+    }
+    if let Some(h) = fitted.convective_coefficient_w_m2_k {
+        scenario.exposure.convective_coefficient_w_m2_k = h;
+        scenario.exposure.flaming_convective_coefficient_w_m2_k = h;
+    }
+    if let Some(critical) = fitted.critical_fuel_mass_flux_g_m2s {
+        if let IgnitionRule::CriticalFuelMassFlux(flux) = &mut scenario.ignition {
+            *flux = critical * 1e-3;
+        }
+        scenario.flameout.threshold_fuel_mass_flux_kg_m2_s = critical * 1e-3;
+    }
 }
 
 fn optional(
@@ -564,6 +614,16 @@ fn build_scenario(
         probes,
         numerics,
     };
+    // A calibrated specimen material carries the exposure values fitted with it.
+    let mut scenario = scenario;
+    if let Some(calibration) = materials
+        .iter()
+        .zip(&scenario.layers)
+        .find(|(_, layer)| layer.is_specimen)
+        .and_then(|(model, _)| model.file.calibration.as_ref())
+    {
+        apply_calibration(&mut scenario, &calibration.scenario);
+    }
     scenario
         .check()
         .map_err(|err| source.inconsistent(err.to_string()))?;

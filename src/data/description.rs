@@ -30,14 +30,18 @@ pub struct ColumnName {
     pub name: String,
     /// Unit to use instead of the file's units row or bracket.
     pub unit: Option<String>,
+    /// Whether a file without this column is an error (true: always so for columns a TEST.toml
+    /// names) or simply lacks the signal (false: the default names of a bare CSV).
+    pub is_required: bool,
 }
 
 impl ColumnName {
-    /// A column with the file's own unit.
+    /// A required column with the file's own unit.
     pub fn named(name: &str) -> Self {
         ColumnName {
             name: name.to_string(),
             unit: None,
+            is_required: true,
         }
     }
 }
@@ -96,6 +100,8 @@ pub enum OrificeConstant {
     Given(f64),
     /// From a methane calibration run described by this TOML file.
     FromCalibration(PathBuf),
+    /// This description is itself the methane calibration run that finds the constant.
+    ThisCalibrationRun,
 }
 
 /// Raw gas analysis settings.
@@ -263,8 +269,16 @@ enum RawColumn {
 impl RawColumn {
     fn into_column(self) -> ColumnName {
         match self {
-            RawColumn::Name(name) => ColumnName { name, unit: None },
-            RawColumn::Full { name, unit } => ColumnName { name, unit },
+            RawColumn::Name(name) => ColumnName {
+                name,
+                unit: None,
+                is_required: true,
+            },
+            RawColumn::Full { name, unit } => ColumnName {
+                name,
+                unit,
+                is_required: true,
+            },
         }
     }
 }
@@ -515,10 +529,12 @@ impl TestDescription {
                             "and `methane_calibration` are both given; keep one".to_string(),
                         ))
                     }
+                    (None, None) if raw.methane_burner.is_some() => {
+                        OrificeConstant::ThisCalibrationRun
+                    }
                     (None, None) => {
-                        return Err(DataError::Invalid {
+                        return Err(DataError::Missing {
                             path: path.to_path_buf(),
-                            line: 0,
                             field: "gas_analysis.orifice_constant".to_string(),
                             problem: "is missing: give it, or `methane_calibration`".to_string(),
                         })
@@ -579,9 +595,8 @@ impl TestDescription {
                 (&columns.exhaust_temperature, "columns.exhaust_temperature"),
             ] {
                 if column.is_none() {
-                    return Err(DataError::Invalid {
+                    return Err(DataError::Missing {
                         path: path.to_path_buf(),
-                        line: 0,
                         field: key.to_string(),
                         problem: "is missing: [gas_analysis] needs the O2, orifice pressure and \
                                   exhaust temperature columns"
@@ -591,9 +606,8 @@ impl TestDescription {
             }
         }
         if columns.mass.is_none() && columns.hrr.is_none() && gas.is_none() {
-            return Err(DataError::Invalid {
+            return Err(DataError::Missing {
                 path: path.to_path_buf(),
-                line: 0,
                 field: "columns".to_string(),
                 problem: "names no signal: give `mass`, `hrr`, or the gas columns with \
                           [gas_analysis]"
@@ -720,7 +734,8 @@ impl TestDescription {
         })
     }
 
-    /// A description for a bare CSV with columns `time`, `mass` and `hrr` (any that exist), at
+    /// A description for a bare CSV with columns `time`, `mass` and `hrr` (those of the last two
+    /// that the file lacks are skipped), at
     /// the given irradiance and area, everything else at its default; the caller may then
     /// change fields (as the `reduce FILE.csv` flags do).
     pub fn for_csv(data_file: &Path, exposed_area_m2: f64, irradiance_kw_m2: f64) -> Self {
@@ -745,8 +760,14 @@ impl TestDescription {
             },
             columns: Columns {
                 time: ColumnName::named("time"),
-                mass: Some(ColumnName::named("mass")),
-                hrr: Some(ColumnName::named("hrr")),
+                mass: Some(ColumnName {
+                    is_required: false,
+                    ..ColumnName::named("mass")
+                }),
+                hrr: Some(ColumnName {
+                    is_required: false,
+                    ..ColumnName::named("hrr")
+                }),
                 oxygen: None,
                 carbon_dioxide: None,
                 carbon_monoxide: None,

@@ -7,7 +7,12 @@
 //! Pure functions of (irradiance, ignition time) points. Heat fluxes in kW/m² as the trade
 //! quotes them; the unit is in every name.
 
-use super::{DataError, Notice};
+use std::path::{Path, PathBuf};
+
+use serde::Deserialize;
+use toml::Spanned;
+
+use super::{reduce, DataError, Notice, TestDescription};
 
 /// Stefan–Boltzmann constant, W/(m²·K⁴) (CODATA 2018).
 const STEFAN_BOLTZMANN_W_M2_K4: f64 = 5.670374419e-8;
@@ -23,6 +28,11 @@ pub const JANSSENS_COEFFICIENT: f64 = 0.73;
 /// R² values closer than this cannot tell two forms apart (our rule of thumb: about the
 /// scatter of repeat ignition times, 5–10 %).
 pub const R_SQUARED_DISCRIMINATION: f64 = 0.02;
+
+/// Lowest surface temperature at piloted ignition that is plausible for a solid fuel, K
+/// (about 200 °C; polymers ignite at roughly 250–450 °C: Drysdale, An Introduction to Fire
+/// Dynamics, 3rd ed., 2011, table of ignition temperatures; quoted from memory).
+pub const PLAUSIBLE_IGNITION_TEMPERATURE_K: f64 = 473.15;
 
 /// One ignition observation.
 #[derive(Debug, Clone, PartialEq)]
@@ -135,6 +145,10 @@ pub struct IgnitionAnalysis {
     pub apparent_krhoc_janssens_kw2_s_m4_k2: Option<f64>,
     /// Heat capacity per area from the thin form, ρcL = 1/(slope·(T_ig − T₀)), kJ/(m²·K).
     pub heat_capacity_per_area_thin_kj_m2_k: Option<f64>,
+    /// Critical heat flux implied by a given ignition temperature through the surface balance
+    /// ε·σ·(T_ig⁴ − T₀⁴) + h·(T_ig − T₀), kW/m² (common practice): a check on the
+    /// extrapolated intercepts. `None` when the ignition temperature was not given.
+    pub critical_heat_flux_from_balance_kw_m2: Option<f64>,
     /// Warnings: when the data cannot tell thick from thin, or an intercept is unphysical.
     pub warnings: Vec<Notice>,
 }
@@ -304,6 +318,15 @@ pub fn analyse(
         None => balance_temperature_k(janssens.critical_heat_flux_kw_m2, settings)
             .map(|t| (t, IgnitionTemperatureSource::FromCriticalHeatFlux)),
     };
+    if let Some((t_ig, IgnitionTemperatureSource::FromCriticalHeatFlux)) = ignition_temperature {
+        if t_ig < PLAUSIBLE_IGNITION_TEMPERATURE_K {
+            warnings.push(Notice::new(format!(
+                "the ignition temperature estimated from the critical heat flux is {t_ig:.0} K, \
+                 implausibly low for piloted ignition of a solid; give the ignition temperature \
+                 so that kρc means something"
+            )));
+        }
+    }
     if ignition_temperature.is_none() {
         warnings.push(Notice::new(
             "no ignition temperature (give one, or the Janssens critical heat flux must be > 0): \
@@ -328,8 +351,15 @@ pub fn analyse(
     let heat_capacity_per_area_thin_kj_m2_k = rise_k
         .filter(|_| thin.slope > 0.0)
         .map(|dt| 1.0 / (thin.slope * dt));
+    let critical_heat_flux_from_balance_kw_m2 = settings.ignition_temperature_k.map(|t| {
+        let t0 = settings.ambient_temperature_k;
+        (settings.emissivity * STEFAN_BOLTZMANN_W_M2_K4 * (t.powi(4) - t0.powi(4))
+            + settings.convective_coefficient_w_m2_k * (t - t0))
+            / 1e3
+    });
     Ok(IgnitionAnalysis {
         points: points.to_vec(),
+        critical_heat_flux_from_balance_kw_m2,
         n_irradiances,
         fits,
         thermal_response_parameter_kw_s05_m2,
@@ -339,6 +369,156 @@ pub fn analyse(
         heat_capacity_per_area_thin_kj_m2_k,
         warnings,
     })
+}
+
+/// An ignition list TOML: tests to reduce and/or ignition points given directly, plus the
+/// settings of the analysis. Keys in docs/test-files.md.
+#[derive(Debug, Clone, PartialEq)]
+pub struct IgnitionList {
+    /// TEST.toml files, resolved against the list's folder.
+    pub tests: Vec<PathBuf>,
+    /// Points given directly.
+    pub points: Vec<IgnitionPoint>,
+    /// Analysis settings.
+    pub settings: IgnitionSettings,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawIgnitionList {
+    #[serde(default)]
+    tests: Vec<String>,
+    #[serde(default)]
+    point: Vec<RawPoint>,
+    ignition_temperature_c: Option<Spanned<f64>>,
+    ambient_temperature_c: Option<Spanned<f64>>,
+    emissivity: Option<Spanned<f64>>,
+    convective_coefficient_w_m2_k: Option<Spanned<f64>>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawPoint {
+    irradiance_kw_m2: Spanned<f64>,
+    ignition_time_s: Spanned<f64>,
+    label: Option<String>,
+}
+
+impl IgnitionList {
+    /// Reads and validates an ignition list.
+    pub fn load(path: &Path) -> Result<IgnitionList, DataError> {
+        let text = std::fs::read_to_string(path).map_err(|source| DataError::Read {
+            path: path.to_path_buf(),
+            source,
+        })?;
+        let raw: RawIgnitionList = toml::from_str(&text).map_err(|source| DataError::Syntax {
+            path: path.to_path_buf(),
+            source,
+        })?;
+        let line_of = |span: std::ops::Range<usize>| {
+            text[..span.start.min(text.len())].matches('\n').count() + 1
+        };
+        let check = |value: &Spanned<f64>, field: &str, low: f64, high: f64| {
+            let v = *value.get_ref();
+            if (low..=high).contains(&v) {
+                Ok(v)
+            } else {
+                Err(DataError::Invalid {
+                    path: path.to_path_buf(),
+                    line: line_of(value.span()),
+                    field: field.to_string(),
+                    problem: format!("must be between {low} and {high}, got {v}"),
+                })
+            }
+        };
+        let folder = path.parent().unwrap_or_else(|| Path::new("."));
+        let mut points = Vec::new();
+        for (idx, point) in raw.point.iter().enumerate() {
+            let irradiance_kw_m2 = check(
+                &point.irradiance_kw_m2,
+                &format!("point[{idx}].irradiance_kw_m2"),
+                0.1,
+                200.0,
+            )?;
+            let ignition_time_s = check(
+                &point.ignition_time_s,
+                &format!("point[{idx}].ignition_time_s"),
+                1e-3,
+                1e6,
+            )?;
+            points.push(IgnitionPoint {
+                irradiance_kw_m2,
+                ignition_time_s,
+                label: point
+                    .label
+                    .clone()
+                    .unwrap_or_else(|| format!("{}: point[{idx}]", path.display())),
+            });
+        }
+        if raw.tests.is_empty() && points.is_empty() {
+            return Err(DataError::Missing {
+                path: path.to_path_buf(),
+                field: "tests".to_string(),
+                problem: "and `point` are both missing: list tests or give points".to_string(),
+            });
+        }
+        let defaults = IgnitionSettings::default();
+        let settings = IgnitionSettings {
+            ambient_temperature_k: match &raw.ambient_temperature_c {
+                Some(v) => check(v, "ambient_temperature_c", -40.0, 60.0)? + 273.15,
+                None => defaults.ambient_temperature_k,
+            },
+            ignition_temperature_k: raw
+                .ignition_temperature_c
+                .as_ref()
+                .map(|v| check(v, "ignition_temperature_c", 50.0, 1500.0).map(|t| t + 273.15))
+                .transpose()?,
+            emissivity: match &raw.emissivity {
+                Some(v) => check(v, "emissivity", 0.01, 1.0)?,
+                None => defaults.emissivity,
+            },
+            convective_coefficient_w_m2_k: match &raw.convective_coefficient_w_m2_k {
+                Some(v) => check(v, "convective_coefficient_w_m2_k", 0.0, 100.0)?,
+                None => defaults.convective_coefficient_w_m2_k,
+            },
+        };
+        Ok(IgnitionList {
+            tests: raw.tests.iter().map(|t| folder.join(t)).collect(),
+            points,
+            settings,
+        })
+    }
+}
+
+/// Loads and reduces each TEST.toml and returns its ignition point (the given ignition time or
+/// the detected one), with the notices of the reductions.
+pub fn points_from_tests(
+    paths: &[PathBuf],
+) -> Result<(Vec<IgnitionPoint>, Vec<Notice>), DataError> {
+    let mut points = Vec::new();
+    let mut notices = Vec::new();
+    for path in paths {
+        let test = TestDescription::load(path)?;
+        let reduced = reduce(&test)?;
+        let ignition_time_s =
+            reduced
+                .report
+                .ignition_time_s
+                .ok_or_else(|| DataError::Reduction {
+                    problem: format!(
+                        "{}: no ignition time: none given (ignition_time_s) and none detected \
+                         from HRR",
+                        path.display()
+                    ),
+                })?;
+        notices.extend(reduced.notices);
+        points.push(IgnitionPoint {
+            irradiance_kw_m2: test.irradiance_kw_m2,
+            ignition_time_s,
+            label: path.display().to_string(),
+        });
+    }
+    Ok((points, notices))
 }
 
 #[cfg(test)]
@@ -441,5 +621,13 @@ mod tests {
     fn the_surface_balance_inverts_the_losses() {
         let t = balance_temperature_k(9.998, &IgnitionSettings::default()).unwrap();
         assert!((t - 600.0).abs() < 0.1, "{t}");
+        let points = points_from(|q| (300.0 / (q - 10.0)).powi(2), &[20.0, 50.0]);
+        let settings = IgnitionSettings {
+            ignition_temperature_k: Some(600.0),
+            ..IgnitionSettings::default()
+        };
+        let analysis = analyse(&points, &settings).unwrap();
+        let balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
+        assert!((balance - 9.998).abs() < 1e-3, "{balance}");
     }
 }

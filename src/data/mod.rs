@@ -72,11 +72,21 @@ pub enum DataError {
     Invalid {
         /// TOML file.
         path: PathBuf,
-        /// Line of the offending key (1-based; 0 when the key is missing).
+        /// Line of the offending key (1-based).
         line: usize,
         /// Key path, e.g. `columns.mass.unit`.
         field: String,
         /// What is wrong and what was found.
+        problem: String,
+    },
+    /// A required key of the TOML description is missing.
+    #[error("{}: `{field}` {problem}", path.display())]
+    Missing {
+        /// TOML file.
+        path: PathBuf,
+        /// Key path that is missing.
+        field: String,
+        /// What is needed instead.
         problem: String,
     },
     /// A cell of a data file cannot be read.

@@ -34,7 +34,9 @@ pub struct Reduced {
     pub time_s: Vec<f64>,
     /// Heat release rate per exposed area, kW/m² (lab's column or oxygen consumption).
     pub hrr_kw_m2: Option<Vec<f64>>,
-    /// Load-cell mass, g (negative readings of a tared specimen clipped to zero).
+    /// Load-cell mass, g (negative readings of a tared specimen clipped to zero). When the
+    /// description says the load cell is not tared, this includes holder and backing: use
+    /// differences, or the MLR.
     pub mass_g: Option<Vec<f64>>,
     /// Mass loss rate per exposed area, g/(m²·s), positive when mass is lost.
     pub mlr_g_m2s: Option<Vec<f64>>,
@@ -86,7 +88,7 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
                 name: c.name.clone(),
                 unit: c.unit.clone(),
                 quantity: *quantity,
-                is_required: true,
+                is_required: c.is_required,
             })
         })
         .collect();
@@ -215,6 +217,13 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
              uses the actual times",
             path.display()
         )));
+    }
+    if signals.iter().all(Option::is_none) {
+        return Err(DataError::File {
+            path,
+            problem: "has none of the signal columns looked for (mass, HRR or gas analysis)"
+                .to_string(),
+        });
     }
     let mut signals = signals.into_iter();
     let mut next = || signals.next().flatten();
@@ -415,9 +424,24 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
                     )));
                     c
                 }
+                OrificeConstant::ThisCalibrationRun => {
+                    return Err(DataError::Reduction {
+                        problem: format!(
+                            "{}: [gas_analysis] says this is a calibration run, but there is \
+                             no [methane_burner] table",
+                            test.source.display()
+                        ),
+                    })
+                }
             }
         };
         orifice_constant = Some(constant);
+        if signals.hrr.is_some() {
+            notices.push(Notice::new(format!(
+                "{}: HRR computed from the gas analysers; the file's own HRR column is not used",
+                test.source.display()
+            )));
+        }
         let shifted = shift_gas(test, gas, &signals, &mut notices)?;
         let (Some(dp), Some(te)) = (&signals.orifice_pressure_pa, &signals.exhaust_temperature_k)
         else {
@@ -650,6 +674,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         exposed_area_m2: area_m2,
         given_ignition_time_s: test.ignition_time_s,
         given_initial_mass_g: test.initial_mass_g,
+        is_mass_tared: test.is_mass_tared,
         ignition_rule: test.ignition_rule,
     });
     Ok(Reduced {
@@ -667,4 +692,17 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         report,
         notices,
     })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn gaps_are_filled_on_the_line_between_neighbours() {
+        let time_s = [0.0, 1.0, 2.0, 4.0, 5.0];
+        let mut values = [1.0, f64::NAN, f64::NAN, 7.0, 9.0];
+        assert_eq!(fill_gaps(&time_s, &mut values), 2);
+        assert_eq!(values, [1.0, 2.5, 4.0, 7.0, 9.0]);
+    }
 }

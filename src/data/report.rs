@@ -29,7 +29,7 @@ pub struct Report {
     pub ignition_source: IgnitionSource,
     /// Largest HRR sample, kW/m² (no smoothing).
     pub peak_hrr_kw_m2: Option<f64>,
-    /// Time of the largest HRR sample, s.
+    /// Time of the largest HRR sample (the first, if several are equal), s.
     pub time_to_peak_hrr_s: Option<f64>,
     /// Trapezoidal integral of HRR from exposure start to the end of the record, MJ/m²;
     /// negative samples are kept (no baseline correction beyond the lab's or ours).
@@ -41,7 +41,7 @@ pub struct Report {
     /// Mean HRR over the 300 s after ignition, kW/m².
     pub avg_hrr_300_kw_m2: Option<f64>,
     /// Specimen mass at the start, g: the description's `initial_mass_g` if given, else the
-    /// start reading (see `mass_lost_g`).
+    /// start reading (see `mass_lost_g`) when the load cell is tared.
     pub initial_mass_g: Option<f64>,
     /// Mass lost, g: median of the readings before half the ignition time (the first five
     /// readings when there is no ignition time) minus the median of the last ten readings.
@@ -86,6 +86,9 @@ pub struct ReportInput<'a> {
     pub given_ignition_time_s: Option<f64>,
     /// Given initial specimen mass, g.
     pub given_initial_mass_g: Option<f64>,
+    /// Whether the mass readings are of the specimen alone; if not, the start reading is not
+    /// reported as the initial specimen mass.
+    pub is_mass_tared: bool,
     /// Ignition detection rule.
     pub ignition_rule: IgnitionRule,
 }
@@ -94,12 +97,16 @@ pub struct ReportInput<'a> {
 pub fn compute(input: &ReportInput<'_>) -> Report {
     let time_s = input.time_s;
     let end_time_s = time_s.last().copied().unwrap_or(0.0);
+    // The first sample of the largest value, so that a plateau's peak time is its start.
     let peak = input.hrr_kw_m2.and_then(|hrr| {
         hrr.iter()
             .enumerate()
             .filter(|(_, v)| v.is_finite())
-            .max_by(|a, b| a.1.total_cmp(b.1))
-            .map(|(idx, v)| (time_s[idx], *v))
+            .fold(None, |best: Option<(usize, f64)>, (idx, v)| match best {
+                Some((_, b)) if b >= *v => best,
+                _ => Some((idx, *v)),
+            })
+            .map(|(idx, v)| (time_s[idx], v))
     });
     let (ignition_time_s, ignition_source) = match input.given_ignition_time_s {
         Some(t) => (Some(t), IgnitionSource::Given),
@@ -186,7 +193,9 @@ pub fn compute(input: &ReportInput<'_>) -> Report {
         avg_hrr_60_kw_m2: average_after_ignition(60.0),
         avg_hrr_180_kw_m2: average_after_ignition(180.0),
         avg_hrr_300_kw_m2: average_after_ignition(300.0),
-        initial_mass_g: input.given_initial_mass_g.or(mass_start_g),
+        initial_mass_g: input
+            .given_initial_mass_g
+            .or(mass_start_g.filter(|_| input.is_mass_tared)),
         mass_lost_g,
         avg_mlr_10_90_g_m2s,
         peak_mlr_g_m2s,
@@ -329,6 +338,7 @@ mod tests {
             exposed_area_m2: 0.01,
             given_ignition_time_s: None,
             given_initial_mass_g: None,
+            is_mass_tared: true,
             ignition_rule: RULE,
         });
         assert!((report.total_heat_release_mj_m2.unwrap() - 10.0).abs() < 1e-9);
@@ -359,6 +369,7 @@ mod tests {
             exposed_area_m2: 0.01,
             given_ignition_time_s: Some(100.0),
             given_initial_mass_g: None,
+            is_mass_tared: true,
             ignition_rule: RULE,
         });
         assert!((report.mass_lost_g.unwrap() - 80.0).abs() < 1e-9);

@@ -3,7 +3,8 @@
 //!
 //! Tolerates what real exports contain: a UTF-8 byte-order mark, stray spaces in names, a units
 //! row under the header (or units in brackets in the name), blank lines, blank cells (missing
-//! values, returned as NaN), `;` or tab separators with decimal commas. Units are converted to
+//! values, returned as NaN), `;` or tab separators with decimal commas, Latin-1 text, clock
+//! times (h:mm:ss) in a time column. Units are converted to
 //! one canonical unit per [`Quantity`]. It knows nothing about cone calorimeters, so the
 //! milligram-scale readers can use it too. It does not fill gaps or sort rows: that is the
 //! caller's choice, because what a gap means depends on the signal.
@@ -106,8 +107,23 @@ pub fn read_table(path: &Path, requests: &[ColumnRequest]) -> Result<Table, Data
         path: path.to_path_buf(),
         source,
     })?;
-    let text = String::from_utf8_lossy(&bytes);
-    parse_table(path, &text, requests)
+    match String::from_utf8(bytes) {
+        Ok(text) => parse_table(path, &text, requests),
+        Err(err) => {
+            // Not UTF-8: lab software on Windows often writes Latin-1 (e.g. a single-byte
+            // degree sign). Each byte is then one character.
+            let text: String = err.into_bytes().iter().map(|&b| char::from(b)).collect();
+            let mut table = parse_table(path, &text, requests)?;
+            table.notices.insert(
+                0,
+                Notice::new(format!(
+                    "{}: not UTF-8; read as Latin-1 (ISO 8859-1)",
+                    path.display()
+                )),
+            );
+            Ok(table)
+        }
+    }
 }
 
 /// As [`read_table`], on text already in memory (`path` is only used in messages).
@@ -274,6 +290,7 @@ pub fn parse_table(
     let mut values: Vec<Vec<f64>> = vec![Vec::new(); requests.len()];
     let mut lines = Vec::new();
     let mut n_blank = vec![0usize; requests.len()];
+    let mut n_clock = vec![0usize; requests.len()];
     for (line, cells) in rows {
         // Skip rows in which every requested cell is blank (e.g. a trailing comma-only line).
         let is_empty = positions
@@ -292,8 +309,15 @@ pub fn parse_table(
                 n_blank[req_idx] += 1;
                 f64::NAN
             } else {
+                let clock_s = (requests[req_idx].quantity == Quantity::Time)
+                    .then(|| parse_clock_s(cell))
+                    .flatten();
                 match parse_number(cell, has_decimal_comma) {
                     Some(number) => conversion.apply(number),
+                    None if clock_s.is_some() => {
+                        n_clock[req_idx] += 1;
+                        clock_s.unwrap_or(f64::NAN)
+                    }
                     None => {
                         return Err(DataError::Cell {
                             path: path.to_path_buf(),
@@ -307,6 +331,15 @@ pub fn parse_table(
             values[req_idx].push(value);
         }
         lines.push(line);
+    }
+    for (req_idx, &count) in n_clock.iter().enumerate() {
+        if let (true, Some(idx)) = (count > 0, positions[req_idx]) {
+            notices.push(Notice::new(format!(
+                "{}: column `{}`: read {count} clock times (h:mm:ss) as seconds",
+                path.display(),
+                header[idx]
+            )));
+        }
     }
     for (req_idx, &count) in n_blank.iter().enumerate() {
         if count > 0 {
@@ -402,6 +435,8 @@ fn unit_conversion(quantity: Quantity, unit: &str) -> Option<Conversion> {
             "s" | "sec" | "secs" | "second" | "seconds" => simple(1.0),
             "min" | "mins" | "minute" | "minutes" => simple(60.0),
             "h" | "hr" | "hour" | "hours" => simple(3600.0),
+            // Clock times are read as seconds cell by cell (see `parse_clock_s`).
+            "hh:mm:ss" | "h:mm:ss" | "mm:ss" | "hh:mm:ss.s" => simple(1.0),
             _ => None,
         },
         Quantity::Mass => match unit_key.as_str() {
@@ -497,7 +532,9 @@ fn normalise_unit(unit: &str) -> String {
         .replace('²', "2")
         .replace("^2", "2")
         .replace("**2", "2")
-        .replace(' ', "")
+        .replace([' ', '·'], "")
+        .replace("m-2", "/m2")
+        .replace("//", "/")
 }
 
 fn is_no_value_marker(cell: &str) -> bool {
@@ -505,6 +542,28 @@ fn is_no_value_marker(cell: &str) -> bool {
         cell.to_lowercase().as_str(),
         "nan" | "na" | "n/a" | "-" | "--" | "null" | "none"
     )
+}
+
+/// A clock time `h:mm:ss`, `mm:ss` (seconds may carry decimals) in seconds.
+fn parse_clock_s(cell: &str) -> Option<f64> {
+    let parts: Vec<&str> = cell.split(':').collect();
+    if !(2..=3).contains(&parts.len()) {
+        return None;
+    }
+    let mut seconds = 0.0;
+    for (idx, part) in parts.iter().enumerate() {
+        let is_last = idx + 1 == parts.len();
+        let is_whole = part.chars().all(|c| c.is_ascii_digit());
+        if part.is_empty() || (!is_last && !is_whole) {
+            return None;
+        }
+        let value: f64 = part.parse().ok()?;
+        if idx > 0 && value >= 60.0 {
+            return None;
+        }
+        seconds = seconds * 60.0 + value;
+    }
+    Some(seconds)
 }
 
 fn parse_number(cell: &str, has_decimal_comma: bool) -> Option<f64> {
@@ -593,6 +652,41 @@ mod tests {
             .notices
             .iter()
             .any(|n| n.message.contains("using `kg`")));
+    }
+
+    #[test]
+    fn a_latin1_degree_sign_is_read() {
+        let dir = std::env::temp_dir().join(format!("emberfit-latin1-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("latin1.csv");
+        std::fs::write(&path, b"T [\xb0C]\n26.85\n").unwrap();
+        let reqs = vec![ColumnRequest::required("T", Quantity::Temperature)];
+        let table = read_table(&path, &reqs).unwrap();
+        assert!((table.columns[0].as_ref().unwrap().values[0] - 300.0).abs() < 1e-9);
+        assert!(table.notices[0].message.contains("Latin-1"));
+        std::fs::remove_dir_all(&dir).ok();
+    }
+
+    #[test]
+    fn clock_times_become_seconds() {
+        let text = "Time,Mass\nhh:mm:ss,g\n0:00:00,5\n0:01:30.5,4\n1:00:00,3\n";
+        let table = parse_table(Path::new("t.csv"), text, &requests()).unwrap();
+        assert_eq!(
+            table.columns[0].as_ref().unwrap().values,
+            vec![0.0, 90.5, 3600.0]
+        );
+        assert!(table
+            .notices
+            .iter()
+            .any(|n| n.message.contains("clock times")));
+        assert_eq!(parse_clock_s("1:75"), None);
+    }
+
+    #[test]
+    fn kilowatts_per_square_metre_in_exponent_form() {
+        let reqs = vec![ColumnRequest::required("q", Quantity::HeatReleaseRate)];
+        let table = parse_table(Path::new("t.csv"), "q [kW m-2]\n5\n", &reqs).unwrap();
+        assert_eq!(table.columns[0].as_ref().unwrap().unit, "kW/m2");
     }
 
     #[test]

@@ -2,6 +2,7 @@
 //! replacement. Formats are chosen here, not in the physics.
 
 pub mod curves;
+pub mod material;
 
 use std::io::Write;
 use std::path::Path;

@@ -1,6 +1,8 @@
 //! The integration tests: one binary, one module per concern.
 
 mod cli;
+mod data;
+mod fit;
 mod microscale;
 mod properties;
 mod util;

@@ -1,0 +1,243 @@
+//! How well each parameter is determined: the Jacobian of the standardised residuals at the
+//! optimum (central differences in fit space, evaluated in parallel), the covariance
+//! s²·(JᵀJ)⁻¹ with s² = Σr²/(n − p) (the usual linearised least-squares estimate, e.g. Bates &
+//! Watts, Nonlinear Regression Analysis, 1988), 95 % intervals, correlations and warnings.
+
+use nalgebra::{DMatrix, DVector};
+use rayon::prelude::*;
+
+use super::model::Model;
+use super::objective::Objective;
+use super::parameters::{FreeParameter, Scale};
+
+/// Two-sided 95 % quantile of the normal distribution (the linearised intervals use it; with
+/// hundreds of data points Student's t is the same to three digits).
+pub const NORMAL_95: f64 = 1.959964;
+/// |correlation| at or above which a pair is flagged as strongly correlated.
+pub const STRONG_CORRELATION: f64 = 0.95;
+
+/// A warning about one parameter.
+#[derive(Debug, Clone, PartialEq)]
+pub enum Warning {
+    /// Within 1 % of the bound's range from a bound: the data push it out of the box.
+    AtBound {
+        which: &'static str,
+    },
+    StronglyCorrelated {
+        with: String,
+        correlation: f64,
+    },
+    /// Its 95 % interval is wider than half its bounds, or the data do not constrain it.
+    PoorlyDetermined,
+}
+
+impl std::fmt::Display for Warning {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            Warning::AtBound { which } => write!(f, "at its {which} bound"),
+            Warning::StronglyCorrelated { with, correlation } => {
+                write!(f, "strongly correlated with {with} ({correlation:+.2})")
+            }
+            Warning::PoorlyDetermined => write!(f, "poorly determined by the data"),
+        }
+    }
+}
+
+/// One parameter's estimate.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Estimate {
+    pub name: String,
+    pub unit: String,
+    pub value: f64,
+    /// Standard error in fit space (the value, or log10 of it on a log scale).
+    pub standard_error_fit_space: f64,
+    /// 95 % interval in file units (asymmetric on a log scale).
+    pub interval_95: (f64, f64),
+    pub warnings: Vec<Warning>,
+}
+
+/// The identifiability analysis at the optimum.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Identifiability {
+    pub estimates: Vec<Estimate>,
+    /// Correlation matrix, row-major, parameters in job order.
+    pub correlation: Vec<Vec<f64>>,
+    /// Covariance in fit space, row-major.
+    pub covariance: Vec<Vec<f64>>,
+    pub n_residuals: usize,
+    /// s² = Σr²/(n − p).
+    pub residual_variance: f64,
+    /// Singular values of J, largest first (a tiny one means a direction the data cannot see).
+    pub singular_values: Vec<f64>,
+}
+
+/// Errors of the analysis.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum IdentifiabilityError {
+    #[error("the model failed near the optimum while estimating the Jacobian: {0}")]
+    Model(String),
+    #[error("{n} residuals are too few for {p} parameters")]
+    TooFewResiduals { n: usize, p: usize },
+}
+
+fn with_fit_coordinate(
+    parameters: &[FreeParameter],
+    values: &[f64],
+    index: usize,
+    coordinate: f64,
+) -> Vec<f64> {
+    let mut shifted = values.to_vec();
+    shifted[index] = parameters[index].from_fit_space(coordinate);
+    shifted
+}
+
+/// Analyses the fit at `values` (file units).
+pub fn analyse<M: Model>(
+    objective: &Objective<'_, M>,
+    values: &[f64],
+) -> Result<Identifiability, IdentifiabilityError> {
+    let parameters = objective.parameters();
+    let p = parameters.len();
+    let base = objective
+        .residuals(values)
+        .map_err(IdentifiabilityError::Model)?;
+    let n = base.len();
+    if n <= p {
+        return Err(IdentifiabilityError::TooFewResiduals { n, p });
+    }
+    // Central differences with a step of 1e-3 of each parameter's range in fit space, kept
+    // inside the bounds (one-sided at a bound).
+    let columns: Vec<Result<Vec<f64>, String>> = (0..p)
+        .into_par_iter()
+        .map(|j| {
+            let parameter = &parameters[j];
+            let x = parameter.to_fit_space(values[j]);
+            let step = 1e-3 * parameter.fit_space_range();
+            let lower = parameter.to_fit_space(parameter.lower);
+            let upper = parameter.to_fit_space(parameter.upper);
+            let (a, b) = ((x - step).max(lower), (x + step).min(upper));
+            let ra = if a < x {
+                objective.residuals(&with_fit_coordinate(parameters, values, j, a))?
+            } else {
+                base.clone()
+            };
+            let rb = if b > x {
+                objective.residuals(&with_fit_coordinate(parameters, values, j, b))?
+            } else {
+                base.clone()
+            };
+            Ok(ra
+                .iter()
+                .zip(&rb)
+                .map(|(ra, rb)| (rb - ra) / (b - a))
+                .collect())
+        })
+        .collect();
+    let mut jacobian = DMatrix::<f64>::zeros(n, p);
+    for (j, column) in columns.into_iter().enumerate() {
+        let column = column.map_err(IdentifiabilityError::Model)?;
+        for (i, value) in column.into_iter().enumerate() {
+            jacobian[(i, j)] = value;
+        }
+    }
+    let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / (n - p) as f64;
+    let svd = jacobian.clone().svd(true, true);
+    let mut singular_values: Vec<f64> = svd.singular_values.iter().copied().collect();
+    singular_values.sort_by(|a, b| b.total_cmp(a));
+    let largest = singular_values.first().copied().unwrap_or(0.0);
+    // Pseudo-inverse of JᵀJ through the SVD of J; directions below 1e-10 of the largest
+    // singular value are treated as undetermined (infinite variance).
+    let mut covariance = DMatrix::<f64>::zeros(p, p);
+    let mut undetermined = vec![false; p];
+    if let Some(v_t) = &svd.v_t {
+        for (k, &sigma) in svd.singular_values.iter().enumerate() {
+            let direction: DVector<f64> = v_t.row(k).transpose();
+            if sigma > 1e-10 * largest {
+                covariance +=
+                    (&direction * direction.transpose()) * (residual_variance / (sigma * sigma));
+            } else {
+                for j in 0..p {
+                    if direction[j].abs() > 1e-3 {
+                        undetermined[j] = true;
+                    }
+                }
+            }
+        }
+    }
+    let mut correlation = vec![vec![0.0; p]; p];
+    for i in 0..p {
+        for j in 0..p {
+            let denominator = (covariance[(i, i)] * covariance[(j, j)]).sqrt();
+            correlation[i][j] = if i == j {
+                1.0
+            } else if denominator > 0.0 {
+                covariance[(i, j)] / denominator
+            } else {
+                0.0
+            };
+        }
+    }
+    let estimates = parameters
+        .iter()
+        .enumerate()
+        .map(|(i, parameter)| {
+            let standard_error = if undetermined[i] {
+                f64::INFINITY
+            } else {
+                covariance[(i, i)].max(0.0).sqrt()
+            };
+            let x = parameter.to_fit_space(values[i]);
+            let half = NORMAL_95 * standard_error;
+            let interval_95 = if half.is_finite() {
+                (
+                    parameter.from_fit_space(x - half),
+                    parameter.from_fit_space(x + half),
+                )
+            } else {
+                (
+                    match parameter.scale {
+                        Scale::Log => 0.0,
+                        Scale::Linear => f64::NEG_INFINITY,
+                    },
+                    f64::INFINITY,
+                )
+            };
+            let mut warnings = Vec::new();
+            let unit = parameter.to_unit(values[i]);
+            if unit <= 0.01 {
+                warnings.push(Warning::AtBound { which: "lower" });
+            } else if unit >= 0.99 {
+                warnings.push(Warning::AtBound { which: "upper" });
+            }
+            for (j, other) in parameters.iter().enumerate() {
+                if j != i && correlation[i][j].abs() >= STRONG_CORRELATION {
+                    warnings.push(Warning::StronglyCorrelated {
+                        with: other.name.clone(),
+                        correlation: correlation[i][j],
+                    });
+                }
+            }
+            if !half.is_finite() || 2.0 * half > 0.5 * parameter.fit_space_range() {
+                warnings.push(Warning::PoorlyDetermined);
+            }
+            Estimate {
+                name: parameter.name.clone(),
+                unit: parameter.unit.clone(),
+                value: values[i],
+                standard_error_fit_space: standard_error,
+                interval_95,
+                warnings,
+            }
+        })
+        .collect();
+    Ok(Identifiability {
+        estimates,
+        correlation,
+        covariance: (0..p)
+            .map(|i| (0..p).map(|j| covariance[(i, j)]).collect())
+            .collect(),
+        n_residuals: n,
+        residual_variance,
+        singular_values,
+    })
+}

@@ -1,0 +1,789 @@
+//! The fit job file (docs/fit-jobs.md): the material and scenario a fit starts from, the free
+//! parameters by path, the cases (scenario + reduced test data + signals), and the settings.
+
+use std::collections::BTreeMap;
+use std::path::{Path, PathBuf};
+use std::time::Duration;
+
+use serde::Deserialize;
+use toml::Spanned;
+
+use super::parameters::{FreeParameter, Prior, PropertyPart, Scale, Target};
+use crate::case::material::MaterialModel;
+use crate::case::source::Source;
+use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
+use crate::data::repeats::{combine, Alignment};
+use crate::data::{reduce, TestDescription};
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct JobFile {
+    title: String,
+    material: Spanned<String>,
+    scenario: Spanned<String>,
+    #[serde(rename = "parameter")]
+    parameters: Vec<ParameterFile>,
+    #[serde(rename = "case")]
+    cases: Vec<CaseFile>,
+    #[serde(default)]
+    settings: SettingsFile,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct ParameterFile {
+    path: Spanned<String>,
+    min: Spanned<f64>,
+    max: Spanned<f64>,
+    #[serde(default)]
+    scale: Option<ScaleFile>,
+    start: Option<Spanned<f64>>,
+    prior: Option<PriorKind>,
+    prior_mean: Option<Spanned<f64>>,
+    prior_sd: Option<Spanned<f64>>,
+    /// For the Arrhenius reparametrisation by peak temperature, K/min (default 10).
+    reference_heating_rate_k_min: Option<Spanned<f64>>,
+    /// For the reparametrisation by log10 of the rate at a temperature, K.
+    reference_temperature_k: Option<Spanned<f64>>,
+    #[serde(default)]
+    tie: Vec<Spanned<String>>,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum ScaleFile {
+    Linear,
+    Log,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum PriorKind {
+    Normal,
+    Lognormal,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct CaseFile {
+    name: String,
+    tests: Vec<Spanned<String>>,
+    #[serde(default)]
+    align: Option<AlignFile>,
+    irradiance_kw_m2: Option<Spanned<f64>>,
+    thickness_mm: Option<Spanned<f64>>,
+    duration_s: Option<Spanned<f64>>,
+    signals: Vec<SignalFile>,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum AlignFile {
+    ExposureStart,
+    Ignition,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SignalFile {
+    signal: SignalKind,
+    weight: Option<Spanned<f64>>,
+    window_s: Option<Spanned<[f64; 2]>>,
+    /// Noise standard deviation in the signal's unit; when given it replaces the default scale.
+    sigma: Option<Spanned<f64>>,
+}
+
+/// A measured quantity the fit can match.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum SignalKind {
+    /// Mass loss rate, g/(m²·s).
+    Mlr,
+    /// Heat release rate, kW/m².
+    Hrr,
+    /// Specimen mass, g.
+    Mass,
+    /// Time to ignition, s.
+    IgnitionTime,
+}
+
+impl SignalKind {
+    pub fn name(self) -> &'static str {
+        match self {
+            SignalKind::Mlr => "mlr",
+            SignalKind::Hrr => "hrr",
+            SignalKind::Mass => "mass",
+            SignalKind::IgnitionTime => "ignition_time",
+        }
+    }
+
+    pub fn unit(self) -> &'static str {
+        match self {
+            SignalKind::Mlr => "g/(m²·s)",
+            SignalKind::Hrr => "kW/m²",
+            SignalKind::Mass => "g",
+            SignalKind::IgnitionTime => "s",
+        }
+    }
+}
+
+#[derive(Debug, Default, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct SettingsFile {
+    max_evaluations: Option<Spanned<i64>>,
+    time: Option<Spanned<String>>,
+    target_objective: Option<Spanned<f64>>,
+    stagnation_generations: Option<Spanned<i64>>,
+    population: Option<Spanned<i64>>,
+    seed: Option<u64>,
+    local_refinement: Option<bool>,
+    local_max_evaluations: Option<Spanned<i64>>,
+    output_interval_s: Option<Spanned<f64>>,
+}
+
+/// Measured data of one signal, on the data's own time base.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SignalData {
+    pub kind: SignalKind,
+    pub weight: f64,
+    /// Times from exposure start, s (a single entry for the ignition time).
+    pub time_s: Vec<f64>,
+    pub value: Vec<f64>,
+    /// Standard deviation used to normalise each residual, in the signal's unit.
+    pub sigma: Vec<f64>,
+    /// Where the normalisation came from (`repeats`, `sigma`, `peak`).
+    pub sigma_source: &'static str,
+}
+
+/// One case of the fit: a scenario (with the case's irradiance and thickness) and its data.
+#[derive(Debug, Clone)]
+pub struct FitCase {
+    pub name: String,
+    pub scenario: LoadedScenario,
+    pub exposed_area_m2: f64,
+    pub signals: Vec<SignalData>,
+    /// The test descriptions and data files this case's data come from.
+    pub test_files: Vec<PathBuf>,
+}
+
+/// Optimiser settings and stops.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Settings {
+    pub max_evaluations: usize,
+    pub time_budget: Option<Duration>,
+    pub target_objective: f64,
+    pub stagnation_generations: usize,
+    /// Population size; 0 picks 10 per free parameter (at least 16).
+    pub population: usize,
+    pub seed: u64,
+    pub local_refinement: bool,
+    pub local_max_evaluations: usize,
+    pub output_interval_s: f64,
+}
+
+/// A validated fit job.
+#[derive(Debug, Clone)]
+pub struct FitJob {
+    pub path: PathBuf,
+    pub title: String,
+    pub material_path: PathBuf,
+    pub material: MaterialModel,
+    pub parameters: Vec<FreeParameter>,
+    pub cases: Vec<FitCase>,
+    pub settings: Settings,
+}
+
+/// Reads a fit job, its material and scenario, and reduces every test it names.
+pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
+    let source = Source::read(path)?;
+    let file: JobFile = source.parse()?;
+    let base = path.parent().unwrap_or(Path::new("."));
+    let material_path = base.join(file.material.get_ref());
+    let material = load_material(&material_path).map_err(|err| match err {
+        CaseError::Read { source: io, .. } => source.invalid(
+            &file.material.span(),
+            "material",
+            format!("cannot read {}: {io}", material_path.display()),
+        ),
+        other => other,
+    })?;
+    let scenario_path = base.join(file.scenario.get_ref());
+    let mut scenario = load_scenario(&scenario_path).map_err(|err| match err {
+        CaseError::Read { source: io, .. } => source.invalid(
+            &file.scenario.span(),
+            "scenario",
+            format!("cannot read {}: {io}", scenario_path.display()),
+        ),
+        other => other,
+    })?;
+    // The specimen layers take the job's (starting) material.
+    for (layer, model) in scenario
+        .scenario
+        .layers
+        .iter_mut()
+        .zip(scenario.materials.iter_mut())
+    {
+        if layer.is_specimen {
+            if layer.material.components.len() != material.material.components.len() {
+                return Err(source.invalid(
+                    &file.material.span(),
+                    "material",
+                    format!(
+                        "has {} components but the scenario's specimen layer has {}; the layer's composition needs the same components",
+                        material.material.components.len(),
+                        layer.material.components.len()
+                    ),
+                ));
+            }
+            layer.material = material.material.clone();
+            *model = material.clone();
+        }
+    }
+    if file.parameters.is_empty() {
+        return Err(source.inconsistent("a fit needs at least one [[parameter]]"));
+    }
+    let mut parameters = Vec::new();
+    for (idx, raw) in file.parameters.iter().enumerate() {
+        parameters.push(build_parameter(&source, idx, raw, &material, &scenario)?);
+    }
+    if file.cases.is_empty() {
+        return Err(source.inconsistent("a fit needs at least one [[case]]"));
+    }
+    let settings = build_settings(&source, &file.settings)?;
+    let mut cases = Vec::new();
+    for (idx, raw) in file.cases.iter().enumerate() {
+        cases.push(build_case(
+            &source,
+            idx,
+            raw,
+            base,
+            &scenario,
+            settings.output_interval_s,
+        )?);
+    }
+    Ok(FitJob {
+        path: path.to_path_buf(),
+        title: file.title,
+        material_path,
+        material,
+        parameters,
+        cases,
+        settings,
+    })
+}
+
+/// Resolves a parameter path into its targets and unit.
+pub fn parse_path(
+    path: &str,
+    material: &MaterialModel,
+    heating_rate_k_s: f64,
+    reference_temperature_k: Option<f64>,
+) -> Result<(Target, &'static str), String> {
+    let parts: Vec<&str> = path.split('.').collect();
+    let component = |name: &str| {
+        material.material.component_index(name).ok_or_else(|| {
+            let names: Vec<&str> = material
+                .material
+                .components
+                .iter()
+                .map(|c| c.name.as_str())
+                .collect();
+            format!(
+                "names no component `{name}` (components are {})",
+                names.join(", ")
+            )
+        })
+    };
+    let reaction = |index: &str| -> Result<usize, String> {
+        let n = material.material.reactions.len();
+        match index.parse::<usize>() {
+            Ok(i) if i < n => Ok(i),
+            _ => Err(format!(
+                "reaction index must be 0..{} (the order of [[reaction]] tables), got `{index}`",
+                n.saturating_sub(1)
+            )),
+        }
+    };
+    let property_part = |law: &crate::physics::material::PropertyLaw,
+                         rest: &[&str]|
+     -> Result<PropertyPart, String> {
+        use crate::physics::material::PropertyLaw;
+        match (rest, law) {
+            ([] | ["value"], PropertyLaw::PowerLaw { .. }) => Ok(PropertyPart::Value),
+            (["exponent"], PropertyLaw::PowerLaw { .. }) => Ok(PropertyPart::Exponent),
+            (["factor"], _) => Ok(PropertyPart::Factor),
+            (_, PropertyLaw::Table(_)) => {
+                Err("is a table: fit it with `.factor` (a factor on every value)".into())
+            }
+            _ => Err(format!(
+                "ends in `{}`; a property takes `.value` (default), `.exponent` or `.factor`",
+                rest.join(".")
+            )),
+        }
+    };
+    let unknown = || {
+        format!(
+            "`{path}` is not a parameter path; see docs/fit-jobs.md (e.g. component.<name>.conductivity_w_m_k, \
+             reaction.<index>.activation_energy_kj_mol, heat_of_combustion_mj_kg, exposure.flame_heat_flux_kw_m2)"
+        )
+    };
+    Ok(match parts.as_slice() {
+        ["component", name, key, rest @ ..] => {
+            let c = component(name)?;
+            let comp = &material.material.components[c];
+            match *key {
+                "density_kg_m3" if rest.is_empty() => (Target::Density { component: c }, "kg/m³"),
+                "conductivity_w_m_k" => {
+                    let part = property_part(&comp.conductivity_w_m_k, rest)?;
+                    (
+                        Target::Conductivity { component: c, part },
+                        part_unit(part, "W/(m·K)"),
+                    )
+                }
+                "specific_heat_j_kg_k" => {
+                    let part = property_part(&comp.specific_heat_j_kg_k, rest)?;
+                    (
+                        Target::SpecificHeat { component: c, part },
+                        part_unit(part, "J/(kg·K)"),
+                    )
+                }
+                "emissivity" if rest.is_empty() => (Target::Emissivity { component: c }, "–"),
+                "absorption_per_m" if rest.is_empty() => {
+                    (Target::Absorption { component: c }, "1/m")
+                }
+                _ => return Err(unknown()),
+            }
+        }
+        ["reaction", index, key] => {
+            let r = reaction(index)?;
+            match *key {
+                "pre_exponential_per_s" => (Target::PreExponential { reaction: r }, "1/s"),
+                "activation_energy_kj_mol" => (Target::ActivationEnergy { reaction: r }, "kJ/mol"),
+                "order" => (Target::Order { reaction: r }, "–"),
+                "heat_of_reaction_kj_kg" => (Target::HeatOfReaction { reaction: r }, "kJ/kg"),
+                "yield" => (Target::Yield { reaction: r }, "kg/kg"),
+                "fuel_fraction" => (Target::FuelFraction { reaction: r }, "–"),
+                "heat_of_combustion_mj_kg" => {
+                    (Target::HeatOfCombustion { reactions: vec![r] }, "MJ/kg")
+                }
+                "peak_temperature_k" => (
+                    Target::PeakTemperature {
+                        reaction: r,
+                        heating_rate_k_s,
+                    },
+                    "K",
+                ),
+                "log10_rate_per_s" => match reference_temperature_k {
+                    Some(temperature_k) => (
+                        Target::Log10RateAt {
+                            reaction: r,
+                            temperature_k,
+                        },
+                        "log10(1/s)",
+                    ),
+                    None => return Err("`log10_rate_per_s` needs `reference_temperature_k`".into()),
+                },
+                _ => return Err(unknown()),
+            }
+        }
+        ["heat_of_combustion_mj_kg"] => {
+            let reactions: Vec<usize> = material
+                .file
+                .reactions
+                .iter()
+                .enumerate()
+                .filter(|(_, r)| r.heat_of_combustion_mj_kg.is_none())
+                .map(|(i, _)| i)
+                .collect();
+            (Target::HeatOfCombustion { reactions }, "MJ/kg")
+        }
+        ["exposure", "flame_heat_flux_kw_m2"] => (Target::FlameHeatFlux, "kW/m²"),
+        ["exposure", "convective_coefficient_w_m2_k"] => {
+            (Target::ConvectiveCoefficient, "W/(m²·K)")
+        }
+        ["ignition", "critical_fuel_mass_flux_g_m2s"] => (Target::CriticalFuelMassFlux, "g/(m²·s)"),
+        _ => return Err(unknown()),
+    })
+}
+
+fn part_unit(part: PropertyPart, unit: &'static str) -> &'static str {
+    match part {
+        PropertyPart::Value => unit,
+        PropertyPart::Exponent | PropertyPart::Factor => "–",
+    }
+}
+
+fn build_parameter(
+    source: &Source,
+    idx: usize,
+    raw: &ParameterFile,
+    material: &MaterialModel,
+    scenario: &LoadedScenario,
+) -> Result<FreeParameter, CaseError> {
+    let key = |field: &str| format!("parameter[{idx}].{field}");
+    let heating_rate_k_s = match &raw.reference_heating_rate_k_min {
+        Some(value) => source.positive(value, &key("reference_heating_rate_k_min"))? / 60.0,
+        None => 10.0 / 60.0,
+    };
+    let reference_temperature_k = raw
+        .reference_temperature_k
+        .as_ref()
+        .map(|v| source.positive(v, &key("reference_temperature_k")))
+        .transpose()?;
+    let path = raw.path.get_ref().trim();
+    let (target, unit) = parse_path(path, material, heating_rate_k_s, reference_temperature_k)
+        .map_err(|problem| source.invalid(&raw.path.span(), &key("path"), problem))?;
+    let mut targets = vec![target];
+    for tie in &raw.tie {
+        let (tied, tied_unit) = parse_path(
+            tie.get_ref().trim(),
+            material,
+            heating_rate_k_s,
+            reference_temperature_k,
+        )
+        .map_err(|problem| source.invalid(&tie.span(), &key("tie"), problem))?;
+        if tied_unit != unit {
+            return Err(source.invalid(
+                &tie.span(),
+                &key("tie"),
+                format!("has unit {tied_unit}, but the parameter has unit {unit}"),
+            ));
+        }
+        targets.push(tied);
+    }
+    let lower = source.finite(&raw.min, &key("min"))?;
+    let upper = source.finite(&raw.max, &key("max"))?;
+    if upper <= lower {
+        return Err(source.invalid(
+            &raw.max.span(),
+            &key("max"),
+            format!("must be above min ({lower}), got {upper}"),
+        ));
+    }
+    let scale = match raw.scale {
+        Some(ScaleFile::Log) => Scale::Log,
+        Some(ScaleFile::Linear) | None => Scale::Linear,
+    };
+    if scale == Scale::Log && lower <= 0.0 {
+        return Err(source.invalid(
+            &raw.min.span(),
+            &key("min"),
+            format!("must be > 0 on a log scale, got {lower}"),
+        ));
+    }
+    let start = match &raw.start {
+        Some(value) => source.finite(value, &key("start"))?,
+        None => targets[0].read(&material.material, &scenario.scenario),
+    };
+    if !(lower..=upper).contains(&start) {
+        let span = raw.start.as_ref().map_or(raw.path.span(), |s| s.span());
+        return Err(source.invalid(
+            &span,
+            &key("start"),
+            format!("{start} lies outside the bounds {lower}..{upper} (give `start` or widen the bounds)"),
+        ));
+    }
+    let prior = match raw.prior {
+        None => None,
+        Some(kind) => {
+            let (Some(mean), Some(sd)) = (&raw.prior_mean, &raw.prior_sd) else {
+                return Err(source.invalid(
+                    &raw.path.span(),
+                    &key("prior"),
+                    "needs `prior_mean` and `prior_sd`",
+                ));
+            };
+            let sd_value = source.positive(sd, &key("prior_sd"))?;
+            Some(match kind {
+                PriorKind::Normal => Prior::Normal {
+                    mean: source.finite(mean, &key("prior_mean"))?,
+                    standard_deviation: sd_value,
+                },
+                PriorKind::Lognormal => Prior::LogNormal {
+                    median: source.positive(mean, &key("prior_mean"))?,
+                    standard_deviation_log10: sd_value,
+                },
+            })
+        }
+    };
+    Ok(FreeParameter {
+        name: path.to_string(),
+        unit: unit.to_string(),
+        lower,
+        upper,
+        scale,
+        start,
+        prior,
+        targets,
+    })
+}
+
+fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseError> {
+    let count =
+        |value: &Option<Spanned<i64>>, field: &str, default: usize| -> Result<usize, CaseError> {
+            match value {
+                None => Ok(default),
+                Some(v) if *v.get_ref() >= 0 => Ok(*v.get_ref() as usize),
+                Some(v) => Err(source.invalid(
+                    &v.span(),
+                    &format!("settings.{field}"),
+                    format!("must be ≥ 0, got {}", v.get_ref()),
+                )),
+            }
+        };
+    let time_budget = match &raw.time {
+        None => None,
+        Some(text) => Some(humantime::parse_duration(text.get_ref()).map_err(|err| {
+            source.invalid(
+                &text.span(),
+                "settings.time",
+                format!("is not a duration like \"8h\" or \"90min\": {err}"),
+            )
+        })?),
+    };
+    Ok(Settings {
+        max_evaluations: count(&raw.max_evaluations, "max_evaluations", 5000)?,
+        time_budget,
+        target_objective: match &raw.target_objective {
+            Some(v) => source.non_negative(v, "settings.target_objective")?,
+            None => 0.0,
+        },
+        stagnation_generations: count(&raw.stagnation_generations, "stagnation_generations", 20)?,
+        population: count(&raw.population, "population", 0)?,
+        seed: raw.seed.unwrap_or(1),
+        local_refinement: raw.local_refinement.unwrap_or(true),
+        local_max_evaluations: count(&raw.local_max_evaluations, "local_max_evaluations", 400)?,
+        output_interval_s: match &raw.output_interval_s {
+            Some(v) => source.positive(v, "settings.output_interval_s")?,
+            None => 1.0,
+        },
+    })
+}
+
+fn build_case(
+    source: &Source,
+    idx: usize,
+    raw: &CaseFile,
+    base: &Path,
+    scenario: &LoadedScenario,
+    output_interval_s: f64,
+) -> Result<FitCase, CaseError> {
+    let key = |field: &str| format!("case[{idx}].{field}");
+    if raw.tests.is_empty() {
+        return Err(source.inconsistent(format!("case `{}` names no tests", raw.name)));
+    }
+    let mut reduced = Vec::new();
+    let mut test_files = Vec::new();
+    for test in &raw.tests {
+        let test_path = base.join(test.get_ref());
+        let description = TestDescription::load(&test_path).map_err(|err| {
+            source.invalid(
+                &test.span(),
+                &key("tests"),
+                format!("cannot use {}: {err}", test_path.display()),
+            )
+        })?;
+        let result = reduce(&description).map_err(|err| {
+            source.invalid(
+                &test.span(),
+                &key("tests"),
+                format!("cannot reduce {}: {err}", test_path.display()),
+            )
+        })?;
+        reduced.push(result);
+        test_files.push(test_path);
+        test_files.push(description.data_file.clone());
+    }
+    let first = &reduced[0];
+    let mut case_scenario = scenario.clone();
+    let irradiance_kw_m2 = match &raw.irradiance_kw_m2 {
+        Some(v) => source.non_negative(v, &key("irradiance_kw_m2"))?,
+        None => first.irradiance_kw_m2,
+    };
+    case_scenario.set_constant_irradiance_w_m2(irradiance_kw_m2 * 1e3);
+    let thickness_mm = match &raw.thickness_mm {
+        Some(v) => Some(source.positive(v, &key("thickness_mm"))?),
+        None => None,
+    };
+    if let Some(thickness_mm) = thickness_mm {
+        let layer = &mut case_scenario.scenario.layers[0];
+        let cell_m = layer.thickness_m / layer.n_cells as f64;
+        layer.thickness_m = thickness_mm * 1e-3;
+        layer.n_cells = ((layer.thickness_m / cell_m).round() as usize).max(5);
+    }
+    case_scenario.scenario.output_interval_s = output_interval_s;
+    let alignment = match raw.align {
+        Some(AlignFile::Ignition) => Alignment::Ignition,
+        _ => Alignment::ExposureStart,
+    };
+    let repeats = if reduced.len() > 1 {
+        Some(
+            combine(&reduced, alignment)
+                .map_err(|err| source.inconsistent(format!("case `{}`: {err}", raw.name)))?,
+        )
+    } else {
+        None
+    };
+    let exposed_area_m2 = first.exposed_area_m2;
+    let mut signals = Vec::new();
+    let mut latest_s: f64 = 0.0;
+    for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
+        let skey = |field: &str| format!("case[{idx}].signals[{signal_idx}].{field}");
+        let weight = match &raw_signal.weight {
+            Some(v) => source.non_negative(v, &skey("weight"))?,
+            None => 1.0,
+        };
+        let missing = |what: &str| {
+            source.inconsistent(format!(
+                "case `{}` asks for signal `{}`, but its test data have no {what}",
+                raw.name,
+                raw_signal.signal.name()
+            ))
+        };
+        let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) =
+            match raw_signal.signal {
+                SignalKind::IgnitionTime => {
+                    let times: Vec<f64> = reduced
+                        .iter()
+                        .filter_map(|r| r.report.ignition_time_s)
+                        .collect();
+                    if times.is_empty() {
+                        return Err(missing("ignition time"));
+                    }
+                    let mean = times.iter().sum::<f64>() / times.len() as f64;
+                    let spread = (times.len() > 1).then(|| {
+                        let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
+                            / (times.len() - 1) as f64;
+                        vec![var.sqrt()]
+                    });
+                    (vec![mean], vec![mean], spread)
+                }
+                kind => match &repeats {
+                    Some(set) => {
+                        let curve = match kind {
+                            SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
+                            SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
+                            _ => set.mass_g.as_ref(),
+                        }
+                        .ok_or_else(|| missing(kind.name()))?;
+                        (
+                            set.time_s.clone(),
+                            curve.mean.clone(),
+                            Some(curve.standard_deviation.clone()),
+                        )
+                    }
+                    None => {
+                        let curve = match kind {
+                            SignalKind::Mlr => first.mlr_g_m2s.as_ref(),
+                            SignalKind::Hrr => first.hrr_kw_m2.as_ref(),
+                            _ => first.mass_g.as_ref(),
+                        }
+                        .ok_or_else(|| missing(kind.name()))?;
+                        (first.time_s.clone(), curve.clone(), None)
+                    }
+                },
+            };
+        let (window_start, window_end) = match &raw_signal.window_s {
+            Some(w) => {
+                let [a, b] = *w.get_ref();
+                if b <= a {
+                    return Err(source.invalid(
+                        &w.span(),
+                        &skey("window_s"),
+                        format!("must be [start, end] with end > start, got [{a}, {b}]"),
+                    ));
+                }
+                (a, b)
+            }
+            None => (f64::NEG_INFINITY, f64::INFINITY),
+        };
+        let mut kept_time = Vec::new();
+        let mut kept_value = Vec::new();
+        let mut kept_spread = Vec::new();
+        for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
+            let in_window = raw_signal.signal == SignalKind::IgnitionTime
+                || (t >= window_start.max(0.0) && t <= window_end);
+            if in_window && v.is_finite() {
+                kept_time.push(t);
+                kept_value.push(v);
+                kept_spread.push(spread.as_ref().map_or(f64::NAN, |s| s[i]));
+            }
+        }
+        if kept_time.is_empty() {
+            return Err(source.inconsistent(format!(
+                "case `{}`: signal `{}` has no data in its window",
+                raw.name,
+                raw_signal.signal.name()
+            )));
+        }
+        let peak = kept_value
+            .iter()
+            .fold(0.0f64, |m, v| m.max(v.abs()))
+            .max(f64::MIN_POSITIVE);
+        let (sigma, sigma_source) = match (&raw_signal.sigma, spread.is_some()) {
+            (Some(v), _) => (
+                vec![source.positive(v, &skey("sigma"))?; kept_time.len()],
+                "sigma",
+            ),
+            (None, true) => {
+                // The repeat spread, floored at 2 % of the peak where repeats agree too well.
+                (
+                    kept_spread
+                        .iter()
+                        .map(|s| {
+                            if s.is_finite() {
+                                s.max(0.02 * peak)
+                            } else {
+                                0.1 * peak
+                            }
+                        })
+                        .collect(),
+                    "repeats",
+                )
+            }
+            (None, false) => {
+                let scale = if raw_signal.signal == SignalKind::IgnitionTime {
+                    0.1 * peak
+                } else {
+                    peak
+                };
+                (vec![scale; kept_time.len()], "peak")
+            }
+        };
+        latest_s = latest_s.max(*kept_time.last().unwrap_or(&0.0));
+        signals.push(SignalData {
+            kind: raw_signal.signal,
+            weight,
+            time_s: kept_time,
+            value: kept_value,
+            sigma,
+            sigma_source,
+        });
+    }
+    if signals.is_empty() {
+        return Err(source.inconsistent(format!("case `{}` matches no signals", raw.name)));
+    }
+    case_scenario.scenario.duration_s = match &raw.duration_s {
+        Some(v) => source.positive(v, &key("duration_s"))?,
+        None => latest_s.max(1.0),
+    };
+    Ok(FitCase {
+        name: raw.name.clone(),
+        scenario: case_scenario,
+        exposed_area_m2,
+        signals,
+        test_files,
+    })
+}
+
+/// The names of tests and the files they read, for hashing into the run record.
+pub fn data_files(job: &FitJob) -> BTreeMap<String, PathBuf> {
+    let mut files = BTreeMap::new();
+    files.insert("material".to_string(), job.material_path.clone());
+    for case in &job.cases {
+        for test in &case.test_files {
+            files.insert(test.display().to_string(), test.clone());
+        }
+    }
+    files
+}

@@ -1,0 +1,733 @@
+//! The run directory `runs/<name>/`, the seam between the fit engine and any viewer:
+//!
+//! ```text
+//! job.toml         copy of the job as started        run.toml       version, seed, data hashes
+//! progress.jsonl   one event per line (append-only)   checkpoint.json  the engine state
+//! best.toml        the calibrated material model      parameters.csv   fitted values, intervals
+//! cases/*.csv      measured vs model and residuals    summary.json     the final figures
+//! ```
+//!
+//! This module is the only one that knows these formats. Every file but the append-only log is
+//! replaced atomically, so a run killed at any moment resumes from its last checkpoint.
+
+pub mod progress;
+
+use std::path::{Path, PathBuf};
+use std::sync::atomic::{AtomicBool, Ordering};
+use std::sync::Arc;
+
+use serde::{Deserialize, Serialize};
+use sha2::{Digest, Sha256};
+
+use crate::export::material::{calibrated_material_toml, FittedValue, Provenance};
+use crate::export::write_atomically;
+use crate::fit::engine::{
+    initial_state, optimise, EngineSettings, EngineState, IterationReport, Observer, Outcome, Phase,
+};
+use crate::fit::identifiability::{analyse, Identifiability};
+use crate::fit::job::{data_files, load_job, FitJob};
+use crate::fit::model::{model_at_data_times, CaseModel};
+use crate::fit::objective::Objective;
+use crate::fit::parameters::apply_all;
+use progress::{ParameterInfo, PartInfo, ProgressEvent, ProgressWriter, FORMAT_VERSION};
+
+/// Errors of a fit run.
+#[derive(Debug, thiserror::Error)]
+pub enum RunError {
+    #[error("{0}")]
+    Job(#[from] crate::case::CaseError),
+    #[error("{action} {}", path.display())]
+    Io {
+        action: &'static str,
+        path: PathBuf,
+        #[source]
+        source: std::io::Error,
+    },
+    #[error("run directory {} already exists; give --resume to continue it or --name to start another", .0.display())]
+    Exists(PathBuf),
+    #[error("run directory {} has no checkpoint to resume from", .0.display())]
+    NoCheckpoint(PathBuf),
+    #[error("{} changed since the run started (its SHA-256 differs); start a new run instead of resuming", .0)]
+    Changed(String),
+    #[error("cannot read {}: {problem}", path.display())]
+    Corrupt { path: PathBuf, problem: String },
+    #[error("cannot write the calibrated model: {0}")]
+    Export(#[from] crate::export::material::ExportError),
+}
+
+fn io(action: &'static str, path: &Path) -> impl FnOnce(std::io::Error) -> RunError {
+    let path = path.to_path_buf();
+    move |source| RunError::Io {
+        action,
+        path,
+        source,
+    }
+}
+
+/// The files of a run directory.
+#[derive(Debug, Clone)]
+pub struct RunDirectory {
+    pub root: PathBuf,
+}
+
+impl RunDirectory {
+    pub fn new(root: &Path) -> Self {
+        RunDirectory {
+            root: root.to_path_buf(),
+        }
+    }
+    pub fn job(&self) -> PathBuf {
+        self.root.join("job.toml")
+    }
+    pub fn record(&self) -> PathBuf {
+        self.root.join("run.toml")
+    }
+    pub fn progress(&self) -> PathBuf {
+        self.root.join("progress.jsonl")
+    }
+    pub fn checkpoint(&self) -> PathBuf {
+        self.root.join("checkpoint.json")
+    }
+    pub fn best(&self) -> PathBuf {
+        self.root.join("best.toml")
+    }
+    pub fn parameters_csv(&self) -> PathBuf {
+        self.root.join("parameters.csv")
+    }
+    pub fn summary(&self) -> PathBuf {
+        self.root.join("summary.json")
+    }
+    pub fn cases(&self) -> PathBuf {
+        self.root.join("cases")
+    }
+    /// The file a detached fit writes its terminal output to.
+    pub fn log(&self) -> PathBuf {
+        self.root.join("fit.log")
+    }
+}
+
+/// `run.toml`: what started the run.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RunRecord {
+    pub name: String,
+    pub title: String,
+    pub job_path: String,
+    pub emberfit_version: String,
+    pub started: String,
+    pub seed: u64,
+    pub threads: usize,
+    pub data_sha256: std::collections::BTreeMap<String, String>,
+}
+
+/// `summary.json`: the final figures.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct RunSummary {
+    pub title: String,
+    pub reason: String,
+    pub objective: f64,
+    pub parts: Vec<PartInfo>,
+    pub prior_cost: f64,
+    pub evaluations: u64,
+    pub elapsed_s: f64,
+    pub parameters: Vec<SummaryParameter>,
+    pub correlation: Vec<Vec<f64>>,
+    pub n_residuals: usize,
+    pub residual_variance: f64,
+    pub singular_values: Vec<f64>,
+    /// When the identifiability analysis could not be done, why.
+    pub identifiability_problem: Option<String>,
+}
+
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct SummaryParameter {
+    pub name: String,
+    pub unit: String,
+    pub value: f64,
+    pub lower_bound: f64,
+    pub upper_bound: f64,
+    pub log_scale: bool,
+    pub lower_95: Option<f64>,
+    pub upper_95: Option<f64>,
+    pub standard_error_fit_space: Option<f64>,
+    pub warnings: Vec<String>,
+}
+
+/// How the run is to be started.
+#[derive(Debug, Clone)]
+pub struct RunOptions {
+    pub runs_root: PathBuf,
+    pub name: Option<String>,
+    pub resume: bool,
+    pub threads: usize,
+    pub time_budget_s: Option<f64>,
+    pub max_evaluations: Option<u64>,
+    pub seed: Option<u64>,
+}
+
+/// SHA-256 of a file, as lower-case hex.
+pub fn sha256_hex(path: &Path) -> Result<String, RunError> {
+    let bytes = std::fs::read(path).map_err(io("cannot read", path))?;
+    Ok(Sha256::digest(&bytes)
+        .iter()
+        .map(|b| format!("{b:02x}"))
+        .collect())
+}
+
+/// A file-system-friendly form of a name.
+pub fn slug(name: &str) -> String {
+    let mut out: String = name
+        .chars()
+        .map(|c| {
+            if c.is_ascii_alphanumeric() {
+                c.to_ascii_lowercase()
+            } else {
+                '-'
+            }
+        })
+        .collect();
+    while out.contains("--") {
+        out = out.replace("--", "-");
+    }
+    out.trim_matches('-').to_string()
+}
+
+/// Writes progress and checkpoints as the engine runs.
+struct Recorder<'a> {
+    dir: &'a RunDirectory,
+    writer: ProgressWriter,
+    job: &'a FitJob,
+    start_text: &'a str,
+    provenance: Provenance,
+    stop: Arc<AtomicBool>,
+    pause: Arc<AtomicBool>,
+    best_written: f64,
+    io_error: Option<RunError>,
+    last_best: Option<(Vec<f64>, f64)>,
+}
+
+impl Recorder<'_> {
+    fn record(&mut self, result: Result<(), RunError>) {
+        if let Err(err) = result {
+            if self.io_error.is_none() {
+                self.io_error = Some(err);
+            }
+        }
+    }
+
+    fn write_event(&mut self, event: &ProgressEvent) {
+        let path = self.dir.progress();
+        let result = self
+            .writer
+            .write(event)
+            .map_err(io("cannot append to", &path));
+        self.record(result);
+    }
+
+    fn write_best(&mut self, values: &[f64], cost: f64) {
+        let result = write_best_model(
+            self.dir,
+            self.job,
+            self.start_text,
+            values,
+            None,
+            cost,
+            &self.provenance,
+        );
+        self.record(result);
+        self.best_written = cost;
+    }
+}
+
+impl Observer for Recorder<'_> {
+    fn iteration(&mut self, report: &IterationReport<'_>) {
+        let event = ProgressEvent::Iteration {
+            iter: report.iteration,
+            phase: match report.phase {
+                Phase::Global => "global",
+                Phase::Local => "local",
+                Phase::Done => "done",
+            }
+            .to_string(),
+            evaluations: report.evaluations,
+            elapsed_s: report.elapsed_s,
+            best_cost: report.best.cost,
+            parts: report
+                .best
+                .parts
+                .iter()
+                .map(|p| PartInfo {
+                    case: p.case.clone(),
+                    signal: p.signal.clone(),
+                    cost: p.cost,
+                })
+                .collect(),
+            best_params: report.best_values.clone(),
+        };
+        self.write_event(&event);
+        self.last_best = Some((report.best_values.clone(), report.best.cost));
+    }
+
+    fn checkpoint(&mut self, state: &EngineState) {
+        let path = self.dir.checkpoint();
+        let result = serde_json::to_vec(state)
+            .map_err(|e| RunError::Corrupt {
+                path: path.clone(),
+                problem: e.to_string(),
+            })
+            .and_then(|bytes| write_atomically(&path, &bytes).map_err(io("cannot write", &path)));
+        self.record(result);
+        if let Some((values, cost)) = self.last_best.clone() {
+            if cost < self.best_written {
+                self.write_best(&values, cost);
+            }
+        }
+        self.write_event(&ProgressEvent::Checkpoint {
+            iter: state.iteration,
+            evaluations: state.evaluations,
+            elapsed_s: state.elapsed_s,
+        });
+    }
+
+    fn failure(&mut self, message: &str) {
+        let event = ProgressEvent::Failure {
+            evaluations: 0,
+            message: message.to_string(),
+        };
+        self.write_event(&event);
+    }
+
+    fn should_stop(&mut self) -> bool {
+        if self.pause.load(Ordering::SeqCst) {
+            self.write_event(&ProgressEvent::Paused { elapsed_s: 0.0 });
+            while self.pause.load(Ordering::SeqCst) && !self.stop.load(Ordering::SeqCst) {
+                std::thread::sleep(std::time::Duration::from_millis(100));
+            }
+            self.write_event(&ProgressEvent::Resumed { elapsed_s: 0.0 });
+        }
+        self.stop.load(Ordering::SeqCst)
+    }
+}
+
+#[allow(clippy::too_many_arguments)]
+fn write_best_model(
+    dir: &RunDirectory,
+    job: &FitJob,
+    start_text: &str,
+    values: &[f64],
+    analysis: Option<&Identifiability>,
+    cost: f64,
+    provenance: &Provenance,
+) -> Result<(), RunError> {
+    let mut material = job.material.material.clone();
+    let mut scenario = job.cases[0].scenario.scenario.clone();
+    apply_all(&job.parameters, values, &mut material, &mut scenario);
+    let fitted: Vec<FittedValue> = values
+        .iter()
+        .enumerate()
+        .map(|(i, &value)| match analysis {
+            Some(a) => FittedValue {
+                value,
+                interval_95: a.estimates[i].interval_95,
+                standard_error: a.estimates[i].standard_error_fit_space,
+                warnings: a.estimates[i]
+                    .warnings
+                    .iter()
+                    .map(|w| w.to_string())
+                    .collect(),
+            },
+            None => FittedValue {
+                value,
+                interval_95: (f64::NAN, f64::NAN),
+                standard_error: f64::INFINITY,
+                warnings: vec!["interval not yet computed (the fit is still running)".into()],
+            },
+        })
+        .collect();
+    let mut provenance = provenance.clone();
+    provenance.objective = cost;
+    let text = calibrated_material_toml(
+        &job.material,
+        start_text,
+        &job.parameters,
+        &fitted,
+        &material,
+        &provenance,
+    )?;
+    let path = dir.best();
+    write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))
+}
+
+/// What a finished (or stopped) run produced.
+#[derive(Debug, Clone)]
+pub struct FitReport {
+    pub directory: PathBuf,
+    pub summary: RunSummary,
+}
+
+/// Starts or resumes a fit and runs it to its end (or to a stop request).
+pub fn run_fit(
+    job_path: &Path,
+    options: &RunOptions,
+    stop: Arc<AtomicBool>,
+    pause: Arc<AtomicBool>,
+) -> Result<FitReport, RunError> {
+    let mut job = load_job(job_path)?;
+    if let Some(seed) = options.seed {
+        job.settings.seed = seed;
+    }
+    let name = options.name.clone().unwrap_or_else(|| {
+        job_path
+            .file_stem()
+            .map(|s| slug(&s.to_string_lossy()))
+            .unwrap_or_else(|| "fit".into())
+    });
+    let dir = RunDirectory::new(&options.runs_root.join(&name));
+    let job_text = std::fs::read_to_string(job_path).map_err(io("cannot read", job_path))?;
+    let start_text = std::fs::read_to_string(&job.material_path)
+        .map_err(io("cannot read", &job.material_path))?;
+    let mut hashes = std::collections::BTreeMap::new();
+    hashes.insert(job_path.display().to_string(), sha256_hex(job_path)?);
+    for path in data_files(&job).values() {
+        hashes.insert(path.display().to_string(), sha256_hex(path)?);
+    }
+    let settings = EngineSettings {
+        population: job.settings.population,
+        max_evaluations: options
+            .max_evaluations
+            .unwrap_or(job.settings.max_evaluations as u64),
+        time_budget_s: options
+            .time_budget_s
+            .or(job.settings.time_budget.map(|d| d.as_secs_f64())),
+        target_objective: job.settings.target_objective,
+        stagnation_generations: job.settings.stagnation_generations as u64,
+        seed: job.settings.seed,
+        local_refinement: job.settings.local_refinement,
+        local_max_evaluations: job.settings.local_max_evaluations as u64,
+    };
+    let (state, resumed_from) = if options.resume {
+        let record_text = std::fs::read_to_string(dir.record())
+            .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
+        let record: RunRecord = toml::from_str(&record_text).map_err(|e| RunError::Corrupt {
+            path: dir.record(),
+            problem: e.to_string(),
+        })?;
+        for (path, hash) in &record.data_sha256 {
+            if hashes.get(path).is_some_and(|now| now != hash) {
+                return Err(RunError::Changed(path.clone()));
+            }
+        }
+        job.settings.seed = record.seed;
+        let bytes = std::fs::read(dir.checkpoint())
+            .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
+        let state: EngineState = serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
+            path: dir.checkpoint(),
+            problem: e.to_string(),
+        })?;
+        trim_progress(&dir, state.iteration)?;
+        let iteration = state.iteration;
+        (state, Some(iteration))
+    } else {
+        if dir.root.exists() {
+            return Err(RunError::Exists(dir.root.clone()));
+        }
+        std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
+        write_atomically(&dir.job(), job_text.as_bytes())
+            .map_err(io("cannot write", &dir.job()))?;
+        let record = RunRecord {
+            name: name.clone(),
+            title: job.title.clone(),
+            job_path: job_path.display().to_string(),
+            emberfit_version: env!("CARGO_PKG_VERSION").to_string(),
+            started: humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string(),
+            seed: job.settings.seed,
+            threads: options.threads,
+            data_sha256: hashes.clone(),
+        };
+        let text = toml::to_string(&record).map_err(|e| RunError::Corrupt {
+            path: dir.record(),
+            problem: e.to_string(),
+        })?;
+        write_atomically(&dir.record(), text.as_bytes())
+            .map_err(io("cannot write", &dir.record()))?;
+        (initial_state(&job.parameters, &settings), None)
+    };
+    let settings = EngineSettings {
+        seed: job.settings.seed,
+        ..settings
+    };
+    let provenance = Provenance {
+        job: job_path.display().to_string(),
+        emberfit_version: env!("CARGO_PKG_VERSION").to_string(),
+        date: humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string(),
+        objective: f64::NAN,
+        data_sha256: hashes.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
+    };
+    let mut recorder = Recorder {
+        dir: &dir,
+        writer: ProgressWriter::append_to(&dir.progress())
+            .map_err(io("cannot open", &dir.progress()))?,
+        job: &job,
+        start_text: &start_text,
+        provenance: provenance.clone(),
+        stop,
+        pause,
+        best_written: f64::INFINITY,
+        io_error: None,
+        last_best: None,
+    };
+    recorder.write_event(&ProgressEvent::Started {
+        format_version: FORMAT_VERSION,
+        title: job.title.clone(),
+        seed: settings.seed,
+        threads: options.threads,
+        parameters: job
+            .parameters
+            .iter()
+            .map(|p| ParameterInfo {
+                name: p.name.clone(),
+                unit: p.unit.clone(),
+                lower: p.lower,
+                upper: p.upper,
+                log_scale: p.scale == crate::fit::parameters::Scale::Log,
+            })
+            .collect(),
+        cases: job
+            .cases
+            .iter()
+            .map(|c| {
+                (
+                    c.name.clone(),
+                    c.signals
+                        .iter()
+                        .map(|s| s.kind.name().to_string())
+                        .collect(),
+                )
+            })
+            .collect(),
+        max_evaluations: settings.max_evaluations,
+        time_budget_s: settings.time_budget_s,
+        resumed_from,
+    });
+    let model = CaseModel::new(&job);
+    let objective = Objective::new(&model, &job.cases);
+    let outcome = optimise(&objective, &settings, state, &mut recorder);
+    if let Some(err) = recorder.io_error.take() {
+        return Err(err);
+    }
+    let summary = finish(
+        &dir,
+        &job,
+        &start_text,
+        &objective,
+        &model,
+        &outcome,
+        &provenance,
+    )?;
+    recorder.write_event(&ProgressEvent::Finished {
+        reason: summary.reason.clone(),
+        best_cost: summary.objective,
+        evaluations: summary.evaluations,
+        elapsed_s: summary.elapsed_s,
+    });
+    Ok(FitReport {
+        directory: dir.root.clone(),
+        summary,
+    })
+}
+
+/// Keeps the progress lines up to the checkpoint's iteration (the killed process may have
+/// written a few more that the resumed run will write again).
+fn trim_progress(dir: &RunDirectory, iteration: u64) -> Result<(), RunError> {
+    let path = dir.progress();
+    let text = std::fs::read_to_string(&path).unwrap_or_default();
+    let mut kept = String::new();
+    for line in text.lines() {
+        let Ok(event) = serde_json::from_str::<ProgressEvent>(line) else {
+            continue; // a half-written last line
+        };
+        if event.iteration().is_some_and(|i| i > iteration)
+            || matches!(event, ProgressEvent::Finished { .. })
+        {
+            continue;
+        }
+        kept.push_str(line);
+        kept.push('\n');
+    }
+    write_atomically(&path, kept.as_bytes()).map_err(io("cannot rewrite", &path))
+}
+
+fn finish(
+    dir: &RunDirectory,
+    job: &FitJob,
+    start_text: &str,
+    objective: &Objective<'_, CaseModel<'_>>,
+    model: &CaseModel<'_>,
+    outcome: &Outcome,
+    provenance: &Provenance,
+) -> Result<RunSummary, RunError> {
+    let analysis = analyse(objective, &outcome.best_values);
+    let (analysis, problem) = match analysis {
+        Ok(a) => (Some(a), None),
+        Err(e) => (None, Some(e.to_string())),
+    };
+    write_best_model(
+        dir,
+        job,
+        start_text,
+        &outcome.best_values,
+        analysis.as_ref(),
+        outcome.best.cost,
+        provenance,
+    )?;
+    write_case_curves(dir, job, model, &outcome.best_values)?;
+    let parameters: Vec<SummaryParameter> = job
+        .parameters
+        .iter()
+        .enumerate()
+        .map(|(i, p)| {
+            let estimate = analysis.as_ref().map(|a| &a.estimates[i]);
+            SummaryParameter {
+                name: p.name.clone(),
+                unit: p.unit.clone(),
+                value: outcome.best_values[i],
+                lower_bound: p.lower,
+                upper_bound: p.upper,
+                log_scale: p.scale == crate::fit::parameters::Scale::Log,
+                lower_95: estimate.map(|e| e.interval_95.0).filter(|v| v.is_finite()),
+                upper_95: estimate.map(|e| e.interval_95.1).filter(|v| v.is_finite()),
+                standard_error_fit_space: estimate
+                    .map(|e| e.standard_error_fit_space)
+                    .filter(|v| v.is_finite()),
+                warnings: estimate.map_or_else(Vec::new, |e| {
+                    e.warnings.iter().map(|w| w.to_string()).collect()
+                }),
+            }
+        })
+        .collect();
+    write_parameters_csv(dir, &parameters)?;
+    let summary = RunSummary {
+        title: job.title.clone(),
+        reason: outcome
+            .state
+            .stop_reason
+            .clone()
+            .unwrap_or_else(|| "finished".into()),
+        objective: outcome.best.cost,
+        parts: outcome
+            .best
+            .parts
+            .iter()
+            .map(|p| PartInfo {
+                case: p.case.clone(),
+                signal: p.signal.clone(),
+                cost: p.cost,
+            })
+            .collect(),
+        prior_cost: outcome.best.prior_cost,
+        evaluations: outcome.state.evaluations,
+        elapsed_s: outcome.state.elapsed_s,
+        parameters,
+        correlation: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.correlation.clone()),
+        n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
+        residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
+        singular_values: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.singular_values.clone()),
+        identifiability_problem: problem,
+    };
+    let bytes = serde_json::to_vec_pretty(&summary).map_err(|e| RunError::Corrupt {
+        path: dir.summary(),
+        problem: e.to_string(),
+    })?;
+    write_atomically(&dir.summary(), &bytes).map_err(io("cannot write", &dir.summary()))?;
+    Ok(summary)
+}
+
+fn write_parameters_csv(
+    dir: &RunDirectory,
+    parameters: &[SummaryParameter],
+) -> Result<(), RunError> {
+    let mut writer = csv::Writer::from_writer(Vec::new());
+    let fmt = |v: Option<f64>| v.map_or(String::new(), |v| format!("{v:.6e}"));
+    let path = dir.parameters_csv();
+    let csv_error = |e: csv::Error| RunError::Corrupt {
+        path: path.clone(),
+        problem: e.to_string(),
+    };
+    writer
+        .write_record([
+            "parameter",
+            "unit",
+            "value",
+            "lower_95",
+            "upper_95",
+            "lower_bound",
+            "upper_bound",
+            "scale",
+            "warnings",
+        ])
+        .map_err(csv_error)?;
+    for p in parameters {
+        writer
+            .write_record([
+                p.name.clone(),
+                p.unit.clone(),
+                format!("{:.6e}", p.value),
+                fmt(p.lower_95),
+                fmt(p.upper_95),
+                format!("{}", p.lower_bound),
+                format!("{}", p.upper_bound),
+                if p.log_scale {
+                    "log".into()
+                } else {
+                    "linear".into()
+                },
+                p.warnings.join("; "),
+            ])
+            .map_err(csv_error)?;
+    }
+    let bytes = writer.into_inner().map_err(|e| RunError::Corrupt {
+        path: path.clone(),
+        problem: e.to_string(),
+    })?;
+    write_atomically(&path, &bytes).map_err(io("cannot write", &path))
+}
+
+/// One CSV per case and signal: time, measured, σ, model, standardised residual.
+fn write_case_curves(
+    dir: &RunDirectory,
+    job: &FitJob,
+    model: &CaseModel<'_>,
+    values: &[f64],
+) -> Result<(), RunError> {
+    std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.cases()))?;
+    for case in &job.cases {
+        let Ok(history) = model.simulate_case(case, values) else {
+            continue;
+        };
+        for signal in &case.signals {
+            let modelled =
+                model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
+            let mut text = String::from("time_s,measured,sigma,model,residual\n");
+            for (((time_s, measured), sigma), model) in signal
+                .time_s
+                .iter()
+                .zip(&signal.value)
+                .zip(&signal.sigma)
+                .zip(&modelled)
+            {
+                let residual = (model - measured) / sigma;
+                text.push_str(&format!(
+                    "{time_s:.3},{measured:.6},{sigma:.6},{model:.6},{residual:.6}\n"
+                ));
+            }
+            let path =
+                dir.cases()
+                    .join(format!("{}--{}.csv", slug(&case.name), signal.kind.name()));
+            write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))?;
+        }
+    }
+    Ok(())
+}
