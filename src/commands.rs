@@ -815,7 +815,14 @@ mod milligram {
                 args.scenario.display()
             );
         }
-        let scenario = load_milligram_scenario(&args.scenario).context("loading the scenario")?;
+        let mut scenario =
+            load_milligram_scenario(&args.scenario).context("loading the scenario")?;
+        if let Some(material) = &args.material {
+            let model = emberfit::case::load_material(material).context("loading the material")?;
+            scenario
+                .use_material(material, model)
+                .with_context(|| format!("using {} for the sample", material.display()))?;
+        }
         let history = simulate_programme(&scenario)
             .with_context(|| format!("simulating {}", scenario.path.display()))?;
         if let Some(out) = &args.out {

@@ -109,6 +109,46 @@ pub struct MilligramScenario {
     pub settings: ZeroDSettings,
 }
 
+impl MilligramScenario {
+    /// Replaces the material (e.g. with a fit's best.toml), keeping the initial composition by
+    /// component name; an error names a component of the composition that the new material
+    /// lacks.
+    pub fn use_material(
+        &mut self,
+        path: &Path,
+        model: MaterialModel,
+    ) -> Result<(), MicroscaleError> {
+        let mut fractions = vec![0.0; model.material.components.len()];
+        for (component, &fraction) in self
+            .material
+            .material
+            .components
+            .iter()
+            .zip(&self.initial_mass_fractions)
+        {
+            if fraction == 0.0 {
+                continue;
+            }
+            let idx = model
+                .material
+                .component_index(&component.name)
+                .ok_or_else(|| {
+                    MicroscaleError::analysis(format!(
+                        "{} has no component `{}`, which makes up {fraction} of the sample in {}",
+                        path.display(),
+                        component.name,
+                        self.path.display()
+                    ))
+                })?;
+            fractions[idx] = fraction;
+        }
+        self.material = model;
+        self.material_path = path.to_path_buf();
+        self.initial_mass_fractions = fractions;
+        Ok(())
+    }
+}
+
 /// Whether this TOML text is a milligram-scale scenario: it has a top-level `[programme]`
 /// table. Text that is not TOML is not one (the caller's own loader reports its error).
 pub fn is_milligram_scenario_text(text: &str) -> bool {
@@ -425,6 +465,41 @@ mod tests {
                 && message.contains("numerics.integrator")
                 && message.contains("euler"),
             "{message}"
+        );
+    }
+
+    #[test]
+    fn a_replacement_material_keeps_the_composition_by_name() {
+        let text = scenario_text("[[programme.step]]\nramp_k_min = 10.0\nto_k = 900.0\n");
+        let mut scenario = milligram_scenario_from_str(&here(), &text).unwrap();
+        let material = |name: &str| {
+            crate::case::material::material_from_str(
+                Path::new("new.toml"),
+                &format!(
+                    "title = \"t\"\nheat_of_combustion_mj_kg = 20.0\n[[component]]\n\
+                     name = \"{name}\"\ndensity_kg_m3 = 1000.0\nconductivity_w_m_k = 0.2\n\
+                     specific_heat_j_kg_k = 1500.0\nemissivity = 0.9\n[[reaction]]\n\
+                     from = \"{name}\"\npre_exponential_per_s = 1.0e12\n\
+                     activation_energy_kj_mol = 180.0\nheat_of_reaction_kj_kg = 500.0\n"
+                ),
+            )
+            .unwrap()
+        };
+        let message = scenario
+            .use_material(Path::new("new.toml"), material("other"))
+            .unwrap_err()
+            .to_string();
+        assert!(
+            message.contains("new.toml") && message.contains("`virgin`"),
+            "{message}"
+        );
+        scenario
+            .use_material(Path::new("new.toml"), material("virgin"))
+            .unwrap();
+        assert_eq!(scenario.initial_mass_fractions, vec![1.0]);
+        assert_eq!(
+            scenario.material.material.reactions[0].pre_exponential_per_s,
+            1.0e12
         );
     }
 
