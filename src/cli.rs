@@ -110,6 +110,7 @@ pub enum Command {
     ///   emberfit isoconversional tga/run_5k.csv tga/run_10k.csv tga/run_20k.csv
     ///   emberfit isoconversional tga/*.csv --from 0.05 --to 0.95 --step 0.05 --fit
     ///   emberfit isoconversional tga/*.csv --json > kinetics.json
+    ///   emberfit isoconversional tga/*.csv --out e-against-alpha.csv
     #[command(verbatim_doc_comment)]
     Isoconversional(IsoconversionalArgs),
 }
@@ -164,6 +165,10 @@ pub struct IsoconversionalArgs {
     /// Also fit one n-th order reaction (A, E, n) to all runs, starting from Kissinger's E and A.
     #[arg(long)]
     pub fit: bool,
+    /// Write E against conversion for the three methods to this CSV file (kJ/mol, standard
+    /// error, R²; one row per conversion).
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: Option<PathBuf>,
     /// Print the results as one JSON object instead of tables.
     #[arg(long)]
     pub json: bool,

@@ -951,6 +951,10 @@ mod milligram {
                 );
             }
         }
+        if let Some(out) = &args.out {
+            write_atomically(out, profile_csv(&conversions, &report).as_bytes())
+                .with_context(|| format!("writing {}", out.display()))?;
+        }
         if args.json {
             println!("{}", report_json(&runs, &report, fit.as_ref(), &predicted));
         } else {
@@ -1010,6 +1014,43 @@ mod milligram {
             })),
             "warnings": report.warnings,
         })
+    }
+
+    /// E against conversion as CSV: `conversion`, then `<method>_e_kj_mol`,
+    /// `<method>_se_kj_mol`, `<method>_r2` for each method; blank where a method has no value.
+    fn profile_csv(conversions: &[f64], report: &IsoconversionalReport) -> String {
+        let mut out = String::from("conversion");
+        for (method, _) in &report.profiles {
+            let name = method.name();
+            out.push_str(&format!(",{name}_e_kj_mol,{name}_se_kj_mol,{name}_r2"));
+        }
+        out.push('\n');
+        let cell = |v: f64, decimals: usize| {
+            if v.is_finite() {
+                format!("{v:.decimals$}")
+            } else {
+                String::new()
+            }
+        };
+        for &conversion in conversions {
+            out.push_str(&format!("{conversion:.4}"));
+            for (_, points) in &report.profiles {
+                match points
+                    .iter()
+                    .find(|p| (p.conversion - conversion).abs() < 1e-12)
+                {
+                    Some(p) => out.push_str(&format!(
+                        ",{},{},{}",
+                        cell(p.activation_energy_j_mol * 1e-3, 3),
+                        cell(p.standard_error_j_mol * 1e-3, 3),
+                        cell(p.r_squared, 6)
+                    )),
+                    None => out.push_str(",,,"),
+                }
+            }
+            out.push('\n');
+        }
+        out
     }
 
     /// JSON has no NaN: a standard error that two runs cannot give becomes null.

@@ -469,10 +469,13 @@ fn isoconversional_command_reads_lab_style_files_and_recovers_e() {
         std::fs::write(&path, text).unwrap();
         files.push(path);
     }
+    let table = dir.join("e.csv");
     let output = emberfit()
         .arg("isoconversional")
         .args(&files)
         .arg("--json")
+        .arg("--out")
+        .arg(&table)
         .output()
         .unwrap();
     assert!(
@@ -492,6 +495,19 @@ fn isoconversional_command_reads_lab_style_files_and_recovers_e() {
         .unwrap();
     assert!((kissinger_kj - 210.0).abs() < 2.1, "{kissinger_kj}");
     assert!(report["warnings"].as_array().unwrap().is_empty());
+    let csv = std::fs::read_to_string(&table).unwrap();
+    let mut lines = csv.lines();
+    assert_eq!(
+        lines.next().unwrap(),
+        "conversion,friedman_e_kj_mol,friedman_se_kj_mol,friedman_r2,kas_e_kj_mol,\
+         kas_se_kj_mol,kas_r2,ofw_e_kj_mol,ofw_se_kj_mol,ofw_r2"
+    );
+    for line in lines {
+        let cells: Vec<f64> = line.split(',').map(|c| c.parse().unwrap()).collect();
+        for e_kj in [cells[1], cells[4], cells[7]] {
+            assert!((e_kj - 210.0).abs() < 2.1, "{line}");
+        }
+    }
     std::fs::remove_dir_all(&dir).ok();
 }
 
