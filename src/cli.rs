@@ -24,6 +24,9 @@ pub enum Command {
     /// balance) and writes a CSV with one row per output interval.
     ///
     /// Example: emberfit simulate demo-cases/ridgeline-panel/scenario.toml --flux 35 --out run.csv
+    ///
+    /// A milligram-scale scenario (one with a [programme] table: a heating programme instead of
+    /// an irradiance) runs the 0-D TGA/DSC/MCC model; see docs/milligram-scale.md.
     Simulate(SimulateArgs),
     /// Make measured-like test data from a scenario: the simulated mass and HRR as a cone
     /// calorimeter would log them, with load-cell noise, HRR noise and a start-time offset.
@@ -87,6 +90,29 @@ pub enum Command {
     ///   emberfit ignition ignition-pmma.toml
     #[command(verbatim_doc_comment)]
     Ignition(IgnitionArgs),
+    /// Model-free kinetics from TGA (or MCC) runs at several heating rates
+    ///
+    /// Reads two or more files (a row of column names, a row of units such as [s], [K] or
+    /// [°C], and [mg], [g/g] or [%] for TGA, [W/g] for MCC), turns each into conversion α
+    /// against temperature, and estimates the activation energy E at each conversion:
+    ///
+    ///   friedman  ln(dα/dt) against 1/T at fixed α; slope −E/R (no approximation)
+    ///   kas       Kissinger–Akahira–Sunose: ln(β/T²) against 1/T; slope −E/R
+    ///   ofw       Ozawa–Flynn–Wall: ln β against 1/T; slope −1.052·E/R (Doyle)
+    ///
+    /// with R² and the standard error of E at each α, and Kissinger's E and A from the
+    /// rate-peak temperatures. When E varies by more than --max-spread of its mean, one
+    /// single-step reaction cannot describe the data, and a warning says so (ICTAC Kinetics
+    /// Committee, Vyazovkin et al. 2011). β is each run's measured heating rate while it
+    /// reacts, not the nominal one.
+    ///
+    /// Examples:
+    ///   emberfit isoconversional tga/run_5k.csv tga/run_10k.csv tga/run_20k.csv
+    ///   emberfit isoconversional tga/*.csv --from 0.05 --to 0.95 --step 0.05 --fit
+    ///   emberfit isoconversional tga/*.csv --json > kinetics.json
+    ///   emberfit isoconversional tga/*.csv --out e-against-alpha.csv
+    #[command(verbatim_doc_comment)]
+    Isoconversional(IsoconversionalArgs),
 }
 
 #[derive(Debug, clap::Args)]
@@ -117,6 +143,35 @@ pub struct SynthesizeArgs {
     /// Output CSV (`time_s,mass_g,hrr_kw_m2`).
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct IsoconversionalArgs {
+    /// TGA or MCC files, one run each, at two or more heating rates.
+    #[arg(required = true, num_args = 2.., value_name = "FILE.csv")]
+    pub files: Vec<PathBuf>,
+    /// First conversion analysed, 0..1.
+    #[arg(long, default_value_t = 0.1, value_name = "ALPHA")]
+    pub from: f64,
+    /// Last conversion analysed, 0..1.
+    #[arg(long, default_value_t = 0.9, value_name = "ALPHA")]
+    pub to: f64,
+    /// Step between analysed conversions.
+    #[arg(long, default_value_t = 0.05, value_name = "ALPHA")]
+    pub step: f64,
+    /// Warn when (max E − min E)/mean E exceeds this, percent (ICTAC: 10–20 % is significant).
+    #[arg(long, default_value_t = 20.0, value_name = "PERCENT")]
+    pub max_spread: f64,
+    /// Also fit one n-th order reaction (A, E, n) to all runs, starting from Kissinger's E and A.
+    #[arg(long)]
+    pub fit: bool,
+    /// Write E against conversion for the three methods to this CSV file (kJ/mol, standard
+    /// error, R²; one row per conversion).
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: Option<PathBuf>,
+    /// Print the results as one JSON object instead of tables.
+    #[arg(long)]
+    pub json: bool,
 }
 
 #[derive(Debug, clap::Args)]

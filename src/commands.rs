@@ -25,6 +25,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Fit(args) => fit(args),
         Command::Reduce(args) => reduce(*args),
         Command::Ignition(args) => ignition(args),
+        Command::Isoconversional(args) => milligram::isoconversional(args),
     }
 }
 
@@ -243,6 +244,9 @@ fn check_duration(duration_s: f64) -> Result<()> {
 }
 
 fn simulate(args: SimulateArgs) -> Result<()> {
+    if emberfit::microscale::is_milligram_scenario(&args.scenario) {
+        return milligram::simulate(args);
+    }
     let mut loaded = load_scenario(&args.scenario).context("loading the scenario")?;
     if let Some(material) = &args.material {
         let model = emberfit::case::load_material(material).context("loading the material")?;
@@ -799,4 +803,356 @@ fn ignition_table(analysis: &IgnitionAnalysis) -> String {
         out.push_str(&format!("warning: {w}\n"));
     }
     out
+}
+
+/// The milligram-scale commands: `simulate` on a scenario with a `[programme]`, and
+/// `isoconversional`.
+mod milligram {
+    use anyhow::{bail, Context, Result};
+
+    use emberfit::export::write_atomically;
+    use emberfit::microscale::fit::predicted_peak_temperature_k;
+    use emberfit::microscale::isoconversional::{analyse, IsoconversionalReport};
+    use emberfit::microscale::{
+        fit_single_step, load_milligram_scenario, read_thermogram, simulate_programme, zero_d_csv,
+        ConversionRun, SingleStepFit,
+    };
+    use emberfit::physics::zero_d::ZeroDHistory;
+
+    use crate::cli::{IsoconversionalArgs, SimulateArgs};
+
+    pub fn simulate(args: SimulateArgs) -> Result<()> {
+        if args.flux.is_some() {
+            bail!(
+                "--flux does not apply to {}: it is a milligram-scale scenario (a heating \
+                 programme, no irradiance)",
+                args.scenario.display()
+            );
+        }
+        if args.duration.is_some() {
+            bail!(
+                "--duration does not apply to {}: the heating programme sets the duration",
+                args.scenario.display()
+            );
+        }
+        let mut scenario =
+            load_milligram_scenario(&args.scenario).context("loading the scenario")?;
+        if let Some(material) = &args.material {
+            let model = emberfit::case::load_material(material).context("loading the material")?;
+            scenario
+                .use_material(material, model)
+                .with_context(|| format!("using {} for the sample", material.display()))?;
+        }
+        let history = simulate_programme(&scenario)
+            .with_context(|| format!("simulating {}", scenario.path.display()))?;
+        if let Some(out) = &args.out {
+            let bytes = zero_d_csv(&history).context("formatting the curves")?;
+            write_atomically(out, &bytes).with_context(|| format!("writing {}", out.display()))?;
+        }
+        let summary = Summary::of(&history);
+        if args.json {
+            println!(
+                "{}",
+                serde_json::json!({
+                    "peak_mlr_per_s": summary.peak_rate_per_s,
+                    "peak_mlr_temperature_k": summary.peak_temperature_k,
+                    "final_mass_fraction": summary.final_mass_fraction,
+                    "dsc_heat_j_g": summary.dsc_j_g,
+                    "mcc_heat_j_g": summary.mcc_j_g,
+                    "steps": history.n_steps,
+                })
+            );
+        } else {
+            println!("{}", scenario.title);
+            println!(
+                "  {:<20} {:.3e} 1/s ({:.2} %/min) at {:.1} K",
+                "peak mass-loss rate",
+                summary.peak_rate_per_s,
+                summary.peak_rate_per_s * 6000.0,
+                summary.peak_temperature_k
+            );
+            println!(
+                "  {:<20} {:.4}",
+                "final mass fraction", summary.final_mass_fraction
+            );
+            println!("  {:<20} {:.1} J/g", "DSC heat", summary.dsc_j_g);
+            println!(
+                "  {:<20} {:.2} kJ/g",
+                "MCC heat release",
+                summary.mcc_j_g * 1e-3
+            );
+            println!("  {:<20} {}", "steps", history.n_steps);
+            if let Some(out) = &args.out {
+                println!(
+                    "curves written to {} ({} rows)",
+                    out.display(),
+                    history.time_s.len()
+                );
+            }
+        }
+        Ok(())
+    }
+
+    struct Summary {
+        peak_rate_per_s: f64,
+        peak_temperature_k: f64,
+        final_mass_fraction: f64,
+        dsc_j_g: f64,
+        mcc_j_g: f64,
+    }
+
+    impl Summary {
+        fn of(history: &ZeroDHistory) -> Self {
+            let (_, peak_temperature_k, peak_rate_per_s) = history
+                .mass_loss_rate_peak()
+                .unwrap_or((0.0, f64::NAN, 0.0));
+            let integral = |values: &[f64]| -> f64 {
+                history
+                    .time_s
+                    .windows(2)
+                    .zip(values.windows(2))
+                    .map(|(t, v)| 0.5 * (t[1] - t[0]) * (v[0] + v[1]))
+                    .sum()
+            };
+            Summary {
+                peak_rate_per_s,
+                peak_temperature_k,
+                final_mass_fraction: history.mass_fraction.last().copied().unwrap_or(1.0),
+                dsc_j_g: integral(&history.dsc_w_g),
+                mcc_j_g: integral(&history.mcc_w_g),
+            }
+        }
+    }
+
+    pub fn isoconversional(args: IsoconversionalArgs) -> Result<()> {
+        let is_fraction = |v: f64| (0.0..=1.0).contains(&v);
+        if !(is_fraction(args.from) && is_fraction(args.to) && args.from < args.to) {
+            bail!(
+                "--from and --to must satisfy 0 ≤ from < to ≤ 1, got {} and {}",
+                args.from,
+                args.to
+            );
+        }
+        if !(args.step > 0.0 && args.step <= args.to - args.from) {
+            bail!(
+                "--step must be > 0 and at most to − from ({}), got {}",
+                args.to - args.from,
+                args.step
+            );
+        }
+        if !(args.max_spread > 0.0 && args.max_spread.is_finite()) {
+            bail!("--max-spread must be > 0 %, got {}", args.max_spread);
+        }
+        let n_steps = ((args.to - args.from) / args.step + 1e-9).floor() as usize;
+        let conversions: Vec<f64> = (0..=n_steps)
+            .map(|idx| args.from + idx as f64 * args.step)
+            .collect();
+        let mut runs = Vec::with_capacity(args.files.len());
+        for path in &args.files {
+            let thermogram = read_thermogram(path).context("reading a run")?;
+            for notice in &thermogram.notices {
+                eprintln!("note: {notice}");
+            }
+            runs.push(ConversionRun::from_thermogram(&thermogram).context("preparing a run")?);
+        }
+        let report = analyse(&runs, &conversions, args.max_spread / 100.0)
+            .context("isoconversional analysis")?;
+        let fit = if args.fit {
+            Some(fit_single_step(&runs, true).context("fitting one reaction")?)
+        } else {
+            None
+        };
+        let mut predicted = Vec::new();
+        if let Some(fit) = &fit {
+            for run in &runs {
+                predicted.push(
+                    predicted_peak_temperature_k(fit, run.heating_rate_k_s)
+                        .context("simulating the fitted reaction")?,
+                );
+            }
+        }
+        if let Some(out) = &args.out {
+            write_atomically(out, profile_csv(&conversions, &report).as_bytes())
+                .with_context(|| format!("writing {}", out.display()))?;
+        }
+        if args.json {
+            println!("{}", report_json(&runs, &report, fit.as_ref(), &predicted));
+        } else {
+            print!("{}", report_table(&runs, &report, fit.as_ref(), &predicted));
+        }
+        for warning in &report.warnings {
+            eprintln!("warning: {warning}");
+        }
+        Ok(())
+    }
+
+    fn report_json(
+        runs: &[ConversionRun],
+        report: &IsoconversionalReport,
+        fit: Option<&SingleStepFit>,
+        predicted: &[f64],
+    ) -> serde_json::Value {
+        let methods: serde_json::Map<String, serde_json::Value> = report
+            .profiles
+            .iter()
+            .map(|(method, points)| {
+                let rows: Vec<serde_json::Value> = points
+                    .iter()
+                    .map(|p| {
+                        serde_json::json!({
+                            "conversion": p.conversion,
+                            "activation_energy_kj_mol": p.activation_energy_j_mol * 1e-3,
+                            "standard_error_kj_mol": finite(p.standard_error_j_mol * 1e-3),
+                            "r_squared": p.r_squared,
+                            "runs": p.n_runs,
+                        })
+                    })
+                    .collect();
+                (method.name().to_string(), serde_json::Value::Array(rows))
+            })
+            .collect();
+        let k = &report.kissinger;
+        serde_json::json!({
+            "runs": runs.iter().zip(&k.peaks).map(|(run, peak)| serde_json::json!({
+                "file": run.label,
+                "heating_rate_k_min": run.heating_rate_k_s * 60.0,
+                "peak_temperature_k": peak.1,
+            })).collect::<Vec<_>>(),
+            "methods": methods,
+            "kissinger": {
+                "activation_energy_kj_mol": k.activation_energy_j_mol * 1e-3,
+                "standard_error_kj_mol": finite(k.standard_error_j_mol * 1e-3),
+                "pre_exponential_per_s": k.pre_exponential_per_s,
+                "r_squared": k.r_squared,
+            },
+            "single_step_fit": fit.map(|f| serde_json::json!({
+                "pre_exponential_per_s": f.pre_exponential_per_s,
+                "activation_energy_kj_mol": f.activation_energy_j_mol * 1e-3,
+                "order": f.order,
+                "rms_conversion_error": f.rms_conversion_error,
+                "predicted_peak_temperatures_k": predicted,
+            })),
+            "warnings": report.warnings,
+        })
+    }
+
+    /// E against conversion as CSV: `conversion`, then `<method>_e_kj_mol`,
+    /// `<method>_se_kj_mol`, `<method>_r2` for each method; blank where a method has no value.
+    fn profile_csv(conversions: &[f64], report: &IsoconversionalReport) -> String {
+        let mut out = String::from("conversion");
+        for (method, _) in &report.profiles {
+            let name = method.name();
+            out.push_str(&format!(",{name}_e_kj_mol,{name}_se_kj_mol,{name}_r2"));
+        }
+        out.push('\n');
+        let cell = |v: f64, decimals: usize| {
+            if v.is_finite() {
+                format!("{v:.decimals$}")
+            } else {
+                String::new()
+            }
+        };
+        for &conversion in conversions {
+            out.push_str(&format!("{conversion:.4}"));
+            for (_, points) in &report.profiles {
+                match points
+                    .iter()
+                    .find(|p| (p.conversion - conversion).abs() < 1e-12)
+                {
+                    Some(p) => out.push_str(&format!(
+                        ",{},{},{}",
+                        cell(p.activation_energy_j_mol * 1e-3, 3),
+                        cell(p.standard_error_j_mol * 1e-3, 3),
+                        cell(p.r_squared, 6)
+                    )),
+                    None => out.push_str(",,,"),
+                }
+            }
+            out.push('\n');
+        }
+        out
+    }
+
+    /// JSON has no NaN: a standard error that two runs cannot give becomes null.
+    fn finite(value: f64) -> Option<f64> {
+        value.is_finite().then_some(value)
+    }
+
+    fn report_table(
+        runs: &[ConversionRun],
+        report: &IsoconversionalReport,
+        fit: Option<&SingleStepFit>,
+        predicted: &[f64],
+    ) -> String {
+        let mut out = String::new();
+        out.push_str("runs\n");
+        for (idx, (run, peak)) in runs.iter().zip(&report.kissinger.peaks).enumerate() {
+            out.push_str(&format!(
+                "  {:>2}  {:>7.2} K/min  peak {:>6.1} K  {}\n",
+                idx + 1,
+                run.heating_rate_k_s * 60.0,
+                peak.1,
+                run.label
+            ));
+        }
+        let error = |se: f64| {
+            if se.is_finite() {
+                format!("{:>6.1}", se * 1e-3)
+            } else {
+                format!("{:>6}", "-")
+            }
+        };
+        for (method, points) in &report.profiles {
+            out.push_str(&format!(
+                "\n{}: E against conversion (kJ/mol, ± standard error, R²)\n",
+                method.name()
+            ));
+            out.push_str("   alpha       E     ±      R²  runs\n");
+            for p in points {
+                out.push_str(&format!(
+                    "  {:>6.3} {:>7.1} {} {:>7.4} {:>5}\n",
+                    p.conversion,
+                    p.activation_energy_j_mol * 1e-3,
+                    error(p.standard_error_j_mol),
+                    p.r_squared,
+                    p.n_runs
+                ));
+            }
+        }
+        let k = &report.kissinger;
+        out.push_str(&format!(
+            "\nkissinger (peak temperatures): E {:.1} ± {} kJ/mol, A {:.3e} 1/s, R² {:.4}\n",
+            k.activation_energy_j_mol * 1e-3,
+            error(k.standard_error_j_mol).trim(),
+            k.pre_exponential_per_s,
+            k.r_squared
+        ));
+        if let Some(fit) = fit {
+            out.push_str(&format!(
+                "single-step fit: A {:.4e} 1/s, E {:.2} kJ/mol, order {:.3}, rms conversion \
+                 error {:.4}\n",
+                fit.pre_exponential_per_s,
+                fit.activation_energy_j_mol * 1e-3,
+                fit.order,
+                fit.rms_conversion_error
+            ));
+            out.push_str(&format!(
+                "  as a [[reaction]] of a material file (docs/file-formats.md):\n    \
+                 pre_exponential_per_s = {:.4e}\n    activation_energy_kj_mol = {:.2}\n    \
+                 order = {:.3}\n",
+                fit.pre_exponential_per_s,
+                fit.activation_energy_j_mol * 1e-3,
+                fit.order
+            ));
+            for ((run, peak), model_k) in runs.iter().zip(&k.peaks).zip(predicted) {
+                out.push_str(&format!(
+                    "  {:>7.2} K/min  peak measured {:.1} K, model {:.1} K\n",
+                    run.heating_rate_k_s * 60.0,
+                    peak.1,
+                    model_k
+                ));
+            }
+        }
+        out
+    }
 }

@@ -6,6 +6,7 @@ pub mod data;
 pub mod export;
 pub mod fit;
 pub mod headless;
+pub mod microscale;
 pub mod physics;
 pub mod run;
 pub mod synthetic;

@@ -7,6 +7,7 @@ pub mod material;
 pub mod output;
 pub mod scenario;
 pub mod solver;
+pub mod zero_d;
 
 pub use output::{History, Sample, Summary};
 pub use scenario::Scenario;
