@@ -36,8 +36,7 @@ pub enum Command {
     ///
     /// Example: emberfit synthesize demo-cases/ridgeline-panel/scenario.toml --flux 25 --seed 3 --out test-25.csv
     Synthesize(SynthesizeArgs),
-    /// Fit a material model to several tests at once and say how well each parameter is
-    /// determined.
+    /// Fit a material model to several tests at once, with the uncertainty of each parameter
     ///
     /// Reads a fit job (docs/fit-jobs.md): the starting material and scenario, the free
     /// parameters with bounds, the cases (test data and the signals to match). Runs a parallel
