@@ -4,6 +4,7 @@ mod cli;
 mod data;
 mod fit;
 mod microscale;
+mod pmma_fit;
 mod properties;
 mod util;
 mod verification;
