@@ -7,5 +7,6 @@ pub mod export;
 pub mod fit;
 pub mod headless;
 pub mod physics;
+pub mod predict;
 pub mod run;
 pub mod synthetic;

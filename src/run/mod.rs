@@ -131,6 +131,10 @@ pub struct RunSummary {
     pub elapsed_s: f64,
     pub parameters: Vec<SummaryParameter>,
     pub correlation: Vec<Vec<f64>>,
+    /// Covariance in fit space (the value, or log10 of it on a log scale), row-major; what
+    /// `predict` draws parameter sets from. Empty when the analysis could not be done.
+    #[serde(default)]
+    pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
     pub residual_variance: f64,
     pub singular_values: Vec<f64>,
@@ -630,6 +634,9 @@ fn finish(
         correlation: analysis
             .as_ref()
             .map_or_else(Vec::new, |a| a.correlation.clone()),
+        covariance: analysis
+            .as_ref()
+            .map_or_else(Vec::new, |a| a.covariance.clone()),
         n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
         residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
         singular_values: analysis
