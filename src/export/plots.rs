@@ -310,12 +310,13 @@ fn draw_heat_map<DB: DrawingBackend>(
         .margin(14)
         .x_label_area_size(40)
         .y_label_area_size(40)
-        .build_cartesian_2d(0.0..n, 0.0..n)
+        .build_cartesian_2d(-0.5..n - 0.5, -0.5..n - 0.5)
         .map_err(e)?;
+    // Cells are centred on the integers, so the integer ticks name the cells.
     cc.configure_mesh()
         .disable_mesh()
-        .x_labels(p + 1)
-        .y_labels(p + 1)
+        .x_labels(p)
+        .y_labels(p)
         .x_label_formatter(&|x| label_of_centre(*x, p, false))
         .y_label_formatter(&|y| label_of_centre(*y, p, true))
         .x_desc("parameter (key at right)")
@@ -325,7 +326,7 @@ fn draw_heat_map<DB: DrawingBackend>(
         .map_err(e)?;
     for (i, row) in map.values.iter().enumerate() {
         for (j, &value) in row.iter().enumerate() {
-            let (x, y) = (j as f64, n - 1.0 - i as f64);
+            let (x, y) = (j as f64 - 0.5, n - 1.5 - i as f64);
             cc.draw_series(std::iter::once(Rectangle::new(
                 [(x, y), (x + 1.0, y + 1.0)],
                 diverging(value).filled(),
@@ -360,11 +361,11 @@ fn draw_heat_map<DB: DrawingBackend>(
     Ok(())
 }
 
-/// Axis tick text: the parameter number at a cell centre (ticks fall on the integers, so
-/// the number is shown at the tick just below the centre), blank elsewhere.
+/// Axis tick text: the parameter number at a cell centre (an integer position; rows count
+/// from the top), blank elsewhere.
 fn label_of_centre(position: f64, p: usize, is_vertical: bool) -> String {
-    let index = position.floor() as i64;
-    if (position - position.floor()).abs() > 1e-9 || index < 0 || index as usize >= p {
+    let index = position.round() as i64;
+    if (position - position.round()).abs() > 1e-6 || index < 0 || index as usize >= p {
         return String::new();
     }
     let number = if is_vertical {
@@ -372,7 +373,7 @@ fn label_of_centre(position: f64, p: usize, is_vertical: bool) -> String {
     } else {
         index as usize + 1
     };
-    format!("    {number}")
+    number.to_string()
 }
 
 fn write_figure(

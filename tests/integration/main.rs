@@ -3,6 +3,7 @@
 mod cli;
 mod data;
 mod fit;
+mod predict;
 mod properties;
 mod util;
 mod verification;
