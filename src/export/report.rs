@@ -177,13 +177,20 @@ pub fn escape(text: &str) -> String {
         .replace('"', "&quot;")
 }
 
+/// Five significant digits, scientific far from one.
 fn format_value(v: f64) -> String {
     if !v.is_finite() {
         "–".into()
     } else if v != 0.0 && (v.abs() >= 1e5 || v.abs() < 1e-3) {
         format!("{v:.4e}")
     } else {
-        format!("{v:.5}")
+        let magnitude = if v == 0.0 {
+            0
+        } else {
+            v.abs().log10().floor() as i32
+        };
+        let decimals = (4 - magnitude).max(0) as usize;
+        format!("{v:.decimals$}")
     }
 }
 
@@ -713,5 +720,13 @@ mod tests {
     #[test]
     fn html_escaping_covers_markup_characters() {
         assert_eq!(escape("a<b & \"c\">"), "a&lt;b &amp; &quot;c&quot;&gt;");
+    }
+
+    #[test]
+    fn values_show_five_significant_digits() {
+        assert_eq!(format_value(1097.3904), "1097.4");
+        assert_eq!(format_value(0.169001), "0.16900");
+        assert_eq!(format_value(2.81e13), "2.8100e13");
+        assert_eq!(format_value(0.0), "0.0000");
     }
 }
