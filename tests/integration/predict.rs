@@ -390,6 +390,33 @@ fn predict_writes_bands_and_quantity_distributions() {
         &run.dir,
         &["simulate", &scenario, "--material", &best, "--flux", "35"],
     );
+    // A plain material model has no uncertainty to draw from: an error that says so.
+    let plain = Command::new(env!("CARGO_BIN_EXE_emberfit"))
+        .current_dir(&run.dir)
+        .args(["predict"])
+        .arg(manifest().join(DEMO).join("material-true.toml"))
+        .args([&scenario, "--band", "95"])
+        .output()
+        .unwrap();
+    let message = String::from_utf8_lossy(&plain.stderr);
+    assert!(!plain.status.success());
+    assert!(
+        message.contains("material-true.toml has no [calibration] table"),
+        "{message}"
+    );
+    // best.toml copied away from its run loses the covariance: the standard errors are used
+    // with zero correlations, and a note says so.
+    let copied = run.dir.join("copied-best.toml");
+    std::fs::copy(run.run.join("best.toml"), &copied).unwrap();
+    let alone = CalibratedModel::load(&copied).unwrap();
+    assert_eq!(
+        alone.uncertainty.as_ref().unwrap().source,
+        CovarianceSource::StandardErrorsOnly
+    );
+    assert!(alone
+        .notes
+        .iter()
+        .any(|n| n.contains("correlations taken as zero")));
 }
 
 fn svg_texts(path: &Path) -> (Vec<String>, usize) {
