@@ -112,6 +112,120 @@ pub enum Command {
     ///   emberfit isoconversional tga/*.csv --out e-against-alpha.csv
     #[command(verbatim_doc_comment)]
     Isoconversional(IsoconversionalArgs),
+    /// Predict a scenario with a calibrated model, with a band from the fit's uncertainty
+    ///
+    /// Runs the calibrated model (a fit's best.toml, or any material model) in the scenario,
+    /// optionally at another irradiance, thickness or duration. With --band, draws parameter
+    /// sets from the fit's covariance (a normal in fit space, log10 for log-scale parameters,
+    /// truncated to the fit's bounds; see docs/predictions.md), simulates them in parallel and
+    /// writes the median and band limits of HRR, MLR, mass and temperatures, and the
+    /// distributions of ignition time, peak HRR, time to peak and total heat release. The
+    /// covariance is read from the run's summary.json beside best.toml; without it the
+    /// calibration table's standard errors are used with correlations taken as zero (wider).
+    ///
+    /// Writes FILE.csv (curves) and FILE-quantities.csv (one row per draw) with --out.
+    ///
+    /// Examples:
+    ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --flux 35
+    ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --flux 35 --band 95 --out p35.csv
+    ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --thickness-mm 12 --duration 1500 --band 90 --samples 400
+    #[command(verbatim_doc_comment)]
+    Predict(PredictArgs),
+    /// Score a calibrated model against held-out tests
+    ///
+    /// Reduces each test (TEST.toml) as the fit reduces its data, simulates it at the test's
+    /// irradiance (and thickness, when the test gives one) for the test's duration, and prints
+    /// the errors in ignition time, peak HRR, time to peak HRR and total heat release (percent
+    /// of the measured value; times also in s), and the normalised RMSE of the HRR and MLR
+    /// curves (RMS difference over the measured peak). The scenario is the fit job's, found
+    /// through the calibration table of a best.toml, or the one given with --scenario.
+    ///
+    /// Examples:
+    ///   emberfit compare runs/fit/best.toml demo-cases/ridgeline-panel/harbour-lab-75kw.toml
+    ///   emberfit compare my-material.toml tests/*.toml --scenario my-scenario.toml --json
+    #[command(verbatim_doc_comment)]
+    Compare(CompareArgs),
+    /// Write plots and an HTML report of a fit run into its directory
+    ///
+    /// Plots (PNG and SVG, in runs/NAME/plots/): measured against model for every case and
+    /// signal with the σ band and residuals, convergence, the correlation heat map, and HRR
+    /// prediction bands at the fitted conditions (and for each --test held out). report.html
+    /// is self-contained (figures inline as SVG): job, data files with hashes, parameters with
+    /// intervals and warnings, fit quality per case, held-out scores, and the caution.
+    ///
+    /// Examples:
+    ///   emberfit report runs/fit
+    ///   emberfit report runs/fit --test demo-cases/ridgeline-panel/harbour-lab-75kw.toml --samples 200
+    #[command(verbatim_doc_comment)]
+    Report(ReportArgs),
+}
+
+#[derive(Debug, clap::Args)]
+pub struct PredictArgs {
+    /// Calibrated material model (a fit's best.toml), or any material model without --band.
+    pub calibrated: PathBuf,
+    /// Scenario file (TOML) whose specimen layers take the calibrated material.
+    pub scenario: PathBuf,
+    /// Constant irradiance, kW/m² (default: the scenario's).
+    #[arg(long, value_name = "KW_M2")]
+    pub flux: Option<f64>,
+    /// Thickness of the exposed specimen layer, mm (default: the scenario's).
+    #[arg(long, value_name = "MM")]
+    pub thickness_mm: Option<f64>,
+    /// Simulated duration, s (default: the scenario's).
+    #[arg(long, value_name = "S")]
+    pub duration: Option<f64>,
+    /// Central probability of the uncertainty band, percent (e.g. 95); none: best fit only.
+    #[arg(long, value_name = "PERCENT")]
+    pub band: Option<f64>,
+    /// Parameter sets drawn for the band.
+    #[arg(long, value_name = "N", default_value_t = 200)]
+    pub samples: usize,
+    /// Seed of the sampler (the same seed gives the same band).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Worker threads (default: all cores).
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
+    /// Write the curves to this CSV (and the per-draw quantities beside it).
+    #[arg(long, value_name = "FILE.csv")]
+    pub out: Option<PathBuf>,
+    /// Print the quantities as one JSON object instead of a table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct CompareArgs {
+    /// Calibrated material model (a fit's best.toml), or any material model with --scenario.
+    pub calibrated: PathBuf,
+    /// Held-out test descriptions (TEST.toml).
+    #[arg(required = true)]
+    pub tests: Vec<PathBuf>,
+    /// Scenario the tests were run in (default: the fit job's, from the calibration table).
+    #[arg(long, value_name = "SCENARIO.toml")]
+    pub scenario: Option<PathBuf>,
+    /// Print the scores as JSON instead of a table.
+    #[arg(long)]
+    pub json: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct ReportArgs {
+    /// Run directory (runs/NAME) of a finished fit.
+    pub run: PathBuf,
+    /// Held-out test descriptions to predict, plot and score in the report.
+    #[arg(long = "test", value_name = "TEST.toml")]
+    pub tests: Vec<PathBuf>,
+    /// Parameter sets drawn for each prediction band (0: no bands).
+    #[arg(long, value_name = "N", default_value_t = 100)]
+    pub samples: usize,
+    /// Central probability of the bands, percent.
+    #[arg(long, value_name = "PERCENT", default_value_t = 95.0)]
+    pub band: f64,
+    /// Worker threads (default: all cores).
+    #[arg(long, value_name = "N")]
+    pub threads: Option<usize>,
 }
 
 #[derive(Debug, clap::Args)]

@@ -16,7 +16,10 @@ use emberfit::data::{reduce as reduce_test, Notice, Reduced, TestDescription};
 use emberfit::export::{curves::curves_csv, write_atomically};
 use emberfit::physics::{simulate as run_simulation, History};
 
-use crate::cli::{Cli, Command, FitArgs, IgnitionArgs, ReduceArgs, SimulateArgs, SynthesizeArgs};
+use crate::cli::{
+    Cli, Command, CompareArgs, FitArgs, IgnitionArgs, PredictArgs, ReduceArgs, ReportArgs,
+    SimulateArgs, SynthesizeArgs,
+};
 
 pub fn run(cli: Cli) -> Result<()> {
     match cli.command {
@@ -26,7 +29,184 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Reduce(args) => reduce(*args),
         Command::Ignition(args) => ignition(args),
         Command::Isoconversional(args) => milligram::isoconversional(args),
+        Command::Predict(args) => predict(args),
+        Command::Compare(args) => compare(args),
+        Command::Report(args) => report(args),
     }
+}
+
+fn start_threads(threads: Option<usize>) -> Result<()> {
+    if let Some(threads) = threads {
+        if threads == 0 {
+            bail!("--threads must be at least 1");
+        }
+        rayon::ThreadPoolBuilder::new()
+            .num_threads(threads)
+            .build_global()
+            .context("starting the worker threads")?;
+    }
+    Ok(())
+}
+
+fn predict(args: PredictArgs) -> Result<()> {
+    use emberfit::predict::{
+        load_prepared_scenario, predict as run_prediction, prediction_csv, quantities_csv,
+        CalibratedModel, Conditions, PredictionSettings,
+    };
+    start_threads(args.threads)?;
+    let calibrated =
+        CalibratedModel::load(&args.calibrated).context("reading the calibrated model")?;
+    let conditions = Conditions {
+        irradiance_kw_m2: args.flux,
+        thickness_mm: args.thickness_mm,
+        duration_s: args.duration,
+    };
+    let scenario = load_prepared_scenario(&calibrated, &args.scenario, &conditions)
+        .context("preparing the scenario")?;
+    let settings = PredictionSettings {
+        band_percent: args.band,
+        n_samples: args.samples,
+        seed: args.seed,
+    };
+    let prediction = run_prediction(&calibrated, &scenario, &settings).context("predicting")?;
+    if let Some(out) = &args.out {
+        write_atomically(out, prediction_csv(&prediction).as_bytes())
+            .with_context(|| format!("writing {}", out.display()))?;
+        if prediction.band_percent.is_some() {
+            let stem = out
+                .file_stem()
+                .map_or_else(|| "prediction".into(), |s| s.to_string_lossy().into_owned());
+            let quantities = out.with_file_name(format!("{stem}-quantities.csv"));
+            write_atomically(&quantities, quantities_csv(&prediction).as_bytes())
+                .with_context(|| format!("writing {}", quantities.display()))?;
+        }
+    }
+    if args.json {
+        let quantities: Vec<serde_json::Value> = prediction
+            .quantities
+            .iter()
+            .map(|q| {
+                let finite = |v: f64| v.is_finite().then_some(v);
+                serde_json::json!({
+                    "name": q.name, "unit": q.unit, "best": q.best,
+                    "median": finite(q.median), "lower": finite(q.lower), "upper": finite(q.upper),
+                    "mean": finite(q.mean), "standard_deviation": finite(q.standard_deviation),
+                    "n_without": q.n_missing(),
+                })
+            })
+            .collect();
+        println!(
+            "{}",
+            serde_json::json!({
+                "band_percent": prediction.band_percent,
+                "n_samples": prediction.n_samples,
+                "n_failed": prediction.n_failed,
+                "n_rejected": prediction.n_rejected,
+                "quantities": quantities,
+                "notes": prediction.notes,
+            })
+        );
+        return Ok(());
+    }
+    for note in &prediction.notes {
+        eprintln!("note: {note}");
+    }
+    match prediction.band_percent {
+        Some(band) => println!(
+            "{band} % band from {} drawn parameter sets ({} failed, {} outside the bounds redrawn)",
+            prediction.n_samples, prediction.n_failed, prediction.n_rejected
+        ),
+        None => println!("best fit only (give --band 95 for an uncertainty band)"),
+    }
+    println!(
+        "  {:<28}{:>12}{:>12}{:>24}",
+        "quantity", "best fit", "median", "band"
+    );
+    for q in &prediction.quantities {
+        let show = |v: f64| {
+            if v.is_finite() {
+                format!("{v:.2}")
+            } else {
+                "-".into()
+            }
+        };
+        println!(
+            "  {:<28}{:>12}{:>12}{:>24}",
+            format!("{} ({})", q.name, q.unit),
+            q.best
+                .map_or_else(|| "no ignition".into(), |v| format!("{v:.2}")),
+            show(q.median),
+            if q.lower.is_finite() {
+                format!("{} … {}", show(q.lower), show(q.upper))
+            } else {
+                "-".into()
+            }
+        );
+        if q.n_missing() > 0 {
+            println!("    {} draws never ignite", q.n_missing());
+        }
+    }
+    if let Some(out) = &args.out {
+        println!(
+            "curves written to {} ({} rows)",
+            out.display(),
+            prediction.time_s.len()
+        );
+    }
+    Ok(())
+}
+
+fn compare(args: CompareArgs) -> Result<()> {
+    use emberfit::predict::compare::{compare_tests, scenario_of_job, scores_json, scores_table};
+    use emberfit::predict::CalibratedModel;
+    let calibrated =
+        CalibratedModel::load(&args.calibrated).context("reading the calibrated model")?;
+    let base = match &args.scenario {
+        Some(path) => load_scenario(path).context("reading the scenario")?,
+        None => match scenario_of_job(&calibrated) {
+            Some(base) => base,
+            None => bail!(
+                "{} names no fit job that can be read from here; give the scenario the tests were run in with --scenario",
+                args.calibrated.display()
+            ),
+        },
+    };
+    let scored = compare_tests(&calibrated, &base, &args.tests).context("scoring the tests")?;
+    let scores: Vec<_> = scored.into_iter().map(|s| s.score).collect();
+    if args.json {
+        println!("{}", scores_json(&scores));
+    } else {
+        print!("{}", scores_table(&scores));
+    }
+    Ok(())
+}
+
+fn report(args: ReportArgs) -> Result<()> {
+    use emberfit::export::report::{write_report, ReportOptions};
+    start_threads(args.threads)?;
+    if !(args.band > 0.0 && args.band < 100.0) {
+        bail!(
+            "--band must be a percentage between 0 and 100, got {}",
+            args.band
+        );
+    }
+    let options = ReportOptions {
+        n_samples: args.samples,
+        band_percent: args.band,
+        held_out: args.tests.clone(),
+    };
+    let output = write_report(&args.run, &options)
+        .with_context(|| format!("writing the report of {}", args.run.display()))?;
+    for note in &output.notes {
+        eprintln!("note: {note}");
+    }
+    println!(
+        "report written to {} ({} plot files in {})",
+        output.html.display(),
+        output.plots.len(),
+        args.run.join("plots").display()
+    );
+    Ok(())
 }
 
 fn fit(args: FitArgs) -> Result<()> {

@@ -8,5 +8,6 @@ pub mod fit;
 pub mod headless;
 pub mod microscale;
 pub mod physics;
+pub mod predict;
 pub mod run;
 pub mod synthetic;

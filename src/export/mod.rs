@@ -3,6 +3,8 @@
 
 pub mod curves;
 pub mod material;
+pub mod plots;
+pub mod report;
 
 use std::io::Write;
 use std::path::Path;

@@ -131,7 +131,9 @@ pub struct RunSummary {
     pub elapsed_s: f64,
     pub parameters: Vec<SummaryParameter>,
     pub correlation: Vec<Vec<f64>>,
-    /// Covariance in fit space (values, or log10 of values on a log scale), row-major.
+    /// Covariance in fit space (the value, or log10 of it on a log scale), row-major; what
+    /// `predict` draws parameter sets from. Empty when the analysis could not be done.
+    #[serde(default)]
     pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
     pub residual_variance: f64,

@@ -317,7 +317,9 @@ fn charring_twin_recovers_the_truth_and_predicts_a_third_irradiance() {
     let simulate_at = |irradiance_kw_m2: f64, material: Option<&Path>| {
         let mut loaded = emberfit::case::load_scenario(&truth_scenario).unwrap();
         if let Some(path) = material {
-            loaded.use_specimen_material(&emberfit::case::load_material(path).unwrap()).unwrap();
+            loaded
+                .use_specimen_material(&emberfit::case::load_material(path).unwrap())
+                .unwrap();
         }
         loaded.set_constant_irradiance_w_m2(irradiance_kw_m2 * 1e3);
         emberfit::physics::simulate(&loaded.scenario).unwrap()
@@ -330,7 +332,11 @@ fn charring_twin_recovers_the_truth_and_predicts_a_third_irradiance() {
         };
         let test = emberfit::synthetic::synthesize(&history, &noise, seed);
         let stem = format!("twin-{irradiance:.0}kw");
-        std::fs::write(root.join(format!("{stem}.csv")), emberfit::synthetic::synthetic_csv(&test).unwrap()).unwrap();
+        std::fs::write(
+            root.join(format!("{stem}.csv")),
+            emberfit::synthetic::synthetic_csv(&test).unwrap(),
+        )
+        .unwrap();
         std::fs::write(
             root.join(format!("{stem}.toml")),
             format!(
@@ -344,29 +350,57 @@ fn charring_twin_recovers_the_truth_and_predicts_a_third_irradiance() {
     let job = std::fs::read_to_string(cases.join("charring-twin.toml"))
         .unwrap()
         .replace("CHARRING_DATA", &root.display().to_string())
-        .replace("\"../../models/", &format!("\"{}/", manifest.join("models").display()))
-        .replace("\"charring-scenario.toml\"", &format!("\"{}\"", truth_scenario.display()));
+        .replace(
+            "\"../../models/",
+            &format!("\"{}/", manifest.join("models").display()),
+        )
+        .replace(
+            "\"charring-scenario.toml\"",
+            &format!("\"{}\"", truth_scenario.display()),
+        );
     let job_path = root.join("charring-twin.toml");
     std::fs::write(&job_path, job).unwrap();
     let no = Arc::new(AtomicBool::new(false));
-    let report = run_fit(&job_path, &options(&root, "charring", false), no.clone(), no).expect("the charring fit runs");
+    let report = run_fit(
+        &job_path,
+        &options(&root, "charring", false),
+        no.clone(),
+        no,
+    )
+    .expect("the charring fit runs");
     let truth = [
         ("component.virgin.conductivity_w_m_k", 0.11),
         ("component.char.conductivity_w_m_k", 0.10),
         ("component.virgin.specific_heat_j_kg_k", 1700.0),
-        ("reaction.1.peak_temperature_k", emberfit::fit::parameters::peak_temperature_k(3.0e10, 150e3, 10.0 / 60.0)),
+        (
+            "reaction.1.peak_temperature_k",
+            emberfit::fit::parameters::peak_temperature_k(3.0e10, 150e3, 10.0 / 60.0),
+        ),
         ("heat_of_combustion_mj_kg", 14.5),
     ];
     for ((name, value), fitted) in truth.iter().zip(&report.summary.parameters) {
         assert_eq!(&fitted.name, name);
         let (lower, upper) = (fitted.lower_95.unwrap(), fitted.upper_95.unwrap());
-        eprintln!("charring: {name} = {:.5} (truth {value:.5}), 95 % [{lower:.5}, {upper:.5}]", fitted.value);
-        assert!(lower <= *value && *value <= upper, "{name}: truth {value} outside [{lower}, {upper}]");
+        eprintln!(
+            "charring: {name} = {:.5} (truth {value:.5}), 95 % [{lower:.5}, {upper:.5}]",
+            fitted.value
+        );
+        assert!(
+            lower <= *value && *value <= upper,
+            "{name}: truth {value} outside [{lower}, {upper}]"
+        );
     }
-    let predicted = simulate_at(75.0, Some(&report.directory.join("best.toml"))).summary.peak_hrr_w_m2;
+    let predicted = simulate_at(75.0, Some(&report.directory.join("best.toml")))
+        .summary
+        .peak_hrr_w_m2;
     let true_peak = simulate_at(75.0, None).summary.peak_hrr_w_m2;
     let error = (predicted - true_peak).abs() / true_peak;
-    eprintln!("charring: 75 kW/m² peak HRR predicted {:.1}, true {:.1} kW/m², error {:.2} %", predicted / 1e3, true_peak / 1e3, 100.0 * error);
+    eprintln!(
+        "charring: 75 kW/m² peak HRR predicted {:.1}, true {:.1} kW/m², error {:.2} %",
+        predicted / 1e3,
+        true_peak / 1e3,
+        100.0 * error
+    );
     assert!(error < 0.03);
     let _ = std::fs::remove_dir_all(&root);
 }

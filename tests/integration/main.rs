@@ -5,6 +5,7 @@ mod data;
 mod fit;
 mod microscale;
 mod pmma_fit;
+mod predict;
 mod properties;
 mod util;
 mod verification;

@@ -102,23 +102,33 @@ fn pmma_fit_at_25_kw_predicts_the_65_kw_tests() {
         max_evaluations: None,
         seed: None,
     };
-    let report = run_fit(&dir.join("job.toml"), &options, no.clone(), no).expect("the PMMA fit runs");
+    let report =
+        run_fit(&dir.join("job.toml"), &options, no.clone(), no).expect("the PMMA fit runs");
     for p in &report.summary.parameters {
-        eprintln!("pmma fit: {} = {:.5} {} 95 % {:?}..{:?} {:?}", p.name, p.value, p.unit, p.lower_95, p.upper_95, p.warnings);
+        eprintln!(
+            "pmma fit: {} = {:.5} {} 95 % {:?}..{:?} {:?}",
+            p.name, p.value, p.unit, p.lower_95, p.upper_95, p.warnings
+        );
     }
     // Predict each 65 kW/m² test with the calibrated model.
     let mut loaded = emberfit::case::load_scenario(&dir.join("scenario.toml")).unwrap();
     loaded
-        .use_specimen_material(&emberfit::case::load_material(&report.directory.join("best.toml")).unwrap())
+        .use_specimen_material(
+            &emberfit::case::load_material(&report.directory.join("best.toml")).unwrap(),
+        )
         .unwrap();
     loaded.set_constant_irradiance_w_m2(65e3);
     loaded.scenario.duration_s = 600.0;
-    let predicted = emberfit::physics::simulate(&loaded.scenario).unwrap().summary;
+    let predicted = emberfit::physics::simulate(&loaded.scenario)
+        .unwrap()
+        .summary;
     let predicted_peak = predicted.peak_hrr_w_m2 / 1e3;
     let predicted_ignition = predicted.ignition_time_s.unwrap_or(f64::NAN);
     let mut peak_errors = Vec::new();
     for (_, path) in descriptions.iter().filter(|(q, _)| *q == 65.0) {
-        let measured = reduce(&TestDescription::load(path).unwrap()).unwrap().report;
+        let measured = reduce(&TestDescription::load(path).unwrap())
+            .unwrap()
+            .report;
         let peak = measured.peak_hrr_kw_m2.unwrap();
         let time_to_peak = measured.time_to_peak_hrr_s.unwrap();
         let ignition = measured.ignition_time_s.unwrap_or(f64::NAN);
