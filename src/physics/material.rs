@@ -102,16 +102,18 @@ impl PropertyLaw {
     }
 }
 
-fn table_value(points: &[(f64, f64)], temperature_k: f64) -> f64 {
+/// Piecewise-linear lookup in (x, value) points with increasing x, constant outside them;
+/// shared by property tables (x = temperature) and time schedules (x = time).
+pub(crate) fn table_value(points: &[(f64, f64)], x: f64) -> f64 {
     let first = points[0];
-    if temperature_k <= first.0 {
+    if x <= first.0 {
         return first.1;
     }
     for window in points.windows(2) {
-        let (t0, v0) = window[0];
-        let (t1, v1) = window[1];
-        if temperature_k <= t1 {
-            return v0 + (v1 - v0) * (temperature_k - t0) / (t1 - t0);
+        let (x0, v0) = window[0];
+        let (x1, v1) = window[1];
+        if x <= x1 {
+            return v0 + (v1 - v0) * (x - x0) / (x1 - x0);
         }
     }
     points[points.len() - 1].1

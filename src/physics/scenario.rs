@@ -44,20 +44,7 @@ impl Schedule {
     pub fn at(&self, time_s: f64) -> f64 {
         match self {
             Schedule::Constant(value) => *value,
-            Schedule::Table(points) => {
-                let first = points[0];
-                if time_s <= first.0 {
-                    return first.1;
-                }
-                for window in points.windows(2) {
-                    let (t0, v0) = window[0];
-                    let (t1, v1) = window[1];
-                    if time_s <= t1 {
-                        return v0 + (v1 - v0) * (time_s - t0) / (t1 - t0);
-                    }
-                }
-                points[points.len() - 1].1
-            }
+            Schedule::Table(points) => super::material::table_value(points, time_s),
         }
     }
 
