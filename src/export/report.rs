@@ -416,13 +416,19 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                 .map(|job| {
                     job.cases
                         .iter()
-                        .map(|c| (c.name.clone(), c.scenario.clone()))
+                        .filter_map(|c| c.cone_scenario().map(|s| (c.name.clone(), s.clone())))
                         .collect()
                 })
                 .unwrap_or_default();
-            if fitted_cases.is_empty() {
+            if calibrated.job.is_none() {
                 notes.push(
                     "no bands at the fitted conditions: the fit job could not be read".into(),
+                );
+            } else if fitted_cases.is_empty() {
+                notes.push(
+                    "no bands at the fitted conditions: the fit has no cone cases (bands are \
+                     drawn for cone tests only)"
+                        .into(),
                 );
             }
             for (name, loaded) in fitted_cases {

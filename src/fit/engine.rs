@@ -598,7 +598,9 @@ mod tests {
             .join("demo-cases/ridgeline-panel/scenario.toml");
         FitCase {
             name: "line".into(),
-            scenario: crate::case::load_scenario(&path).expect("demo scenario loads"),
+            setup: crate::fit::job::CaseSetup::Cone(
+                crate::case::load_scenario(&path).expect("demo scenario loads"),
+            ),
             exposed_area_m2: 0.01,
             signals: vec![SignalData {
                 kind: SignalKind::Mlr,

@@ -1,5 +1,9 @@
 //! The fit job file (docs/fit-jobs.md): the material and scenario a fit starts from, the free
 //! parameters by path, the cases (scenario + reduced test data + signals), and the settings.
+//! A case is a cone case or a milligram-scale one (TGA, DSC, MCC; built in `job::milligram`).
+
+mod milligram;
+mod prior_from;
 
 use std::collections::BTreeMap;
 use std::path::{Path, PathBuf};
@@ -14,13 +18,16 @@ use crate::case::source::{error_chain, Source};
 use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
 use crate::data::repeats::{combine, Alignment};
 use crate::data::{reduce, TestDescription};
+use crate::microscale::MeasurementKind;
+use crate::physics::zero_d::{TemperatureProgramme, ZeroDSettings};
 
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 struct JobFile {
     title: String,
     material: Spanned<String>,
-    scenario: Spanned<String>,
+    /// Required when the job has a cone case; a job of milligram cases alone needs none.
+    scenario: Option<Spanned<String>>,
     #[serde(rename = "parameter")]
     parameters: Vec<ParameterFile>,
     #[serde(rename = "case")]
@@ -47,6 +54,8 @@ struct ParameterFile {
     reference_temperature_k: Option<Spanned<f64>>,
     #[serde(default)]
     tie: Vec<Spanned<String>>,
+    /// An earlier run's summary.json whose estimate of the same path becomes a prior.
+    prior_from: Option<Spanned<String>>,
 }
 
 #[derive(Debug, Clone, Copy, Deserialize)]
@@ -67,12 +76,18 @@ enum PriorKind {
 #[serde(deny_unknown_fields)]
 struct CaseFile {
     name: String,
+    /// `"cone"` (the default) or a milligram kind, `"tga"`, `"dsc"`, `"mcc"`.
+    kind: Option<Spanned<String>>,
+    /// A milligram-scale scenario (heating programme, composition, numerics) for the case.
+    scenario: Option<Spanned<String>>,
     tests: Vec<Spanned<String>>,
     #[serde(default)]
     align: Option<AlignFile>,
     irradiance_kw_m2: Option<Spanned<f64>>,
     thickness_mm: Option<Spanned<f64>>,
     duration_s: Option<Spanned<f64>>,
+    /// Required for cone cases; a milligram case defaults to its file's signal.
+    #[serde(default)]
     signals: Vec<SignalFile>,
 }
 
@@ -105,6 +120,12 @@ pub enum SignalKind {
     Mass,
     /// Time to ignition, s.
     IgnitionTime,
+    /// TGA: sample mass over its initial mass, –.
+    MassFraction,
+    /// DSC: heat flow per initial mass, W/g, endothermic positive.
+    DscHeatFlow,
+    /// MCC: heat release rate per initial mass, W/g.
+    MccHrr,
 }
 
 impl SignalKind {
@@ -114,6 +135,9 @@ impl SignalKind {
             SignalKind::Hrr => "hrr",
             SignalKind::Mass => "mass",
             SignalKind::IgnitionTime => "ignition_time",
+            SignalKind::MassFraction => "mass_fraction",
+            SignalKind::DscHeatFlow => "dsc_heat_flow",
+            SignalKind::MccHrr => "mcc_hrr",
         }
     }
 
@@ -123,6 +147,27 @@ impl SignalKind {
             SignalKind::Hrr => "kW/m²",
             SignalKind::Mass => "g",
             SignalKind::IgnitionTime => "s",
+            SignalKind::MassFraction => "–",
+            SignalKind::DscHeatFlow | SignalKind::MccHrr => "W/g",
+        }
+    }
+
+    /// The milligram-scale measurement this signal belongs to; `None` for a cone signal.
+    pub fn milligram_kind(self) -> Option<MeasurementKind> {
+        match self {
+            SignalKind::MassFraction => Some(MeasurementKind::Tga),
+            SignalKind::DscHeatFlow => Some(MeasurementKind::Dsc),
+            SignalKind::MccHrr => Some(MeasurementKind::Mcc),
+            _ => None,
+        }
+    }
+
+    /// The signal a milligram-scale measurement gives.
+    pub fn of_milligram(kind: MeasurementKind) -> SignalKind {
+        match kind {
+            MeasurementKind::Tga => SignalKind::MassFraction,
+            MeasurementKind::Dsc => SignalKind::DscHeatFlow,
+            MeasurementKind::Mcc => SignalKind::MccHrr,
         }
     }
 }
@@ -155,15 +200,61 @@ pub struct SignalData {
     pub sigma_source: &'static str,
 }
 
-/// One case of the fit: a scenario (with the case's irradiance and thickness) and its data.
+/// One case of the fit: what is simulated (a cone scenario with the case's irradiance and
+/// thickness, or a milligram-scale run) and its data.
 #[derive(Debug, Clone)]
 pub struct FitCase {
     pub name: String,
-    pub scenario: LoadedScenario,
+    pub setup: CaseSetup,
+    /// Exposed area of the cone specimen, m² (0 for a milligram case).
     pub exposed_area_m2: f64,
     pub signals: Vec<SignalData>,
     /// The test descriptions and data files this case's data come from.
     pub test_files: Vec<PathBuf>,
+}
+
+impl FitCase {
+    /// The cone scenario, for a cone case.
+    pub fn cone_scenario(&self) -> Option<&LoadedScenario> {
+        match &self.setup {
+            CaseSetup::Cone(scenario) => Some(scenario),
+            CaseSetup::Milligram(_) => None,
+        }
+    }
+
+    /// The milligram-scale run, for a milligram case.
+    pub fn milligram(&self) -> Option<&MilligramSetup> {
+        match &self.setup {
+            CaseSetup::Cone(_) => None,
+            CaseSetup::Milligram(setup) => Some(setup),
+        }
+    }
+}
+
+/// What a case simulates.
+#[derive(Debug, Clone)]
+pub enum CaseSetup {
+    /// A cone test: the 1-D solver on this scenario.
+    Cone(LoadedScenario),
+    /// A TGA, DSC or MCC run: the 0-D model (`physics::zero_d`) of the job's material.
+    Milligram(Box<MilligramSetup>),
+}
+
+/// A milligram-scale run of the 0-D model, as a case of the fit.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MilligramSetup {
+    /// What the case's file measures.
+    pub kind: MeasurementKind,
+    /// The heating programme, from the case's milligram scenario or fitted to the file's
+    /// temperatures (`MilligramCase::from_thermogram`).
+    pub programme: TemperatureProgramme,
+    /// Data time at which the programme starts, s: 0 with a scenario (the file's clock is the
+    /// programme's), the first data time without one.
+    pub programme_start_s: f64,
+    /// Initial mass fraction of each component of the job's material.
+    pub initial_mass_fractions: Vec<f64>,
+    /// Integrator, tolerances, output interval and the DSC sensible-heat switch.
+    pub settings: ZeroDSettings,
 }
 
 /// Optimiser settings and stops.
@@ -207,44 +298,29 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
         ),
         other => other,
     })?;
-    let scenario_path = base.join(file.scenario.get_ref());
-    let mut scenario = load_scenario(&scenario_path).map_err(|err| match err {
-        CaseError::Read { source: io, .. } => source.invalid(
-            &file.scenario.span(),
-            "scenario",
-            format!("cannot read {}: {io}", scenario_path.display()),
-        ),
-        other => other,
-    })?;
-    // The specimen layers take the job's (starting) material.
-    for (layer, model) in scenario
-        .scenario
-        .layers
-        .iter_mut()
-        .zip(scenario.materials.iter_mut())
-    {
-        if layer.is_specimen {
-            if layer.material.components.len() != material.material.components.len() {
-                return Err(source.invalid(
-                    &file.material.span(),
-                    "material",
-                    format!(
-                        "has {} components but the scenario's specimen layer has {}; the layer's composition needs the same components",
-                        material.material.components.len(),
-                        layer.material.components.len()
-                    ),
-                ));
-            }
-            layer.material = material.material.clone();
-            *model = material.clone();
-        }
-    }
+    let scenario = match &file.scenario {
+        Some(scenario_file) => Some(load_job_scenario(
+            &source,
+            base,
+            scenario_file,
+            &file.material,
+            &material,
+        )?),
+        None => None,
+    };
     if file.parameters.is_empty() {
         return Err(source.inconsistent("a fit needs at least one [[parameter]]"));
     }
     let mut parameters = Vec::new();
     for (idx, raw) in file.parameters.iter().enumerate() {
-        parameters.push(build_parameter(&source, idx, raw, &material, &scenario)?);
+        parameters.push(build_parameter(
+            &source,
+            idx,
+            raw,
+            base,
+            &material,
+            scenario.as_ref(),
+        )?);
     }
     if file.cases.is_empty() {
         return Err(source.inconsistent("a fit needs at least one [[case]]"));
@@ -252,12 +328,28 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
     let settings = build_settings(&source, &file.settings)?;
     let mut cases = Vec::new();
     for (idx, raw) in file.cases.iter().enumerate() {
+        if let milligram::CaseKind::Milligram(declared) = milligram::case_kind(&source, idx, raw)? {
+            cases.push(milligram::build_milligram_case(
+                &source,
+                idx,
+                raw,
+                declared,
+                base,
+                (&material_path, &material),
+                settings.output_interval_s,
+            )?);
+            continue;
+        }
+        let Some(scenario) = &scenario else {
+            return Err(milligram::cone_case_without_scenario(&source, idx, raw));
+        };
+        milligram::check_cone_case(&source, idx, raw)?;
         cases.push(build_case(
             &source,
             idx,
             raw,
             base,
-            &scenario,
+            scenario,
             settings.output_interval_s,
         )?);
     }
@@ -270,6 +362,48 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
         cases,
         settings,
     })
+}
+
+/// Reads the job's cone scenario; its specimen layers take the job's (starting) material.
+fn load_job_scenario(
+    source: &Source,
+    base: &Path,
+    scenario_file: &Spanned<String>,
+    material_file: &Spanned<String>,
+    material: &MaterialModel,
+) -> Result<LoadedScenario, CaseError> {
+    let scenario_path = base.join(scenario_file.get_ref());
+    let mut scenario = load_scenario(&scenario_path).map_err(|err| match err {
+        CaseError::Read { source: io, .. } => source.invalid(
+            &scenario_file.span(),
+            "scenario",
+            format!("cannot read {}: {io}", scenario_path.display()),
+        ),
+        other => other,
+    })?;
+    for (layer, model) in scenario
+        .scenario
+        .layers
+        .iter_mut()
+        .zip(scenario.materials.iter_mut())
+    {
+        if layer.is_specimen {
+            if layer.material.components.len() != material.material.components.len() {
+                return Err(source.invalid(
+                    &material_file.span(),
+                    "material",
+                    format!(
+                        "has {} components but the scenario's specimen layer has {}; the layer's composition needs the same components",
+                        material.material.components.len(),
+                        layer.material.components.len()
+                    ),
+                ));
+            }
+            layer.material = material.material.clone();
+            *model = material.clone();
+        }
+    }
+    Ok(scenario)
 }
 
 /// Resolves a parameter path into its targets and unit.
@@ -417,8 +551,9 @@ fn build_parameter(
     source: &Source,
     idx: usize,
     raw: &ParameterFile,
+    base: &Path,
     material: &MaterialModel,
-    scenario: &LoadedScenario,
+    scenario: Option<&LoadedScenario>,
 ) -> Result<FreeParameter, CaseError> {
     let key = |field: &str| format!("parameter[{idx}].{field}");
     let heating_rate_k_s = match &raw.reference_heating_rate_k_min {
@@ -451,6 +586,20 @@ fn build_parameter(
         }
         targets.push(tied);
     }
+    if scenario.is_none() {
+        if let Some(idx_target) = targets.iter().position(|t| t.is_scenario_target()) {
+            let (span, field) = match idx_target {
+                0 => (raw.path.span(), key("path")),
+                k => (raw.tie[k - 1].span(), key("tie")),
+            };
+            return Err(source.invalid(
+                &span,
+                &field,
+                "sets a value of the cone scenario, but the job has no `scenario` (only \
+                 milligram cases); free it in a job with cone cases",
+            ));
+        }
+    }
     let lower = source.finite(&raw.min, &key("min"))?;
     let upper = source.finite(&raw.max, &key("max"))?;
     if upper <= lower {
@@ -471,9 +620,13 @@ fn build_parameter(
             format!("must be > 0 on a log scale, got {lower}"),
         ));
     }
-    let start = match &raw.start {
-        Some(value) => source.finite(value, &key("start"))?,
-        None => targets[0].read(&material.material, &scenario.scenario),
+    let start = match (&raw.start, scenario) {
+        (Some(value), _) => source.finite(value, &key("start"))?,
+        (None, Some(scenario)) => targets[0].read(&material.material, &scenario.scenario),
+        // Scenario targets were refused above, so the material has the value.
+        (None, None) => targets[0]
+            .read_material(&material.material)
+            .unwrap_or(f64::NAN),
     };
     if !(lower..=upper).contains(&start) {
         let span = raw.start.as_ref().map_or(raw.path.span(), |s| s.span());
@@ -483,9 +636,26 @@ fn build_parameter(
             format!("{start} lies outside the bounds {lower}..{upper} (give `start` or widen the bounds)"),
         ));
     }
-    let prior = match raw.prior {
-        None => None,
-        Some(kind) => {
+    let prior = match (raw.prior, &raw.prior_from) {
+        (_, Some(summary_file)) => {
+            if raw.prior.is_some() || raw.prior_mean.is_some() || raw.prior_sd.is_some() {
+                return Err(source.invalid(
+                    &summary_file.span(),
+                    &key("prior_from"),
+                    "takes the prior from an earlier run: leave out `prior`, `prior_mean` and \
+                     `prior_sd`",
+                ));
+            }
+            Some(prior_from::prior_from_summary(
+                source,
+                &key("prior_from"),
+                summary_file,
+                base,
+                path,
+            )?)
+        }
+        (None, None) => None,
+        (Some(kind), None) => {
             let (Some(mean), Some(sd)) = (&raw.prior_mean, &raw.prior_sd) else {
                 return Err(source.invalid(
                     &raw.path.span(),
@@ -773,7 +943,7 @@ fn build_case(
     };
     Ok(FitCase {
         name: raw.name.clone(),
-        scenario: case_scenario,
+        setup: CaseSetup::Cone(case_scenario),
         exposed_area_m2,
         signals,
         test_files,

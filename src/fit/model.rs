@@ -1,12 +1,14 @@
 //! The seam between the fit and the physics: `Model` is all the engine needs from a
 //! simulator, and `CaseModel` implements it by mapping a parameter vector onto the job's
-//! material and scenarios and calling `physics::simulate` for every case.
+//! material and scenarios and calling `physics::simulate` for every cone case, and the 0-D
+//! model `physics::zero_d` for every milligram-scale case.
 
 use rayon::prelude::*;
 
-use super::job::{FitCase, FitJob, SignalKind};
-use super::parameters::{apply_all, FreeParameter};
+use super::job::{CaseSetup, FitCase, FitJob, MilligramSetup, SignalKind};
+use super::parameters::{apply_all, apply_to_material_all, FreeParameter};
 use crate::physics::simulate;
+use crate::physics::zero_d::{interpolate, simulate_zero_d, ZeroDHistory};
 
 /// Model values at the data times of one signal of one case.
 #[derive(Debug, Clone, PartialEq)]
@@ -31,7 +33,7 @@ pub trait Model: Sync {
     fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError>;
 }
 
-/// The job's cases, simulated by the 1-D solver.
+/// The job's cases, simulated by the 1-D solver (cone) or the 0-D model (milligram).
 pub struct CaseModel<'a> {
     pub job: &'a FitJob,
 }
@@ -47,7 +49,14 @@ impl<'a> CaseModel<'a> {
         case: &FitCase,
         values: &[f64],
     ) -> Result<crate::physics::History, ModelError> {
-        let mut scenario = case.scenario.scenario.clone();
+        let Some(loaded) = case.cone_scenario() else {
+            return Err(ModelError {
+                case: case.name.clone(),
+                message: "is a milligram-scale case: it runs the 0-D model, not a cone scenario"
+                    .into(),
+            });
+        };
+        let mut scenario = loaded.scenario.clone();
         let mut material = self.job.material.material.clone();
         apply_all(&self.job.parameters, values, &mut material, &mut scenario);
         for layer in scenario.layers.iter_mut().filter(|l| l.is_specimen) {
@@ -68,18 +77,58 @@ impl<'a> CaseModel<'a> {
             message: err.to_string(),
         })
     }
-}
 
-impl Model for CaseModel<'_> {
-    fn parameters(&self) -> &[FreeParameter] {
-        &self.job.parameters
+    /// Runs one milligram case's 0-D model with these parameter values (the job's material
+    /// with every material target applied; scenario targets do not reach it).
+    pub fn simulate_milligram(
+        &self,
+        case: &FitCase,
+        setup: &MilligramSetup,
+        values: &[f64],
+    ) -> Result<ZeroDHistory, ModelError> {
+        let failed = |message: String| ModelError {
+            case: case.name.clone(),
+            message,
+        };
+        let mut material = self.job.material.material.clone();
+        apply_to_material_all(&self.job.parameters, values, &mut material);
+        crate::physics::material::Material::new(
+            material.components.clone(),
+            material.reactions.clone(),
+        )
+        .map_err(|err| failed(err.to_string()))?;
+        simulate_zero_d(
+            &material,
+            &setup.initial_mass_fractions,
+            &setup.programme,
+            &setup.settings,
+        )
+        .map_err(|err| failed(err.to_string()))
     }
 
-    fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
-        self.job
-            .cases
-            .par_iter()
-            .map(|case| {
+    /// The model at the data times of every signal of one case.
+    pub fn predict_case(
+        &self,
+        case: &FitCase,
+        values: &[f64],
+    ) -> Result<Vec<SignalCurve>, ModelError> {
+        match &case.setup {
+            CaseSetup::Milligram(setup) => {
+                let history = self.simulate_milligram(case, setup, values)?;
+                Ok(case
+                    .signals
+                    .iter()
+                    .map(|signal| SignalCurve {
+                        values: milligram_model_at_data_times(
+                            &history,
+                            setup,
+                            signal.kind,
+                            &signal.time_s,
+                        ),
+                    })
+                    .collect())
+            }
+            CaseSetup::Cone(_) => {
                 let history = self.simulate_case(case, values)?;
                 Ok(case
                     .signals
@@ -93,9 +142,44 @@ impl Model for CaseModel<'_> {
                         ),
                     })
                     .collect())
-            })
+            }
+        }
+    }
+}
+
+impl Model for CaseModel<'_> {
+    fn parameters(&self) -> &[FreeParameter] {
+        &self.job.parameters
+    }
+
+    fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
+        self.job
+            .cases
+            .par_iter()
+            .map(|case| self.predict_case(case, values))
             .collect()
     }
+}
+
+/// The 0-D model's value of a milligram signal at each data time (data time minus the
+/// programme's start is the model's time), in the signal's unit; NaN for a cone signal, which
+/// the job never pairs with a milligram case.
+pub fn milligram_model_at_data_times(
+    history: &ZeroDHistory,
+    setup: &MilligramSetup,
+    kind: SignalKind,
+    times_s: &[f64],
+) -> Vec<f64> {
+    let curve = match kind {
+        SignalKind::MassFraction => &history.mass_fraction,
+        SignalKind::DscHeatFlow => &history.dsc_w_g,
+        SignalKind::MccHrr => &history.mcc_w_g,
+        _ => return vec![f64::NAN; times_s.len()],
+    };
+    times_s
+        .iter()
+        .map(|&t| interpolate(&history.time_s, curve, t - setup.programme_start_s))
+        .collect()
 }
 
 /// The model's value of `kind` at each data time, in the signal's unit.
@@ -123,5 +207,9 @@ pub fn model_at_data_times(
             .iter()
             .map(|&t| history.value_at(t, |s| s.mass_kg_m2) * area_m2 * 1e3)
             .collect(),
+        // Milligram signals belong to milligram cases (`milligram_model_at_data_times`).
+        SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => {
+            vec![f64::NAN; times_s.len()]
+        }
     }
 }

@@ -129,8 +129,38 @@ impl Target {
         )
     }
 
+    /// Whether this target lives in the cone scenario (exposure and ignition values), which a
+    /// milligram-scale case does not have.
+    pub fn is_scenario_target(&self) -> bool {
+        matches!(
+            self,
+            Target::FlameHeatFlux | Target::ConvectiveCoefficient | Target::CriticalFuelMassFlux
+        )
+    }
+
     /// Sets `value` (file units) into the material or the scenario.
     pub fn apply(&self, value: f64, material: &mut Material, scenario: &mut Scenario) {
+        match self {
+            Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 = value * 1e3,
+            Target::ConvectiveCoefficient => {
+                scenario.exposure.convective_coefficient_w_m2_k = value;
+                scenario.exposure.flaming_convective_coefficient_w_m2_k = value;
+            }
+            Target::CriticalFuelMassFlux => {
+                if let crate::physics::scenario::IgnitionRule::CriticalFuelMassFlux(flux) =
+                    &mut scenario.ignition
+                {
+                    *flux = value * 1e-3;
+                }
+                scenario.flameout.threshold_fuel_mass_flux_kg_m2_s = value * 1e-3;
+            }
+            _ => self.apply_to_material(value, material),
+        }
+    }
+
+    /// Sets `value` (file units) into the material; a scenario target is left alone (the
+    /// milligram scale has no exposure to set).
+    pub fn apply_to_material(&self, value: f64, material: &mut Material) {
         fn set_property(
             law: &mut PropertyLaw,
             part: PropertyPart,
@@ -226,25 +256,28 @@ impl Target {
                 r.pre_exponential_per_s = 10f64.powf(value)
                     * (r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp();
             }
-            Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 = value * 1e3,
-            Target::ConvectiveCoefficient => {
-                scenario.exposure.convective_coefficient_w_m2_k = value;
-                scenario.exposure.flaming_convective_coefficient_w_m2_k = value;
-            }
-            Target::CriticalFuelMassFlux => {
-                if let crate::physics::scenario::IgnitionRule::CriticalFuelMassFlux(flux) =
-                    &mut scenario.ignition
-                {
-                    *flux = value * 1e-3;
-                }
-                scenario.flameout.threshold_fuel_mass_flux_kg_m2_s = value * 1e-3;
-            }
+            Target::FlameHeatFlux
+            | Target::ConvectiveCoefficient
+            | Target::CriticalFuelMassFlux => {}
         }
     }
 
     /// Reads the value this target has in a material/scenario, in file units (the default
     /// start value).
     pub fn read(&self, material: &Material, scenario: &Scenario) -> f64 {
+        match self {
+            Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 * 1e-3,
+            Target::ConvectiveCoefficient => scenario.exposure.convective_coefficient_w_m2_k,
+            Target::CriticalFuelMassFlux => {
+                scenario.flameout.threshold_fuel_mass_flux_kg_m2_s * 1e3
+            }
+            _ => self.read_material(material).unwrap_or(f64::NAN),
+        }
+    }
+
+    /// Reads the value this target has in a material, in file units; `None` for a scenario
+    /// target.
+    pub fn read_material(&self, material: &Material) -> Option<f64> {
         let property = |law: &PropertyLaw, part: PropertyPart| match (part, law) {
             (
                 PropertyPart::Value,
@@ -255,7 +288,7 @@ impl Target {
             (PropertyPart::Exponent, PropertyLaw::PowerLaw { exponent, .. }) => *exponent,
             _ => 1.0,
         };
-        match self {
+        Some(match self {
             Target::Density { component } => material.components[*component].density_kg_m3,
             Target::Conductivity { component, part } => {
                 property(&material.components[*component].conductivity_w_m_k, *part)
@@ -302,12 +335,10 @@ impl Target {
                     * (-r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp())
                 .log10()
             }
-            Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 * 1e-3,
-            Target::ConvectiveCoefficient => scenario.exposure.convective_coefficient_w_m2_k,
-            Target::CriticalFuelMassFlux => {
-                scenario.flameout.threshold_fuel_mass_flux_kg_m2_s * 1e3
-            }
-        }
+            Target::FlameHeatFlux
+            | Target::ConvectiveCoefficient
+            | Target::CriticalFuelMassFlux => return None,
+        })
     }
 }
 
@@ -402,6 +433,26 @@ impl FreeParameter {
     /// Width of the bounds in fit space.
     pub fn fit_space_range(&self) -> f64 {
         self.to_fit_space(self.upper) - self.to_fit_space(self.lower)
+    }
+}
+
+/// Applies a full parameter vector (file units) to a material alone, in the order of
+/// [`apply_all`]; scenario targets are skipped (what a milligram-scale case simulates).
+pub fn apply_to_material_all(
+    parameters: &[FreeParameter],
+    values: &[f64],
+    material: &mut Material,
+) {
+    for pass_derived in [false, true] {
+        for (parameter, &value) in parameters.iter().zip(values) {
+            for target in parameter
+                .targets
+                .iter()
+                .filter(|t| t.is_derived() == pass_derived)
+            {
+                target.apply_to_material(value, material);
+            }
+        }
     }
 }
 

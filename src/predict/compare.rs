@@ -189,14 +189,14 @@ pub fn score_test(
     })
 }
 
-/// The scenario of the fit job a calibrated model names (its first case's, with the fit's
+/// The scenario of the fit job a calibrated model names (its first cone case's, with the fit's
 /// output interval), for `compare` without `--scenario`.
 pub fn scenario_of_job(calibrated: &CalibratedModel) -> Option<LoadedScenario> {
     calibrated
         .job
         .as_ref()
-        .and_then(|job| job.cases.first())
-        .map(|case| case.scenario.clone())
+        .and_then(|job| job.cases.iter().find_map(|case| case.cone_scenario()))
+        .cloned()
 }
 
 /// Reads each test description and scores it.

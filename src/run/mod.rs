@@ -26,9 +26,9 @@ use crate::fit::engine::{
 };
 use crate::fit::identifiability::{analyse, Identifiability};
 use crate::fit::job::{data_files, load_job, FitJob};
-use crate::fit::model::{model_at_data_times, CaseModel};
+use crate::fit::model::CaseModel;
 use crate::fit::objective::Objective;
-use crate::fit::parameters::apply_all;
+use crate::fit::parameters::{apply_all, apply_to_material_all};
 use progress::{ParameterInfo, PartInfo, ProgressEvent, ProgressWriter, FORMAT_VERSION};
 
 /// Errors of a fit run.
@@ -157,6 +157,15 @@ pub struct SummaryParameter {
     pub sensitivity: Option<f64>,
     pub sensitivity_rank: Option<usize>,
     pub warnings: Vec<String>,
+}
+
+/// Reads a run's `summary.json` (e.g. for `prior_from` in a later job).
+pub fn read_summary(path: &Path) -> Result<RunSummary, RunError> {
+    let bytes = std::fs::read(path).map_err(io("cannot read", path))?;
+    serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
+        path: path.to_path_buf(),
+        problem: e.to_string(),
+    })
 }
 
 /// How the run is to be started.
@@ -326,8 +335,14 @@ fn write_best_model(
     provenance: &Provenance,
 ) -> Result<(), RunError> {
     let mut material = job.material.material.clone();
-    let mut scenario = job.cases[0].scenario.scenario.clone();
-    apply_all(&job.parameters, values, &mut material, &mut scenario);
+    match job.cases.iter().find_map(|case| case.cone_scenario()) {
+        Some(loaded) => {
+            let mut scenario = loaded.scenario.clone();
+            apply_all(&job.parameters, values, &mut material, &mut scenario);
+        }
+        // A job of milligram cases alone has no scenario values to set.
+        None => apply_to_material_all(&job.parameters, values, &mut material),
+    }
     let fitted: Vec<FittedValue> = values
         .iter()
         .enumerate()
@@ -716,19 +731,18 @@ fn write_case_curves(
 ) -> Result<(), RunError> {
     std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.cases()))?;
     for case in &job.cases {
-        let Ok(history) = model.simulate_case(case, values) else {
+        let Ok(curves) = model.predict_case(case, values) else {
             continue;
         };
-        for signal in &case.signals {
-            let modelled =
-                model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
+        for (signal, curve) in case.signals.iter().zip(&curves) {
+            let modelled = &curve.values;
             let mut text = String::from("time_s,measured,sigma,model,residual\n");
             for (((time_s, measured), sigma), model) in signal
                 .time_s
                 .iter()
                 .zip(&signal.value)
                 .zip(&signal.sigma)
-                .zip(&modelled)
+                .zip(modelled)
             {
                 let residual = (model - measured) / sigma;
                 text.push_str(&format!(

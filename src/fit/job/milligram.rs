@@ -1,0 +1,373 @@
+//! Milligram-scale cases of a fit job (docs/fit-jobs.md, "Milligram-scale cases"): one TGA, DSC
+//! or MCC file read by `microscale::files`, the heating programme from the case's milligram
+//! scenario or fitted to the file's temperatures, and the file's signal. Also the checks that
+//! keep cone and milligram keys apart, each naming file, line and key.
+
+use std::path::Path;
+
+use toml::Spanned;
+
+use super::{CaseFile, CaseSetup, FitCase, MilligramSetup, SignalData, SignalFile, SignalKind};
+use crate::case::source::{error_chain, Source};
+use crate::case::{CaseError, MaterialModel};
+use crate::microscale::{
+    is_milligram_scenario, load_milligram_scenario, read_thermogram, MeasurementKind,
+    MilligramCase, Thermogram,
+};
+use crate::physics::zero_d::ZeroDSettings;
+
+/// What a `[[case]]` is.
+pub(super) enum CaseKind {
+    Cone,
+    /// A milligram case; the kind when the job states it (else the file's).
+    Milligram(Option<MeasurementKind>),
+}
+
+/// A case is a milligram case when its `kind` says so, or when it names a milligram `scenario`.
+pub(super) fn case_kind(
+    source: &Source,
+    idx: usize,
+    raw: &CaseFile,
+) -> Result<CaseKind, CaseError> {
+    let key = format!("case[{idx}].kind");
+    let Some(kind) = &raw.kind else {
+        return Ok(match raw.scenario {
+            Some(_) => CaseKind::Milligram(None),
+            None => CaseKind::Cone,
+        });
+    };
+    Ok(match kind.get_ref().as_str() {
+        "cone" => {
+            if let Some(scenario) = &raw.scenario {
+                return Err(source.invalid(
+                    &scenario.span(),
+                    &format!("case[{idx}].scenario"),
+                    "belongs to milligram cases; a cone case runs the job's `scenario`",
+                ));
+            }
+            CaseKind::Cone
+        }
+        "tga" => CaseKind::Milligram(Some(MeasurementKind::Tga)),
+        "dsc" => CaseKind::Milligram(Some(MeasurementKind::Dsc)),
+        "mcc" => CaseKind::Milligram(Some(MeasurementKind::Mcc)),
+        other => {
+            return Err(source.invalid(
+                &kind.span(),
+                &key,
+                format!("must be \"cone\", \"tga\", \"dsc\" or \"mcc\", got \"{other}\""),
+            ))
+        }
+    })
+}
+
+/// The error for a cone case in a job without a `scenario`, at the case's first test.
+pub(super) fn cone_case_without_scenario(source: &Source, idx: usize, raw: &CaseFile) -> CaseError {
+    let problem = format!(
+        "is missing: case `{}` (case[{idx}]) is a cone case and runs the job's scenario; only \
+         milligram cases (`kind = \"tga\"`, \"dsc\" or \"mcc\") run without one",
+        raw.name
+    );
+    match raw.tests.first() {
+        Some(test) => source.invalid(&test.span(), "scenario", problem),
+        None => source.inconsistent(format!("`scenario` {problem}")),
+    }
+}
+
+/// Refuses what belongs to milligram cases in a cone case: a thermogram among the tests, or a
+/// milligram signal.
+pub(super) fn check_cone_case(
+    source: &Source,
+    idx: usize,
+    raw: &CaseFile,
+) -> Result<(), CaseError> {
+    if let Some(test) = raw
+        .tests
+        .iter()
+        .find(|t| t.get_ref().to_lowercase().ends_with(".csv"))
+    {
+        return Err(source.invalid(
+            &test.span(),
+            &format!("case[{idx}].tests"),
+            format!(
+                "`{}` is a data file; a cone case names test descriptions (.toml, \
+                 docs/test-files.md), and a TGA, DSC or MCC file needs the case's \
+                 `kind = \"tga\"`, \"dsc\" or \"mcc\"",
+                test.get_ref()
+            ),
+        ));
+    }
+    for (signal_idx, signal) in raw.signals.iter().enumerate() {
+        if let Some(kind) = signal.signal.milligram_kind() {
+            return Err(source.invalid(
+                &signal_span(source, raw, signal.signal),
+                &format!("case[{idx}].signals[{signal_idx}].signal"),
+                format!(
+                    "`{}` is a milligram-scale signal ({}); case `{}` is a cone case (give it \
+                     `kind = \"{}\"` and a {} file, or a cone signal: mlr, hrr, mass, \
+                     ignition_time)",
+                    signal.signal.name(),
+                    kind.name().to_uppercase(),
+                    raw.name,
+                    kind.name(),
+                    kind.name().to_uppercase()
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
+/// Where a signal is written: the first `"<name>"` after the `[[case]]` header that holds the
+/// case's first test (signals carry no span of their own), else that test's line.
+fn signal_span(source: &Source, raw: &CaseFile, signal: SignalKind) -> std::ops::Range<usize> {
+    let Some(test) = raw.tests.first() else {
+        return 0..0;
+    };
+    let case_start = source.text[..test.span().start.min(source.text.len())]
+        .rfind("[[case]]")
+        .unwrap_or(0);
+    let quoted = format!("\"{}\"", signal.name());
+    match source.text[case_start..].find(&quoted) {
+        Some(offset) => case_start + offset..case_start + offset + quoted.len(),
+        None => test.span(),
+    }
+}
+
+/// Builds a milligram case: its file, programme, composition and signal.
+#[allow(clippy::too_many_arguments)]
+pub(super) fn build_milligram_case(
+    source: &Source,
+    idx: usize,
+    raw: &CaseFile,
+    declared: Option<MeasurementKind>,
+    base: &Path,
+    job_material: (&Path, &MaterialModel),
+    output_interval_s: f64,
+) -> Result<FitCase, CaseError> {
+    let key = |field: &str| format!("case[{idx}].{field}");
+    let cone_only = [
+        ("irradiance_kw_m2", &raw.irradiance_kw_m2),
+        ("thickness_mm", &raw.thickness_mm),
+        ("duration_s", &raw.duration_s),
+    ];
+    for (field, value) in cone_only {
+        if let Some(value) = value {
+            return Err(source.invalid(
+                &value.span(),
+                &key(field),
+                "belongs to cone cases; a milligram case takes its programme from its file or \
+                 its `scenario`",
+            ));
+        }
+    }
+    if raw.align.is_some() {
+        return Err(source.inconsistent(format!(
+            "case `{}`: `align` belongs to cone cases (a milligram case reads one file)",
+            raw.name
+        )));
+    }
+    let test = match raw.tests.as_slice() {
+        [] => return Err(source.inconsistent(format!("case `{}` names no tests", raw.name))),
+        [test] => test,
+        [_, second, ..] => {
+            return Err(source.invalid(
+                &second.span(),
+                &key("tests"),
+                format!(
+                    "a milligram case reads one file, got {}; give each heating rate or \
+                     repeat its own [[case]]",
+                    raw.tests.len()
+                ),
+            ))
+        }
+    };
+    let test_path = base.join(test.get_ref());
+    let thermogram = read_thermogram(&test_path).map_err(|err| {
+        source.invalid(
+            &test.span(),
+            &key("tests"),
+            format!("cannot use {}: {}", test_path.display(), error_chain(&err)),
+        )
+    })?;
+    if let (Some(declared), Some(kind_span)) = (declared, raw.kind.as_ref().map(Spanned::span)) {
+        if declared != thermogram.kind {
+            return Err(source.invalid(
+                &kind_span,
+                &key("kind"),
+                format!(
+                    "is \"{}\", but {} reads as a {} file (by its signal column's unit and name)",
+                    declared.name(),
+                    test_path.display(),
+                    thermogram.kind.name().to_uppercase()
+                ),
+            ));
+        }
+    }
+    let mut test_files = vec![test_path.clone()];
+    let (material_path, material) = job_material;
+    let setup = match &raw.scenario {
+        Some(scenario_file) => {
+            let scenario_path = base.join(scenario_file.get_ref());
+            let invalid =
+                |problem: String| source.invalid(&scenario_file.span(), &key("scenario"), problem);
+            if scenario_path.is_file() && !is_milligram_scenario(&scenario_path) {
+                return Err(invalid(format!(
+                    "{} is not a milligram-scale scenario (it has no [programme] table)",
+                    scenario_path.display()
+                )));
+            }
+            let mut scenario = load_milligram_scenario(&scenario_path).map_err(|err| {
+                invalid(format!(
+                    "cannot use {}: {}",
+                    scenario_path.display(),
+                    error_chain(&err)
+                ))
+            })?;
+            scenario
+                .use_material(material_path, material.clone())
+                .map_err(|err| invalid(error_chain(&err)))?;
+            test_files.push(scenario_path);
+            MilligramSetup {
+                kind: thermogram.kind,
+                programme: scenario.programme,
+                programme_start_s: 0.0,
+                initial_mass_fractions: scenario.initial_mass_fractions,
+                settings: scenario.settings,
+            }
+        }
+        None => {
+            let case = MilligramCase::from_thermogram(&thermogram).map_err(|err| {
+                source.invalid(
+                    &test.span(),
+                    &key("tests"),
+                    format!(
+                        "cannot follow the temperature of {}: {}",
+                        test_path.display(),
+                        error_chain(&err)
+                    ),
+                )
+            })?;
+            let mut initial_mass_fractions = vec![0.0; material.material.components.len()];
+            initial_mass_fractions[0] = 1.0;
+            MilligramSetup {
+                kind: thermogram.kind,
+                programme: case.programme,
+                programme_start_s: thermogram.time_s[0],
+                initial_mass_fractions,
+                settings: ZeroDSettings {
+                    output_interval_s,
+                    ..ZeroDSettings::default()
+                },
+            }
+        }
+    };
+    let expected = SignalKind::of_milligram(thermogram.kind);
+    let mut signals = Vec::new();
+    if raw.signals.is_empty() {
+        signals.push(signal_data(
+            source,
+            raw,
+            &thermogram,
+            expected,
+            None,
+            &key("signals[0]"),
+        )?);
+    }
+    for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
+        let signal_key = key(&format!("signals[{signal_idx}]"));
+        if raw_signal.signal != expected {
+            return Err(source.invalid(
+                &signal_span(source, raw, raw_signal.signal),
+                &format!("{signal_key}.signal"),
+                format!(
+                    "is `{}`, but {} is a {} file, whose signal is `{}`",
+                    raw_signal.signal.name(),
+                    test_path.display(),
+                    thermogram.kind.name().to_uppercase(),
+                    expected.name()
+                ),
+            ));
+        }
+        signals.push(signal_data(
+            source,
+            raw,
+            &thermogram,
+            expected,
+            Some(raw_signal),
+            &signal_key,
+        )?);
+    }
+    Ok(FitCase {
+        name: raw.name.clone(),
+        setup: CaseSetup::Milligram(Box::new(setup)),
+        exposed_area_m2: 0.0,
+        signals,
+        test_files,
+    })
+}
+
+/// The measured signal of a file within the signal's window, with its weight and σ (the
+/// stated `sigma`, else the largest absolute value in the window, as for cone signals).
+fn signal_data(
+    source: &Source,
+    raw: &CaseFile,
+    thermogram: &Thermogram,
+    kind: SignalKind,
+    raw_signal: Option<&SignalFile>,
+    signal_key: &str,
+) -> Result<SignalData, CaseError> {
+    let field = |name: &str| format!("{signal_key}.{name}");
+    let weight = match raw_signal.and_then(|s| s.weight.as_ref()) {
+        Some(v) => source.non_negative(v, &field("weight"))?,
+        None => 1.0,
+    };
+    let (window_start, window_end) = match raw_signal.and_then(|s| s.window_s.as_ref()) {
+        Some(w) => {
+            let [a, b] = *w.get_ref();
+            if b <= a {
+                return Err(source.invalid(
+                    &w.span(),
+                    &field("window_s"),
+                    format!("must be [start, end] with end > start, got [{a}, {b}]"),
+                ));
+            }
+            (a, b)
+        }
+        None => (f64::NEG_INFINITY, f64::INFINITY),
+    };
+    let (mut time_s, mut value) = (Vec::new(), Vec::new());
+    for (&t, &v) in thermogram.time_s.iter().zip(&thermogram.values) {
+        if t >= window_start && t <= window_end && v.is_finite() {
+            time_s.push(t);
+            value.push(v);
+        }
+    }
+    if time_s.is_empty() {
+        return Err(source.inconsistent(format!(
+            "case `{}`: signal `{}` has no data in its window",
+            raw.name,
+            kind.name()
+        )));
+    }
+    let (sigma, sigma_source) = match raw_signal.and_then(|s| s.sigma.as_ref()) {
+        Some(v) => (
+            vec![source.positive(v, &field("sigma"))?; time_s.len()],
+            "sigma",
+        ),
+        None => {
+            let peak = value
+                .iter()
+                .fold(0.0f64, |m, v| m.max(v.abs()))
+                .max(f64::MIN_POSITIVE);
+            (vec![peak; time_s.len()], "peak")
+        }
+    };
+    Ok(SignalData {
+        kind,
+        weight,
+        time_s,
+        value,
+        sigma,
+        sigma_source,
+    })
+}
