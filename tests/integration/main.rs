@@ -4,6 +4,7 @@ mod cli;
 mod data;
 mod fit;
 mod microscale;
+mod milligram_fit;
 mod pmma_fit;
 mod predict;
 mod properties;
