@@ -489,6 +489,47 @@ mod tests {
         assert!((peak_temperature_k(a, 188e3, beta) - 640.0).abs() < 1e-6);
     }
 
+    /// A milligram case has no scenario: applying to the material alone sets the material
+    /// targets (derived ones after E) and leaves scenario targets out.
+    #[test]
+    fn applying_to_the_material_alone_skips_scenario_targets() {
+        let material = crate::microscale::fit::single_step_material(1e12, 150e3, 1.0).unwrap();
+        let free = |name: &str, targets: Vec<Target>| FreeParameter {
+            name: name.into(),
+            unit: String::new(),
+            lower: 0.0,
+            upper: 1e3,
+            scale: Scale::Linear,
+            start: 1.0,
+            prior: None,
+            targets,
+        };
+        let beta = 10.0 / 60.0;
+        let parameters = vec![
+            free(
+                "peak",
+                vec![Target::PeakTemperature {
+                    reaction: 0,
+                    heating_rate_k_s: beta,
+                }],
+            ),
+            free("e", vec![Target::ActivationEnergy { reaction: 0 }]),
+            free("flame", vec![Target::FlameHeatFlux]),
+        ];
+        let mut applied = material.clone();
+        apply_to_material_all(&parameters, &[640.0, 180.0, 12.0], &mut applied);
+        let reaction = &applied.reactions[0];
+        assert_eq!(reaction.activation_energy_j_mol, 180e3);
+        let peak = peak_temperature_k(reaction.pre_exponential_per_s, 180e3, beta);
+        assert!((peak - 640.0).abs() < 1e-6, "{peak}");
+        assert!(Target::FlameHeatFlux.is_scenario_target());
+        assert_eq!(Target::FlameHeatFlux.read_material(&applied), None);
+        assert_eq!(
+            Target::ActivationEnergy { reaction: 0 }.read_material(&applied),
+            Some(180.0)
+        );
+    }
+
     #[test]
     fn log_scale_maps_the_unit_interval_geometrically() {
         let parameter = FreeParameter {

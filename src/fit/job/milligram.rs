@@ -371,3 +371,45 @@ fn signal_data(
         sigma_source,
     })
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fit::job::load_job;
+
+    /// A TGA case without `signals` fits its file's mass fraction on a programme that starts at
+    /// the first data time; with a milligram scenario the programme is the scenario's and
+    /// starts at data time 0, and the scenario file joins the case's files.
+    #[test]
+    fn a_tga_case_defaults_to_its_files_signal_and_takes_a_scenarios_programme() {
+        let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
+        let dir = std::env::temp_dir().join(format!("emberfit-mgjob-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let job = format!(
+            "title = \"t\"\nmaterial = \"{m}/models/thermoplastic.toml\"\n\n[[parameter]]\n\
+             path = \"reaction.0.activation_energy_kj_mol\"\nmin = 100.0\nmax = 250.0\n\n\
+             [[case]]\nname = \"a\"\nkind = \"tga\"\ntests = [\"{m}/demo-cases/ridgeline-panel/tga-10k.csv\"]\n\n\
+             [[case]]\nname = \"b\"\nscenario = \"{m}/demo-cases/pmma-tga/scenario.toml\"\n\
+             tests = [\"{m}/demo-cases/ridgeline-panel/tga-10k.csv\"]\n",
+            m = manifest.display()
+        );
+        let path = dir.join("job.toml");
+        std::fs::write(&path, job).unwrap();
+        let loaded = load_job(&path).unwrap();
+        let _ = std::fs::remove_dir_all(&dir);
+        let (a, b) = (&loaded.cases[0], &loaded.cases[1]);
+        assert_eq!(a.signals.len(), 1);
+        assert_eq!(a.signals[0].kind, SignalKind::MassFraction);
+        assert_eq!(a.signals[0].sigma_source, "peak");
+        let setup_a = a.milligram().unwrap();
+        assert_eq!(setup_a.programme_start_s, a.signals[0].time_s[0]);
+        assert!((setup_a.programme.heating_rate_k_s_at(10.0) * 60.0 - 10.0).abs() < 1e-3);
+        let setup_b = b.milligram().unwrap();
+        assert_eq!(setup_b.kind, MeasurementKind::Tga);
+        assert_eq!(setup_b.programme_start_s, 0.0);
+        // The demo scenario holds for 600 s before its ramp.
+        assert_eq!(setup_b.programme.heating_rate_k_s_at(300.0), 0.0);
+        assert_eq!(b.test_files.len(), 2);
+        assert_eq!(a.exposed_area_m2, 0.0);
+    }
+}
