@@ -165,6 +165,9 @@ fn signal_label(signal: &str) -> String {
         "hrr" => "HRR (kW/m²)".into(),
         "mlr" => "MLR (g/(m²·s))".into(),
         "mass" => "specimen mass (g)".into(),
+        "mass_fraction" => "mass / initial mass (–)".into(),
+        "dsc_heat_flow" => "DSC heat flow (W/g)".into(),
+        "mcc_hrr" => "MCC HRR (W/g)".into(),
         other => other.to_string(),
     }
 }
@@ -300,7 +303,12 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                 curve.case,
                 curve.signal.to_uppercase()
             ),
-            x_label: "time from exposure start (s)".into(),
+            // Milligram files keep their own clock (docs/fit-jobs.md).
+            x_label: match curve.signal.as_str() {
+                "mass_fraction" | "dsc_heat_flow" | "mcc_hrr" => "time in the data file (s)",
+                _ => "time from exposure start (s)",
+            }
+            .into(),
             y_label: label,
             lines: vec![
                 Line {

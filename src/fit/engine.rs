@@ -598,9 +598,9 @@ mod tests {
             .join("demo-cases/ridgeline-panel/scenario.toml");
         FitCase {
             name: "line".into(),
-            setup: crate::fit::job::CaseSetup::Cone(
+            setup: crate::fit::job::CaseSetup::Cone(Box::new(
                 crate::case::load_scenario(&path).expect("demo scenario loads"),
-            ),
+            )),
             exposed_area_m2: 0.01,
             signals: vec![SignalData {
                 kind: SignalKind::Mlr,

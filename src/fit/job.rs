@@ -235,9 +235,9 @@ impl FitCase {
 #[derive(Debug, Clone)]
 pub enum CaseSetup {
     /// A cone test: the 1-D solver on this scenario.
-    Cone(LoadedScenario),
+    Cone(Box<LoadedScenario>),
     /// A TGA, DSC or MCC run: the 0-D model (`physics::zero_d`) of the job's material.
-    Milligram(Box<MilligramSetup>),
+    Milligram(MilligramSetup),
 }
 
 /// A milligram-scale run of the 0-D model, as a case of the fit.
@@ -943,7 +943,7 @@ fn build_case(
     };
     Ok(FitCase {
         name: raw.name.clone(),
-        setup: CaseSetup::Cone(case_scenario),
+        setup: CaseSetup::Cone(Box::new(case_scenario)),
         exposed_area_m2,
         signals,
         test_files,

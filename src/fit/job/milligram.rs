@@ -299,7 +299,7 @@ pub(super) fn build_milligram_case(
     }
     Ok(FitCase {
         name: raw.name.clone(),
-        setup: CaseSetup::Milligram(Box::new(setup)),
+        setup: CaseSetup::Milligram(setup),
         exposed_area_m2: 0.0,
         signals,
         test_files,
