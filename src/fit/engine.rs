@@ -607,6 +607,7 @@ mod tests {
                 value: (0..50).map(|t| 2.0 * t as f64 - 1.0).collect(),
                 sigma: vec![1.0; 50],
                 sigma_source: "sigma",
+                probe: None,
             }],
             test_files: vec![],
         }

@@ -504,10 +504,7 @@ pub fn run_fit(
             .map(|c| {
                 (
                     c.name.clone(),
-                    c.signals
-                        .iter()
-                        .map(|s| s.kind.name().to_string())
-                        .collect(),
+                    c.signals.iter().map(|s| s.label()).collect(),
                 )
             })
             .collect(),
@@ -720,8 +717,7 @@ fn write_case_curves(
             continue;
         };
         for signal in &case.signals {
-            let modelled =
-                model_at_data_times(&history, case.exposed_area_m2, signal.kind, &signal.time_s);
+            let modelled = model_at_data_times(&history, case.exposed_area_m2, signal);
             let mut text = String::from("time_s,measured,sigma,model,residual\n");
             for (((time_s, measured), sigma), model) in signal
                 .time_s
@@ -735,9 +731,9 @@ fn write_case_curves(
                     "{time_s:.3},{measured:.6},{sigma:.6},{model:.6},{residual:.6}\n"
                 ));
             }
-            let path =
-                dir.cases()
-                    .join(format!("{}--{}.csv", slug(&case.name), signal.kind.name()));
+            let path = dir
+                .cases()
+                .join(format!("{}--{}.csv", slug(&case.name), signal.label()));
             write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))?;
         }
     }
