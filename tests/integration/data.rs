@@ -142,14 +142,16 @@ fn pmma_cone_files_read_and_their_heat_of_combustion_is_in_the_stated_band() {
 /// values 0.32 kW²·s/(m⁴·K²) (Drysdale, An Introduction to Fire Dynamics, 3rd ed., 2011; quoted
 /// from memory), apparent values from ignition data being larger (common practice).
 ///
-/// Measured here: TRP 274.6 kW·s^½/m² (thick form), critical heat flux −1.2 (thick), 2.2
-/// (Janssens), 17.7 (thin) kW/m², apparent kρc 0.75 kW²·s/(m⁴·K²) with T_ig = 378 °C. The TRP
-/// is checked to a factor of two; kρc to lie between the property value and four times it. The critical heat
-/// flux is a long extrapolation from two irradiances and comes out well below the handbook's:
-/// we check that Janssens' value is physical (between zero and the lowest irradiance that
-/// ignited) and of the handbook's order of magnitude (a factor of ten), and that the thick
-/// form's negative intercept is flagged. FIXME: tighten when tests near the critical flux
-/// exist. Two irradiances cannot tell thick from thin, which the analysis must say.
+/// Measured here: TRP 274.6 kW·s^½/m² (thick form), apparent kρc 0.75 kW²·s/(m⁴·K²) with
+/// T_ig = 378 °C; critical heat flux −1.2 (thick), 2.2 (Janssens, 95 % interval −6.8 to 11.3),
+/// 17.7 (thin) kW/m², and 13.4 kW/m² from the surface balance at 378 °C. The TRP is checked to
+/// a factor of two; kρc to lie between the property value and four times it. The critical
+/// heat flux is a long extrapolation from two irradiances (25 and 65 kW/m²) with lab-to-lab
+/// scatter, so the data do not pin it down, and the analysis must say so: the handbook value
+/// must lie inside Janssens' 95 % interval, the interval must be flagged as poorly determined,
+/// and the surface balance at the handbook ignition temperature must agree with the handbook
+/// critical flux to within 30 %. Two irradiances cannot tell thick from thin, which the
+/// analysis must also say.
 #[test]
 fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     let Some(dir) = reference_data("pmma_ignition_analysis") else {
@@ -186,13 +188,26 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     assert!((137.0..=548.0).contains(&trp), "TRP {trp}");
     let janssens = analysis.fit(Correlation::Janssens).unwrap();
     let critical = janssens.critical_heat_flux_kw_m2;
+    let [low, high] = janssens.critical_heat_flux_95_kw_m2.unwrap();
+    eprintln!("Janssens critical heat flux {critical:.1} kW/m2, 95 % [{low:.1}, {high:.1}]");
     assert!(
         critical > 0.0 && critical < 25.0,
         "critical heat flux {critical}"
     );
+    const HANDBOOK_CRITICAL_KW_M2: f64 = 11.0;
     assert!(
-        (1.1..=110.0).contains(&critical),
-        "critical heat flux {critical}"
+        (low..=high).contains(&HANDBOOK_CRITICAL_KW_M2),
+        "handbook 11 kW/m2 outside [{low}, {high}]"
+    );
+    assert!(analysis
+        .warnings
+        .iter()
+        .any(|w| w.message.starts_with("the critical heat flux is poorly determined")));
+    let from_balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
+    eprintln!("critical heat flux from the balance at 378 °C: {from_balance:.1} kW/m2");
+    assert!(
+        (from_balance - HANDBOOK_CRITICAL_KW_M2).abs() <= 0.3 * HANDBOOK_CRITICAL_KW_M2,
+        "balance {from_balance}"
     );
     assert!((0.32..=4.0 * 0.32).contains(&krhoc), "kρc {krhoc}");
     assert!(analysis
