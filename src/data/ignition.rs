@@ -595,7 +595,7 @@ mod tests {
 
     /// Γ(k/2) for k ≥ 1 from Γ(½) = √π, Γ(1) = 1 and Γ(x + 1) = x·Γ(x).
     fn gamma_of_half(k: usize) -> f64 {
-        let (mut x, mut value) = if k % 2 == 0 {
+        let (mut x, mut value) = if k.is_multiple_of(2) {
             (1.0, 1.0)
         } else {
             (0.5, std::f64::consts::PI.sqrt())
