@@ -152,6 +152,7 @@ struct SettingsFile {
     seed: Option<u64>,
     local_refinement: Option<bool>,
     local_max_evaluations: Option<Spanned<i64>>,
+    local_starts: Option<Spanned<i64>>,
     output_interval_s: Option<Spanned<f64>>,
 }
 
@@ -206,6 +207,8 @@ pub struct Settings {
     pub seed: u64,
     pub local_refinement: bool,
     pub local_max_evaluations: usize,
+    /// Nelder–Mead runs from this many distinct good points of the final population.
+    pub local_starts: usize,
     pub output_interval_s: f64,
 }
 
@@ -581,6 +584,7 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
         seed: raw.seed.unwrap_or(1),
         local_refinement: raw.local_refinement.unwrap_or(true),
         local_max_evaluations: count(&raw.local_max_evaluations, "local_max_evaluations", 400)?,
+        local_starts: count(&raw.local_starts, "local_starts", 1)?.max(1),
         output_interval_s: match &raw.output_interval_s {
             Some(v) => source.positive(v, "settings.output_interval_s")?,
             None => 1.0,

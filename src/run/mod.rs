@@ -410,6 +410,7 @@ pub fn run_fit(
         seed: job.settings.seed,
         local_refinement: job.settings.local_refinement,
         local_max_evaluations: job.settings.local_max_evaluations as u64,
+        local_starts: job.settings.local_starts,
     };
     let (state, resumed_from) = if options.resume {
         let record_text = std::fs::read_to_string(dir.record())

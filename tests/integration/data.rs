@@ -199,10 +199,9 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
         (low..=high).contains(&HANDBOOK_CRITICAL_KW_M2),
         "handbook 11 kW/m2 outside [{low}, {high}]"
     );
-    assert!(analysis
-        .warnings
-        .iter()
-        .any(|w| w.message.starts_with("the critical heat flux is poorly determined")));
+    assert!(analysis.warnings.iter().any(|w| w
+        .message
+        .starts_with("the critical heat flux is poorly determined")));
     let from_balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
     eprintln!("critical heat flux from the balance at 378 °C: {from_balance:.1} kW/m2");
     assert!(
