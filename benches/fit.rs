@@ -63,6 +63,7 @@ fn main() {
                 seed,
                 local_refinement: false,
                 local_max_evaluations: 0,
+                local_starts: 1,
             },
         )
     };
@@ -113,6 +114,7 @@ fn main() {
             seed: job.settings.seed,
             local_refinement: true,
             local_max_evaluations: 400,
+            local_starts: 1,
         };
         let started = Instant::now();
         let outcome = optimise(&objective, &settings, initial_state(&job.parameters, &settings), &mut Quiet);
@@ -136,6 +138,7 @@ fn main() {
                 seed,
                 local_refinement: false,
                 local_max_evaluations: 0,
+                local_starts: 1,
             };
             let started = Instant::now();
             let de = optimise(&objective, &settings, initial_state(&job.parameters, &settings), &mut Quiet);

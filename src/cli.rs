@@ -253,7 +253,7 @@ pub struct SynthesizeArgs {
     /// Largest start-time offset of the logged clock, s (uniform in ±this).
     #[arg(long, value_name = "S", default_value_t = 3.0)]
     pub time_jitter_s: f64,
-    /// Output CSV (`time_s,mass_g,hrr_kw_m2`).
+    /// Output CSV (`time_s,mass_g,hrr_kw_m2,surface_temperature_k,back_temperature_k`).
     #[arg(long, value_name = "FILE.csv")]
     pub out: PathBuf,
 }

@@ -886,6 +886,7 @@ fn ignition_json(analysis: &IgnitionAnalysis, notices: &[Notice]) -> serde_json:
                 "slope": f.slope,
                 "intercept": f.intercept,
                 "critical_heat_flux_kw_m2": f.critical_heat_flux_kw_m2,
+                "critical_heat_flux_95_kw_m2": f.critical_heat_flux_95_kw_m2,
                 "r_squared": f.r_squared,
             })
         })
@@ -925,13 +926,20 @@ fn ignition_table(analysis: &IgnitionAnalysis) -> String {
             p.irradiance_kw_m2, p.ignition_time_s, p.label
         ));
     }
-    out.push_str("\n  form              t_ig exponent  critical heat flux kW/m²     R²\n");
+    out.push_str(
+        "\n  form              t_ig exponent  critical heat flux kW/m²  95 % interval        R²\n",
+    );
     for f in &analysis.fits {
+        let interval = match f.critical_heat_flux_95_kw_m2 {
+            Some([low, high]) => format!("{low:.1} .. {high:.1}"),
+            None => "–".to_string(),
+        };
         out.push_str(&format!(
-            "  {:<16}  {:>13.3}  {:>24.2}  {:>6.4}\n",
+            "  {:<16}  {:>13.3}  {:>24.2}  {:<16}  {:>6.4}\n",
             f.correlation.name(),
             f.correlation.exponent(),
             f.critical_heat_flux_kw_m2,
+            interval,
             f.r_squared
         ));
     }

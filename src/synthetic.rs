@@ -26,11 +26,14 @@ pub struct NoiseModel {
     pub time_jitter_s: f64,
     /// Interval between logged rows, s.
     pub sample_interval_s: f64,
+    /// Standard deviation of the surface and back-face thermocouples, K.
+    pub temperature_noise_k: f64,
 }
 
 impl Default for NoiseModel {
     /// Values of the order seen in cone calorimeter logs (common practice, no single source):
-    /// load cell ±0.05 g, HRR ±2 kW/m² plus 3 %, start offset up to 3 s, 1 s rows.
+    /// load cell ±0.05 g, HRR ±2 kW/m² plus 3 %, start offset up to 3 s, 1 s rows,
+    /// thermocouples ±1 K.
     fn default() -> Self {
         NoiseModel {
             area_m2: 0.01,
@@ -39,6 +42,7 @@ impl Default for NoiseModel {
             hrr_relative_noise: 0.03,
             time_jitter_s: 3.0,
             sample_interval_s: 1.0,
+            temperature_noise_k: 1.0,
         }
     }
 }
@@ -52,6 +56,10 @@ pub struct SyntheticTest {
     pub mass_g: Vec<f64>,
     /// Heat release rate per exposed area, kW/m².
     pub hrr_kw_m2: Vec<f64>,
+    /// Exposed-surface temperature, K.
+    pub surface_temperature_k: Vec<f64>,
+    /// Temperature of the specimen's unexposed face (at the backing), K.
+    pub back_temperature_k: Vec<f64>,
     /// The offset added to the model's clock, s.
     pub time_offset_s: f64,
     /// Ignition time as an observer would log it (model time plus offset), s.
@@ -68,12 +76,18 @@ pub fn synthesize(history: &History, noise: &NoiseModel, seed: u64) -> Synthetic
         0.0
     };
     let standard = Normal::new(0.0, 1.0).unwrap_or_else(|_| unreachable!("unit normal is valid"));
+    // The thermocouples draw from a stream of their own, so the mass and HRR noise of a seed
+    // stay as they were before temperatures were logged.
+    let mut thermocouple_rng = ChaCha8Rng::seed_from_u64(seed);
+    thermocouple_rng.set_stream(1);
     let end_s = history.samples.last().map_or(0.0, |s| s.time_s);
     let n_rows = (end_s / noise.sample_interval_s).floor() as usize + 1;
     let mut test = SyntheticTest {
         time_s: Vec::with_capacity(n_rows),
         mass_g: Vec::with_capacity(n_rows),
         hrr_kw_m2: Vec::with_capacity(n_rows),
+        surface_temperature_k: Vec::with_capacity(n_rows),
+        back_temperature_k: Vec::with_capacity(n_rows),
         time_offset_s,
         ignition_time_s: history.summary.ignition_time_s.map(|t| t + time_offset_s),
         initial_mass_g: history.summary.initial_mass_kg_m2 * noise.area_m2 * 1e3,
@@ -88,16 +102,41 @@ pub fn synthesize(history: &History, noise: &NoiseModel, seed: u64) -> Synthetic
             .push(mass_g + noise.mass_noise_g * standard.sample(&mut rng));
         test.hrr_kw_m2
             .push(hrr_kw_m2 + hrr_sigma * standard.sample(&mut rng));
+        for (column, pick) in [
+            (
+                &mut test.surface_temperature_k,
+                (|s: &crate::physics::Sample| s.surface_temperature_k) as fn(&_) -> f64,
+            ),
+            (&mut test.back_temperature_k, |s| s.back_temperature_k),
+        ] {
+            column.push(
+                history.value_at(model_time_s, pick)
+                    + noise.temperature_noise_k * standard.sample(&mut thermocouple_rng),
+            );
+        }
     }
     test
 }
 
-/// The test as CSV text: `time_s,mass_g,hrr_kw_m2`.
+/// The test as CSV text:
+/// `time_s,mass_g,hrr_kw_m2,surface_temperature_k,back_temperature_k`.
 pub fn synthetic_csv(test: &SyntheticTest) -> Result<Vec<u8>, csv::Error> {
     let mut writer = csv::Writer::from_writer(Vec::new());
-    writer.write_record(["time_s", "mass_g", "hrr_kw_m2"])?;
-    for ((t, m), q) in test.time_s.iter().zip(&test.mass_g).zip(&test.hrr_kw_m2) {
-        writer.write_record([format!("{t:.2}"), format!("{m:.3}"), format!("{q:.2}")])?;
+    writer.write_record([
+        "time_s",
+        "mass_g",
+        "hrr_kw_m2",
+        "surface_temperature_k",
+        "back_temperature_k",
+    ])?;
+    for row in 0..test.time_s.len() {
+        writer.write_record([
+            format!("{:.2}", test.time_s[row]),
+            format!("{:.3}", test.mass_g[row]),
+            format!("{:.2}", test.hrr_kw_m2[row]),
+            format!("{:.2}", test.surface_temperature_k[row]),
+            format!("{:.2}", test.back_temperature_k[row]),
+        ])?;
     }
     writer
         .into_inner()
@@ -115,6 +154,7 @@ mod tests {
                 time_s: t as f64,
                 mass_kg_m2,
                 hrr_w_m2,
+                back_temperature_k: 400.0,
                 ..Sample::default()
             })
             .collect();
@@ -159,6 +199,9 @@ mod tests {
         assert!((mass_sd - 0.05).abs() < 0.005, "{mass_sd}");
         assert!((hrr_mean - 100.0).abs() < 0.5, "{hrr_mean}");
         assert!((hrr_sd - 5.0).abs() < 0.5, "{hrr_sd}");
+        let (back_mean, back_sd) = stats(&test.back_temperature_k);
+        assert!((back_mean - 400.0).abs() < 0.2, "{back_mean}");
+        assert!((back_sd - 1.0).abs() < 0.1, "{back_sd}");
         assert!(test.time_offset_s.abs() <= 3.0);
     }
 

@@ -67,6 +67,20 @@ pub struct Columns {
     pub exhaust_temperature: Option<ColumnName>,
     /// Smoke photometer light intensity (any unit; only ratios are used).
     pub smoke_light: Option<ColumnName>,
+    /// Exposed-surface temperature (e.g. a surface thermocouple or a pyrometer).
+    pub surface_temperature: Option<ColumnName>,
+    /// Temperature of the specimen's unexposed face (between specimen and backing).
+    pub back_temperature: Option<ColumnName>,
+    /// Thermocouples inside the specimen, each at a depth below the initial exposed surface.
+    pub in_depth_temperature: Vec<DepthColumn>,
+}
+
+/// A temperature column measured at a depth in the specimen.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DepthColumn {
+    pub column: ColumnName,
+    /// Depth below the initial exposed surface, mm.
+    pub depth_mm: f64,
 }
 
 /// Ambient conditions of the test.
@@ -295,6 +309,18 @@ struct RawColumns {
     orifice_pressure: Option<RawColumn>,
     exhaust_temperature: Option<RawColumn>,
     smoke_light: Option<RawColumn>,
+    surface_temperature: Option<RawColumn>,
+    back_temperature: Option<RawColumn>,
+    #[serde(default)]
+    in_depth_temperature: Vec<RawDepthColumn>,
+}
+
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawDepthColumn {
+    name: String,
+    unit: Option<String>,
+    depth_mm: Spanned<f64>,
 }
 
 #[derive(Debug, Deserialize)]
@@ -512,6 +538,28 @@ impl TestDescription {
             orifice_pressure: raw.columns.orifice_pressure.map(RawColumn::into_column),
             exhaust_temperature: raw.columns.exhaust_temperature.map(RawColumn::into_column),
             smoke_light: raw.columns.smoke_light.map(RawColumn::into_column),
+            surface_temperature: raw.columns.surface_temperature.map(RawColumn::into_column),
+            back_temperature: raw.columns.back_temperature.map(RawColumn::into_column),
+            in_depth_temperature: raw
+                .columns
+                .in_depth_temperature
+                .into_iter()
+                .enumerate()
+                .map(|(idx, c)| {
+                    let depth_mm = check.non_negative(
+                        &c.depth_mm,
+                        &format!("columns.in_depth_temperature[{idx}].depth_mm"),
+                    )?;
+                    Ok(DepthColumn {
+                        column: ColumnName {
+                            name: c.name,
+                            unit: c.unit,
+                            is_required: true,
+                        },
+                        depth_mm,
+                    })
+                })
+                .collect::<Result<Vec<_>, DataError>>()?,
         };
 
         let gas = match &raw.gas_analysis {
@@ -774,6 +822,9 @@ impl TestDescription {
                 orifice_pressure: None,
                 exhaust_temperature: None,
                 smoke_light: None,
+                surface_temperature: None,
+                back_temperature: None,
+                in_depth_temperature: Vec::new(),
             },
             gas: None,
             methane_burner: None,

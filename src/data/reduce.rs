@@ -46,12 +46,27 @@ pub struct Reduced {
     pub extinction_coefficient_1_m: Option<Vec<f64>>,
     /// Smoke production rate V̇·k, m²/s.
     pub smoke_production_m2_s: Option<Vec<f64>>,
+    /// Exposed-surface temperature, K.
+    pub surface_temperature_k: Option<Vec<f64>>,
+    /// Temperature of the specimen's unexposed face, K.
+    pub back_temperature_k: Option<Vec<f64>>,
+    /// In-depth thermocouples, K, in the description's order.
+    pub in_depth_temperature_k: Vec<DepthCurve>,
     /// Orifice constant used (or found, for a methane calibration run), m^½·kg^½·K^½.
     pub orifice_constant: Option<f64>,
     /// Report quantities.
     pub report: Report,
     /// Every repair and assumption, in the order made.
     pub notices: Vec<Notice>,
+}
+
+/// A temperature measured at a depth below the initial exposed surface.
+#[derive(Debug, Clone, PartialEq)]
+pub struct DepthCurve {
+    /// Depth, mm.
+    pub depth_mm: f64,
+    /// Temperature, K, on the reduced time base.
+    pub temperature_k: Vec<f64>,
 }
 
 /// Signals read from the data file, cleaned, on the shifted time base (may include t < 0).
@@ -65,12 +80,15 @@ struct Signals {
     orifice_pressure_pa: Option<Vec<f64>>,
     exhaust_temperature_k: Option<Vec<f64>>,
     smoke_light: Option<Vec<f64>>,
+    surface_temperature_k: Option<Vec<f64>>,
+    back_temperature_k: Option<Vec<f64>>,
+    in_depth_temperature_k: Vec<Vec<f64>>,
     notices: Vec<Notice>,
 }
 
 fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
     let columns = &test.columns;
-    let wanted = [
+    let mut wanted = vec![
         (Some(&columns.time), Quantity::Time),
         (columns.mass.as_ref(), Quantity::Mass),
         (columns.hrr.as_ref(), Quantity::HeatReleaseRate),
@@ -80,7 +98,12 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
         (columns.orifice_pressure.as_ref(), Quantity::Pressure),
         (columns.exhaust_temperature.as_ref(), Quantity::Temperature),
         (columns.smoke_light.as_ref(), Quantity::Any),
+        (columns.surface_temperature.as_ref(), Quantity::Temperature),
+        (columns.back_temperature.as_ref(), Quantity::Temperature),
     ];
+    for probe in &columns.in_depth_temperature {
+        wanted.push((Some(&probe.column), Quantity::Temperature));
+    }
     let requests: Vec<ColumnRequest> = wanted
         .iter()
         .filter_map(|(column, quantity)| {
@@ -235,6 +258,11 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
     let orifice = next();
     let exhaust = next();
     let light = next();
+    let surface = next();
+    let back = next();
+    let in_depth: Vec<Vec<f64>> = (0..test.columns.in_depth_temperature.len())
+        .filter_map(|_| next().map(|s| s.0))
+        .collect();
     Ok(Signals {
         time_s,
         mass_g: mass.map(|s| s.0),
@@ -245,6 +273,9 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
         orifice_pressure_pa: orifice.map(|s| s.0),
         exhaust_temperature_k: exhaust.map(|s| s.0),
         smoke_light: light.map(|s| s.0),
+        surface_temperature_k: surface.map(|s| s.0),
+        back_temperature_k: back.map(|s| s.0),
+        in_depth_temperature_k: in_depth,
         notices,
     })
 }
@@ -614,6 +645,18 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
     let mass_g = mass_all.as_ref().map(cut);
     let extinction_coefficient_1_m = extinction_all.as_ref().map(cut);
     let smoke_production_m2_s = smoke_all.as_ref().map(cut);
+    let surface_temperature_k = signals.surface_temperature_k.as_ref().map(cut);
+    let back_temperature_k = signals.back_temperature_k.as_ref().map(cut);
+    let in_depth_temperature_k = test
+        .columns
+        .in_depth_temperature
+        .iter()
+        .zip(&signals.in_depth_temperature_k)
+        .map(|(probe, values)| DepthCurve {
+            depth_mm: probe.depth_mm,
+            temperature_k: cut(values),
+        })
+        .collect();
 
     let mlr_g_m2s = match &mass_g {
         Some(mass) => {
@@ -688,6 +731,9 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         hrr_from_mass_kw_m2,
         extinction_coefficient_1_m,
         smoke_production_m2_s,
+        surface_temperature_k,
+        back_temperature_k,
+        in_depth_temperature_k,
         orifice_constant,
         report,
         notices,

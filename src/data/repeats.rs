@@ -39,6 +39,13 @@ pub struct RepeatSet {
     pub mlr_g_m2s: Option<MeanCurve>,
     /// Mass across tests, g.
     pub mass_g: Option<MeanCurve>,
+    /// Exposed-surface temperature across tests, K.
+    pub surface_temperature_k: Option<MeanCurve>,
+    /// Unexposed-face temperature across tests, K.
+    pub back_temperature_k: Option<MeanCurve>,
+    /// In-depth temperatures across tests, K, with their depth in mm: one per depth of the
+    /// first test, averaged over the tests that measured the same depth (within 0.01 mm).
+    pub in_depth_temperature_k: Vec<(f64, MeanCurve)>,
     /// Time shift applied to each test, s (zero when aligned at exposure start).
     pub shifts_s: Vec<f64>,
     /// Warnings (e.g. different irradiances in one set).
@@ -150,10 +157,24 @@ pub fn combine(tests: &[Reduced], alignment: Alignment) -> Result<RepeatSet, Dat
             n_tests,
         })
     };
+    fn at_depth(test: &Reduced, depth_mm: f64) -> Option<&Vec<f64>> {
+        test.in_depth_temperature_k
+            .iter()
+            .find(|c| (c.depth_mm - depth_mm).abs() <= 0.01)
+            .map(|c| &c.temperature_k)
+    }
+    let in_depth_temperature_k = tests[0]
+        .in_depth_temperature_k
+        .iter()
+        .filter_map(|probe| curve(&|t| at_depth(t, probe.depth_mm)).map(|c| (probe.depth_mm, c)))
+        .collect();
     Ok(RepeatSet {
         hrr_kw_m2: curve(&|t| t.hrr_kw_m2.as_ref()),
         mlr_g_m2s: curve(&|t| t.mlr_g_m2s.as_ref()),
         mass_g: curve(&|t| t.mass_g.as_ref()),
+        surface_temperature_k: curve(&|t| t.surface_temperature_k.as_ref()),
+        back_temperature_k: curve(&|t| t.back_temperature_k.as_ref()),
+        in_depth_temperature_k,
         time_s,
         shifts_s,
         notices,

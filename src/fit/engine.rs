@@ -41,6 +41,9 @@ pub struct EngineSettings {
     pub seed: u64,
     pub local_refinement: bool,
     pub local_max_evaluations: u64,
+    /// Nelder–Mead runs from this many distinct good points of the final population (the
+    /// global best first); 1 refines the global best alone.
+    pub local_starts: usize,
 }
 
 impl EngineSettings {
@@ -276,8 +279,28 @@ pub fn optimise<M: Model>(
             state.best_unit = unit;
             state.best_cost = cost;
         }
-        let stopped = refine_locally(objective, settings, &mut state, &clock, observer);
-        if !stopped {
+        // The starts depend only on the final population, so a run resumed during the local
+        // stage repeats it exactly.
+        let starts = local_starts(&state, settings.local_starts);
+        let global_reason = state.stop_reason.take().unwrap_or_default();
+        let mut endings = Vec::new();
+        for start in &starts {
+            let ending = refine_locally(objective, settings, &mut state, start, &clock, observer);
+            endings.push(ending);
+            if ending == LocalEnding::StoppedByRequest {
+                break;
+            }
+        }
+        let stopped = endings.last() == Some(&LocalEnding::StoppedByRequest);
+        if stopped {
+            state.stop_reason = Some(STOP_REQUESTED.to_string());
+        } else {
+            let local = describe_local_endings(&endings);
+            state.stop_reason = Some(if global_reason.is_empty() {
+                local
+            } else {
+                format!("{global_reason}; {local}")
+            });
             state.phase = Phase::Done;
         }
         state.elapsed_s = clock.elapsed_s();
@@ -481,17 +504,71 @@ impl<M: Model> CostFunction for LocalProblem<'_, '_, '_, '_, M> {
     }
 }
 
+/// How one Nelder–Mead run ended.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+enum LocalEnding {
+    Converged,
+    AtBudget,
+    Ended,
+    StoppedByRequest,
+}
+
+/// The points the local stage starts from: the global best, then the best members of the
+/// population that lie more than 0.05 (unit-cube distance) from every start already chosen,
+/// up to `n` in all.
+fn local_starts(state: &EngineState, n: usize) -> Vec<Vec<f64>> {
+    let mut starts = vec![state.best_unit.clone()];
+    let mut order: Vec<usize> = (0..state.costs.len()).collect();
+    order.sort_by(|a, b| state.costs[*a].total_cmp(&state.costs[*b]));
+    for i in order {
+        if starts.len() >= n.max(1) {
+            break;
+        }
+        let member = &state.population[i];
+        let distinct = starts.iter().all(|start| {
+            let squared: f64 = start.iter().zip(member).map(|(a, b)| (a - b).powi(2)).sum();
+            squared.sqrt() > 0.05
+        });
+        if distinct && state.costs[i].is_finite() {
+            starts.push(member.clone());
+        }
+    }
+    starts
+}
+
+fn describe_local_endings(endings: &[LocalEnding]) -> String {
+    let last = match endings.last() {
+        Some(LocalEnding::AtBudget) => "stopped at its budget",
+        Some(LocalEnding::Converged) => "converged",
+        _ => "ended",
+    };
+    if endings.len() == 1 {
+        format!("local refinement {last}")
+    } else {
+        let converged = endings
+            .iter()
+            .filter(|e| **e == LocalEnding::Converged)
+            .count();
+        format!(
+            "local refinement from {} starts ({converged} converged)",
+            endings.len()
+        )
+    }
+}
+
+/// One Nelder–Mead run from `start`; improves `state`'s best when it finds better.
 fn refine_locally<M: Model>(
     objective: &Objective<'_, M>,
     settings: &EngineSettings,
     state: &mut EngineState,
+    start: &[f64],
     clock: &Clock,
     observer: &mut dyn Observer,
-) -> bool {
-    let dims = state.best_unit.len();
-    let mut simplex = vec![state.best_unit.clone()];
+) -> LocalEnding {
+    let dims = start.len();
+    let mut simplex = vec![start.to_vec()];
     for d in 0..dims {
-        let mut vertex = state.best_unit.clone();
+        let mut vertex = start.to_vec();
         vertex[d] = if vertex[d] + 0.05 <= 1.0 {
             vertex[d] + 0.05
         } else {
@@ -519,7 +596,7 @@ fn refine_locally<M: Model>(
     };
     let solver = match NelderMead::new(simplex).with_sd_tolerance(1e-10) {
         Ok(solver) => solver,
-        Err(_) => return false,
+        Err(_) => return LocalEnding::Ended,
     };
     let result = Executor::new(problem, solver)
         .configure(|config| config.max_iters(settings.local_max_evaluations))
@@ -537,23 +614,14 @@ fn refine_locally<M: Model>(
         state.best_unit = tracker.best_unit;
     }
     if tracker.stopped_by_request {
-        state.stop_reason = Some(STOP_REQUESTED.to_string());
-        return true;
-    }
-    let global_reason = state.stop_reason.take().unwrap_or_default();
-    let local = if tracker.stop {
-        "local refinement stopped at its budget".to_string()
+        LocalEnding::StoppedByRequest
+    } else if tracker.stop {
+        LocalEnding::AtBudget
     } else if converged {
-        "local refinement converged".to_string()
+        LocalEnding::Converged
     } else {
-        "local refinement ended".to_string()
-    };
-    state.stop_reason = Some(if global_reason.is_empty() {
-        local
-    } else {
-        format!("{global_reason}; {local}")
-    });
-    false
+        LocalEnding::Ended
+    }
 }
 
 #[cfg(test)]
@@ -609,6 +677,7 @@ mod tests {
                 value: (0..50).map(|t| 2.0 * t as f64 - 1.0).collect(),
                 sigma: vec![1.0; 50],
                 sigma_source: "sigma",
+                probe: None,
             }],
             test_files: vec![],
         }
@@ -624,6 +693,7 @@ mod tests {
             seed: 11,
             local_refinement: true,
             local_max_evaluations: 300,
+            local_starts: 1,
         }
     }
 
@@ -681,6 +751,64 @@ mod tests {
             outcome.best_values
         );
         assert!(outcome.best.cost < 1e-5);
+    }
+
+    /// Multi-start picks the global best first, then the best members far enough from every
+    /// start already chosen, and each start's Nelder–Mead run reaches the known optimum.
+    #[test]
+    fn multi_start_refines_from_distinct_good_members() {
+        let state = EngineState {
+            phase: Phase::Local,
+            iteration: 0,
+            generation: 0,
+            evaluations: 0,
+            elapsed_s: 0.0,
+            population: vec![
+                vec![0.50, 0.50],
+                vec![0.51, 0.50],
+                vec![0.90, 0.10],
+                vec![0.20, 0.80],
+            ],
+            costs: vec![1.0, 1.1, 2.0, 3.0],
+            generations_since_improvement: 0,
+            best_unit: vec![0.50, 0.50],
+            best_cost: 1.0,
+            global_best: None,
+            stop_reason: None,
+        };
+        // The member at 0.01 from the best is skipped; the next two are taken, by cost.
+        assert_eq!(
+            local_starts(&state, 3),
+            vec![vec![0.50, 0.50], vec![0.90, 0.10], vec![0.20, 0.80]]
+        );
+        assert_eq!(local_starts(&state, 1), vec![vec![0.50, 0.50]]);
+
+        let model = Line {
+            parameters: vec![
+                parameter("a", -10.0, 10.0, 5.0),
+                parameter("b", -10.0, 10.0, 5.0),
+            ],
+        };
+        let cases = [line_case()];
+        let objective = Objective::new(&model, &cases);
+        let few_generations = EngineSettings {
+            max_evaluations: 64,
+            local_starts: 3,
+            ..settings()
+        };
+        let outcome = optimise(
+            &objective,
+            &few_generations,
+            initial_state(&model.parameters, &few_generations),
+            &mut silent(None),
+        );
+        let reason = outcome.state.stop_reason.clone().unwrap_or_default();
+        assert!(reason.contains("from 3 starts"), "{reason}");
+        assert!(
+            (outcome.best_values[0] - 2.0).abs() < 1e-3,
+            "{:?}",
+            outcome.best_values
+        );
     }
 
     #[test]

@@ -106,6 +106,8 @@ struct SignalFile {
     window_s: Option<Spanned<[f64; 2]>>,
     /// Noise standard deviation in the signal's unit; when given it replaces the default scale.
     sigma: Option<Spanned<f64>>,
+    /// For `in_depth_temperature`: the thermocouple's depth below the exposed surface, mm.
+    depth_mm: Option<Spanned<f64>>,
 }
 
 /// A measured quantity the fit can match.
@@ -120,6 +122,12 @@ pub enum SignalKind {
     Mass,
     /// Time to ignition, s.
     IgnitionTime,
+    /// Exposed-surface temperature, K.
+    SurfaceTemperature,
+    /// Temperature of the specimen's unexposed face (at the backing), K.
+    BackTemperature,
+    /// Temperature at a depth below the initial exposed surface, K.
+    InDepthTemperature,
     /// TGA: sample mass over its initial mass, –.
     MassFraction,
     /// DSC: heat flow per initial mass, W/g, endothermic positive.
@@ -135,6 +143,9 @@ impl SignalKind {
             SignalKind::Hrr => "hrr",
             SignalKind::Mass => "mass",
             SignalKind::IgnitionTime => "ignition_time",
+            SignalKind::SurfaceTemperature => "surface_temperature",
+            SignalKind::BackTemperature => "back_temperature",
+            SignalKind::InDepthTemperature => "in_depth_temperature",
             SignalKind::MassFraction => "mass_fraction",
             SignalKind::DscHeatFlow => "dsc_heat_flow",
             SignalKind::MccHrr => "mcc_hrr",
@@ -147,6 +158,9 @@ impl SignalKind {
             SignalKind::Hrr => "kW/m²",
             SignalKind::Mass => "g",
             SignalKind::IgnitionTime => "s",
+            SignalKind::SurfaceTemperature
+            | SignalKind::BackTemperature
+            | SignalKind::InDepthTemperature => "K",
             SignalKind::MassFraction => "–",
             SignalKind::DscHeatFlow | SignalKind::MccHrr => "W/g",
         }
@@ -183,6 +197,7 @@ struct SettingsFile {
     seed: Option<u64>,
     local_refinement: Option<bool>,
     local_max_evaluations: Option<Spanned<i64>>,
+    local_starts: Option<Spanned<i64>>,
     output_interval_s: Option<Spanned<f64>>,
 }
 
@@ -196,8 +211,22 @@ pub struct SignalData {
     pub value: Vec<f64>,
     /// Standard deviation used to normalise each residual, in the signal's unit.
     pub sigma: Vec<f64>,
-    /// Where the normalisation came from (`repeats`, `sigma`, `peak`).
+    /// Where the normalisation came from (`repeats`, `sigma`, `peak`, `rise`).
     pub sigma_source: &'static str,
+    /// For an in-depth temperature: the depth, mm, and the index of the probe the case's
+    /// scenario gained for it.
+    pub probe: Option<(f64, usize)>,
+}
+
+impl SignalData {
+    /// The signal's name in outputs: the kind, with the depth for an in-depth temperature
+    /// (`in_depth_temperature_5mm`).
+    pub fn label(&self) -> String {
+        match self.probe {
+            Some((depth_mm, _)) => format!("{}_{}mm", self.kind.name(), depth_mm),
+            None => self.kind.name().to_string(),
+        }
+    }
 }
 
 /// One case of the fit: what is simulated (a cone scenario with the case's irradiance and
@@ -269,6 +298,8 @@ pub struct Settings {
     pub seed: u64,
     pub local_refinement: bool,
     pub local_max_evaluations: usize,
+    /// Nelder–Mead runs from this many distinct good points of the final population.
+    pub local_starts: usize,
     pub output_interval_s: f64,
 }
 
@@ -723,6 +754,7 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
         seed: raw.seed.unwrap_or(1),
         local_refinement: raw.local_refinement.unwrap_or(true),
         local_max_evaluations: count(&raw.local_max_evaluations, "local_max_evaluations", 400)?,
+        local_starts: count(&raw.local_starts, "local_starts", 1)?.max(1),
         output_interval_s: match &raw.output_interval_s {
             Some(v) => source.positive(v, "settings.output_interval_s")?,
             None => 1.0,
@@ -807,6 +839,37 @@ fn build_case(
             Some(v) => source.non_negative(v, &skey("weight"))?,
             None => 1.0,
         };
+        let depth_mm = match (&raw_signal.depth_mm, raw_signal.signal) {
+            (Some(v), SignalKind::InDepthTemperature) => {
+                Some(source.non_negative(v, &skey("depth_mm"))?)
+            }
+            (Some(v), other) => {
+                return Err(source.invalid(
+                    &v.span(),
+                    &skey("depth_mm"),
+                    format!(
+                        "belongs to `in_depth_temperature` signals only, not `{}`",
+                        other.name()
+                    ),
+                ))
+            }
+            (None, SignalKind::InDepthTemperature) => {
+                return Err(source.inconsistent(format!(
+                    "case `{}`: signal `in_depth_temperature` needs `depth_mm`, the \
+                     thermocouple's depth below the exposed surface",
+                    raw.name
+                )))
+            }
+            (None, _) => None,
+        };
+        let what = match depth_mm {
+            Some(d) => format!("in-depth temperature at {d} mm (columns.in_depth_temperature)"),
+            None => match raw_signal.signal {
+                SignalKind::SurfaceTemperature => "surface temperature column".to_string(),
+                SignalKind::BackTemperature => "back temperature column".to_string(),
+                kind => kind.name().to_string(),
+            },
+        };
         let missing = |what: &str| {
             source.inconsistent(format!(
                 "case `{}` asks for signal `{}`, but its test data have no {what}",
@@ -837,9 +900,20 @@ fn build_case(
                         let curve = match kind {
                             SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
                             SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
-                            _ => set.mass_g.as_ref(),
+                            SignalKind::SurfaceTemperature => set.surface_temperature_k.as_ref(),
+                            SignalKind::BackTemperature => set.back_temperature_k.as_ref(),
+                            SignalKind::InDepthTemperature => set
+                                .in_depth_temperature_k
+                                .iter()
+                                .find(|(d, _)| (d - depth_mm.unwrap_or(f64::NAN)).abs() <= 0.01)
+                                .map(|(_, c)| c),
+                            SignalKind::Mass | SignalKind::IgnitionTime => set.mass_g.as_ref(),
+                            // Refused in cone cases before this (`milligram::check_cone_case`).
+                            SignalKind::MassFraction
+                            | SignalKind::DscHeatFlow
+                            | SignalKind::MccHrr => None,
                         }
-                        .ok_or_else(|| missing(kind.name()))?;
+                        .ok_or_else(|| missing(&what))?;
                         (
                             set.time_s.clone(),
                             curve.mean.clone(),
@@ -850,9 +924,19 @@ fn build_case(
                         let curve = match kind {
                             SignalKind::Mlr => first.mlr_g_m2s.as_ref(),
                             SignalKind::Hrr => first.hrr_kw_m2.as_ref(),
-                            _ => first.mass_g.as_ref(),
+                            SignalKind::SurfaceTemperature => first.surface_temperature_k.as_ref(),
+                            SignalKind::BackTemperature => first.back_temperature_k.as_ref(),
+                            SignalKind::InDepthTemperature => first
+                                .in_depth_temperature_k
+                                .iter()
+                                .find(|c| (c.depth_mm - depth_mm.unwrap_or(f64::NAN)).abs() <= 0.01)
+                                .map(|c| &c.temperature_k),
+                            SignalKind::Mass | SignalKind::IgnitionTime => first.mass_g.as_ref(),
+                            SignalKind::MassFraction
+                            | SignalKind::DscHeatFlow
+                            | SignalKind::MccHrr => None,
                         }
-                        .ok_or_else(|| missing(kind.name()))?;
+                        .ok_or_else(|| missing(&what))?;
                         (first.time_s.clone(), curve.clone(), None)
                     }
                 },
@@ -890,10 +974,27 @@ fn build_case(
                 raw_signal.signal.name()
             )));
         }
-        let peak = kept_value
-            .iter()
-            .fold(0.0f64, |m, v| m.max(v.abs()))
-            .max(f64::MIN_POSITIVE);
+        // The signal's scale: its peak, or for a temperature its rise over the window (an
+        // absolute temperature's peak would make every residual look small).
+        let is_temperature = matches!(
+            raw_signal.signal,
+            SignalKind::SurfaceTemperature
+                | SignalKind::BackTemperature
+                | SignalKind::InDepthTemperature
+        );
+        let peak = if is_temperature {
+            let (lo, hi) = kept_value
+                .iter()
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+                    (lo.min(*v), hi.max(*v))
+                });
+            (hi - lo).max(1.0)
+        } else {
+            kept_value
+                .iter()
+                .fold(0.0f64, |m, v| m.max(v.abs()))
+                .max(f64::MIN_POSITIVE)
+        };
         let (sigma, sigma_source) = match (&raw_signal.sigma, spread.is_some()) {
             (Some(v), _) => (
                 vec![source.positive(v, &skey("sigma"))?; kept_time.len()],
@@ -921,10 +1022,34 @@ fn build_case(
                 } else {
                     peak
                 };
-                (vec![scale; kept_time.len()], "peak")
+                (
+                    vec![scale; kept_time.len()],
+                    if is_temperature { "rise" } else { "peak" },
+                )
             }
         };
         latest_s = latest_s.max(*kept_time.last().unwrap_or(&0.0));
+        // An in-depth temperature is read off a probe the case's scenario gains for it.
+        let probe = match depth_mm {
+            Some(depth_mm) => {
+                let probes = &mut case_scenario.scenario.probes;
+                let index = match probes
+                    .iter()
+                    .position(|p| (p.depth_m - depth_mm * 1e-3).abs() <= 1e-5)
+                {
+                    Some(index) => index,
+                    None => {
+                        probes.push(crate::physics::scenario::Probe {
+                            name: format!("fit_{depth_mm}mm"),
+                            depth_m: depth_mm * 1e-3,
+                        });
+                        probes.len() - 1
+                    }
+                };
+                Some((depth_mm, index))
+            }
+            None => None,
+        };
         signals.push(SignalData {
             kind: raw_signal.signal,
             weight,
@@ -932,6 +1057,7 @@ fn build_case(
             value: kept_value,
             sigma,
             sigma_source,
+            probe,
         });
     }
     if signals.is_empty() {

@@ -5,7 +5,7 @@
 
 use rayon::prelude::*;
 
-use super::job::{CaseSetup, FitCase, FitJob, MilligramSetup, SignalKind};
+use super::job::{CaseSetup, FitCase, FitJob, MilligramSetup, SignalData, SignalKind};
 use super::parameters::{apply_all, apply_to_material_all, FreeParameter};
 use crate::physics::simulate;
 use crate::physics::zero_d::{interpolate, simulate_zero_d, ZeroDHistory};
@@ -134,12 +134,7 @@ impl<'a> CaseModel<'a> {
                     .signals
                     .iter()
                     .map(|signal| SignalCurve {
-                        values: model_at_data_times(
-                            &history,
-                            case.exposed_area_m2,
-                            signal.kind,
-                            &signal.time_s,
-                        ),
+                        values: model_at_data_times(&history, case.exposed_area_m2, signal),
                     })
                     .collect())
             }
@@ -182,34 +177,46 @@ pub fn milligram_model_at_data_times(
         .collect()
 }
 
-/// The model's value of `kind` at each data time, in the signal's unit.
+/// The model's value of `signal` at each of its data times, in the signal's unit.
 pub fn model_at_data_times(
     history: &crate::physics::History,
     area_m2: f64,
-    kind: SignalKind,
-    times_s: &[f64],
+    signal: &SignalData,
 ) -> Vec<f64> {
-    match kind {
+    let at = |pick: &dyn Fn(&crate::physics::Sample) -> f64, factor: f64| -> Vec<f64> {
+        signal
+            .time_s
+            .iter()
+            .map(|&t| history.value_at(t, pick) * factor)
+            .collect()
+    };
+    match signal.kind {
         SignalKind::IgnitionTime => {
             // A specimen that never ignites is scored as igniting at the end of the run.
             let end_s = history.samples.last().map_or(0.0, |s| s.time_s);
             vec![history.summary.ignition_time_s.unwrap_or(end_s)]
         }
-        SignalKind::Mlr => times_s
-            .iter()
-            .map(|&t| history.value_at(t, |s| s.mlr_kg_m2_s) * 1e3)
-            .collect(),
-        SignalKind::Hrr => times_s
-            .iter()
-            .map(|&t| history.value_at(t, |s| s.hrr_w_m2) * 1e-3)
-            .collect(),
-        SignalKind::Mass => times_s
-            .iter()
-            .map(|&t| history.value_at(t, |s| s.mass_kg_m2) * area_m2 * 1e3)
-            .collect(),
+        SignalKind::Mlr => at(&|s| s.mlr_kg_m2_s, 1e3),
+        SignalKind::Hrr => at(&|s| s.hrr_w_m2, 1e-3),
+        SignalKind::Mass => at(&|s| s.mass_kg_m2, area_m2 * 1e3),
+        SignalKind::SurfaceTemperature => at(&|s| s.surface_temperature_k, 1.0),
+        SignalKind::BackTemperature => at(&|s| s.back_temperature_k, 1.0),
+        SignalKind::InDepthTemperature => match signal.probe {
+            Some((_, index)) => at(
+                &|s| {
+                    s.probe_temperatures_k
+                        .get(index)
+                        .copied()
+                        .unwrap_or(f64::NAN)
+                },
+                1.0,
+            ),
+            // The job loader always gives an in-depth signal its probe.
+            None => vec![f64::NAN; signal.time_s.len()],
+        },
         // Milligram signals belong to milligram cases (`milligram_model_at_data_times`).
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => {
-            vec![f64::NAN; times_s.len()]
+            vec![f64::NAN; signal.time_s.len()]
         }
     }
 }

@@ -101,7 +101,7 @@ impl<'a, M: Model> Objective<'a, M> {
                     .sum();
                 parts.push(PartCost {
                     case: case.name.clone(),
-                    signal: signal.kind.name().to_string(),
+                    signal: signal.label(),
                     cost: signal.weight * sum,
                 });
             }

@@ -425,6 +425,7 @@ pub fn run_fit(
         seed: job.settings.seed,
         local_refinement: job.settings.local_refinement,
         local_max_evaluations: job.settings.local_max_evaluations as u64,
+        local_starts: job.settings.local_starts,
     };
     let (state, resumed_from) = if options.resume {
         let record_text = std::fs::read_to_string(dir.record())
@@ -519,10 +520,7 @@ pub fn run_fit(
             .map(|c| {
                 (
                     c.name.clone(),
-                    c.signals
-                        .iter()
-                        .map(|s| s.kind.name().to_string())
-                        .collect(),
+                    c.signals.iter().map(|s| s.label()).collect(),
                 )
             })
             .collect(),
@@ -749,9 +747,9 @@ fn write_case_curves(
                     "{time_s:.3},{measured:.6},{sigma:.6},{model:.6},{residual:.6}\n"
                 ));
             }
-            let path =
-                dir.cases()
-                    .join(format!("{}--{}.csv", slug(&case.name), signal.kind.name()));
+            let path = dir
+                .cases()
+                .join(format!("{}--{}.csv", slug(&case.name), signal.label()));
             write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))?;
         }
     }

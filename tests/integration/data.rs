@@ -142,14 +142,16 @@ fn pmma_cone_files_read_and_their_heat_of_combustion_is_in_the_stated_band() {
 /// values 0.32 kW²·s/(m⁴·K²) (Drysdale, An Introduction to Fire Dynamics, 3rd ed., 2011; quoted
 /// from memory), apparent values from ignition data being larger (common practice).
 ///
-/// Measured here: TRP 274.6 kW·s^½/m² (thick form), critical heat flux −1.2 (thick), 2.2
-/// (Janssens), 17.7 (thin) kW/m², apparent kρc 0.75 kW²·s/(m⁴·K²) with T_ig = 378 °C. The TRP
-/// is checked to a factor of two; kρc to lie between the property value and four times it. The critical heat
-/// flux is a long extrapolation from two irradiances and comes out well below the handbook's:
-/// we check that Janssens' value is physical (between zero and the lowest irradiance that
-/// ignited) and of the handbook's order of magnitude (a factor of ten), and that the thick
-/// form's negative intercept is flagged. FIXME: tighten when tests near the critical flux
-/// exist. Two irradiances cannot tell thick from thin, which the analysis must say.
+/// Measured here: TRP 274.6 kW·s^½/m² (thick form), apparent kρc 0.75 kW²·s/(m⁴·K²) with
+/// T_ig = 378 °C; critical heat flux −1.2 (thick), 2.2 (Janssens, 95 % interval −6.8 to 11.3),
+/// 17.7 (thin) kW/m², and 13.4 kW/m² from the surface balance at 378 °C. The TRP is checked to
+/// a factor of two; kρc to lie between the property value and four times it. The critical
+/// heat flux is a long extrapolation from two irradiances (25 and 65 kW/m²) with lab-to-lab
+/// scatter, so the data do not pin it down, and the analysis must say so: the handbook value
+/// must lie inside Janssens' 95 % interval, the interval must be flagged as poorly determined,
+/// and the surface balance at the handbook ignition temperature must agree with the handbook
+/// critical flux to within 30 %. Two irradiances cannot tell thick from thin, which the
+/// analysis must also say.
 #[test]
 fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     let Some(dir) = reference_data("pmma_ignition_analysis") else {
@@ -186,13 +188,25 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     assert!((137.0..=548.0).contains(&trp), "TRP {trp}");
     let janssens = analysis.fit(Correlation::Janssens).unwrap();
     let critical = janssens.critical_heat_flux_kw_m2;
+    let [low, high] = janssens.critical_heat_flux_95_kw_m2.unwrap();
+    eprintln!("Janssens critical heat flux {critical:.1} kW/m2, 95 % [{low:.1}, {high:.1}]");
     assert!(
         critical > 0.0 && critical < 25.0,
         "critical heat flux {critical}"
     );
+    const HANDBOOK_CRITICAL_KW_M2: f64 = 11.0;
     assert!(
-        (1.1..=110.0).contains(&critical),
-        "critical heat flux {critical}"
+        (low..=high).contains(&HANDBOOK_CRITICAL_KW_M2),
+        "handbook 11 kW/m2 outside [{low}, {high}]"
+    );
+    assert!(analysis.warnings.iter().any(|w| w
+        .message
+        .starts_with("the critical heat flux is poorly determined")));
+    let from_balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
+    eprintln!("critical heat flux from the balance at 378 °C: {from_balance:.1} kW/m2");
+    assert!(
+        (from_balance - HANDBOOK_CRITICAL_KW_M2).abs() <= 0.3 * HANDBOOK_CRITICAL_KW_M2,
+        "balance {from_balance}"
     );
     assert!((0.32..=4.0 * 0.32).contains(&krhoc), "kρc {krhoc}");
     assert!(analysis
@@ -1124,4 +1138,86 @@ fn the_documented_examples_parse() {
     assert_eq!(list.points.len(), 1);
     assert!((list.settings.ignition_temperature_k.unwrap() - 651.15).abs() < 1e-9);
     std::fs::remove_dir_all(&dir).ok();
+}
+
+/// MaCFP PMMA data, lab-d (see PROVENANCE.md of the set): five of its six cone files log two
+/// thermocouples on the specimen's back surface (`cone_65kw_lab-d_2.csv` has none, and naming
+/// the column there must be an error that names file, line and column). Read through a test description as the back temperature and
+/// as an in-depth temperature at the specimen's full 6 mm depth, both start at room temperature
+/// (the files' first readings, 297–300 K), rise by more than 150 K by the end of the test, and
+/// the two thermocouples agree to within 15 K on average (their mean difference is 2–12 K in
+/// the files); the three 25 kW/m² repeats combine into a mean
+/// back temperature with a spread.
+#[test]
+fn pmma_lab_d_back_surface_thermocouples_read_as_temperature_signals() {
+    let Some(dir) = reference_data("pmma_lab_d_back_surface_thermocouples") else {
+        return;
+    };
+    let scratch = std::env::temp_dir().join(format!("emberfit-pmma-tc-{}", std::process::id()));
+    std::fs::create_dir_all(&scratch).unwrap();
+    let mut repeats_25 = Vec::new();
+    for (file, flux) in [
+        ("cone_25kw_lab-d_1.csv", 25.0),
+        ("cone_25kw_lab-d_2.csv", 25.0),
+        ("cone_25kw_lab-d_3.csv", 25.0),
+        ("cone_65kw_lab-d_1.csv", 65.0),
+        ("cone_65kw_lab-d_2.csv", 65.0),
+        ("cone_65kw_lab-d_3.csv", 65.0),
+    ] {
+        let description = scratch.join(format!("{file}.toml"));
+        std::fs::write(
+            &description,
+            format!(
+                "data_file = \"{}\"\nirradiance_kw_m2 = {flux}\nexposed_area_m2 = 0.0084\nthickness_mm = 6.0\n\n\
+                 [columns]\ntime = \"Time\"\nmass = \"mass\"\nhrr = \"HRR\"\n\
+                 back_temperature = \"Back surface temperature 1\"\n\
+                 in_depth_temperature = [{{ name = \"Back surface temperature 2\", unit = \"K\", depth_mm = 6.0 }}]\n",
+                dir.join("cone").join(file).display()
+            ),
+        )
+        .unwrap();
+        let result = reduce(&TestDescription::load(&description).unwrap());
+        if file == "cone_65kw_lab-d_2.csv" {
+            let message = result
+                .expect_err("this file has no thermocouples")
+                .to_string();
+            assert!(
+                message.contains("line 1") && message.contains("Back surface temperature 1"),
+                "{message}"
+            );
+            continue;
+        }
+        let reduced = result.unwrap_or_else(|err| panic!("{file}: {err}"));
+        let back = reduced
+            .back_temperature_k
+            .as_ref()
+            .expect("back temperature");
+        let second = &reduced.in_depth_temperature_k[0];
+        assert_eq!(second.depth_mm, 6.0);
+        let rise = back.iter().copied().fold(f64::NEG_INFINITY, f64::max) - back[0];
+        let mean_difference = back
+            .iter()
+            .zip(&second.temperature_k)
+            .map(|(a, b)| (a - b).abs())
+            .sum::<f64>()
+            / back.len() as f64;
+        eprintln!(
+            "{file}: back TC starts {:.1} K, rises {rise:.0} K, mean |TC1 − TC2| {mean_difference:.1} K",
+            back[0]
+        );
+        assert!((290.0..=305.0).contains(&back[0]), "{file}: {}", back[0]);
+        assert!(rise > 150.0, "{file}: rise {rise} K");
+        assert!(mean_difference < 15.0, "{file}: {mean_difference} K");
+        if flux == 25.0 {
+            repeats_25.push(reduced);
+        }
+    }
+    let set = combine(&repeats_25, Alignment::ExposureStart).unwrap();
+    let back = set.back_temperature_k.expect("mean back temperature");
+    assert!(back
+        .standard_deviation
+        .iter()
+        .any(|s| s.is_finite() && *s > 0.0));
+    assert_eq!(set.in_depth_temperature_k.len(), 1);
+    let _ = std::fs::remove_dir_all(&scratch);
 }

@@ -104,7 +104,8 @@ pub(super) fn check_cone_case(
                 format!(
                     "`{}` is a milligram-scale signal ({}); case `{}` is a cone case (give it \
                      `kind = \"{}\"` and a {} file, or a cone signal: mlr, hrr, mass, \
-                     ignition_time)",
+                     ignition_time, surface_temperature, back_temperature, \
+                     in_depth_temperature)",
                     signal.signal.name(),
                     kind.name().to_uppercase(),
                     raw.name,
@@ -288,6 +289,13 @@ pub(super) fn build_milligram_case(
                 ),
             ));
         }
+        if let Some(depth) = &raw_signal.depth_mm {
+            return Err(source.invalid(
+                &depth.span(),
+                &format!("{signal_key}.depth_mm"),
+                "belongs to `in_depth_temperature` signals of cone cases",
+            ));
+        }
         signals.push(signal_data(
             source,
             raw,
@@ -369,6 +377,7 @@ fn signal_data(
         value,
         sigma,
         sigma_source,
+        probe: None,
     })
 }
 
