@@ -1107,7 +1107,8 @@ fn janssens_form_through_the_pipeline_matches_the_hand_worked_value() {
 }
 
 /// The examples in docs/test-files.md are valid: the complete TEST.toml parses with the values
-/// it shows, and the ignition list loads. Keeps the documentation from drifting.
+/// it shows, the thermocouple columns parse inside a description, and the ignition list loads.
+/// Keeps the documentation from drifting.
 #[test]
 fn the_documented_examples_parse() {
     use emberfit::data::description::GasMethod;
@@ -1120,7 +1121,11 @@ fn the_documented_examples_parse() {
         .skip(1)
         .map(|b| b.split("```").next().unwrap())
         .collect();
-    assert_eq!(blocks.len(), 2, "a test description and an ignition list");
+    assert_eq!(
+        blocks.len(),
+        3,
+        "a test description, thermocouple columns and an ignition list"
+    );
     let test = TestDescription::parse(Path::new("docs/pmma.toml"), blocks[0]).unwrap();
     assert_eq!(test.exposed_area_m2, 0.0088);
     assert_eq!(test.time_offset_s, -60.0);
@@ -1131,8 +1136,24 @@ fn the_documented_examples_parse() {
     assert_eq!(test.smoothing.unwrap().window_points, 11);
     // 45 % at 21 °C and 100.8 kPa: 0.45·2482 Pa/100 800 Pa = 0.0111 (Magnus form).
     assert!((test.ambient.water_mole_fraction - 0.0111).abs() < 2e-4);
+    let with_thermocouples = TestDescription::parse(
+        Path::new("docs/thermocouples.toml"),
+        &format!(
+            "data_file = \"t.csv\"\nirradiance_kw_m2 = 50\nexposed_area_m2 = 0.01\n\n[columns]\ntime = \"t\"\nmass = \"m\"\n{}",
+            blocks[1]
+        ),
+    )
+    .unwrap();
+    assert!(with_thermocouples.columns.back_temperature.is_some());
+    let depths: Vec<f64> = with_thermocouples
+        .columns
+        .in_depth_temperature
+        .iter()
+        .map(|c| c.depth_mm)
+        .collect();
+    assert_eq!(depths, [2.0, 4.0]);
     let dir = scratch_dir("docs");
-    std::fs::write(dir.join("list.toml"), blocks[1]).unwrap();
+    std::fs::write(dir.join("list.toml"), blocks[2]).unwrap();
     let list = IgnitionList::load(&dir.join("list.toml")).unwrap();
     assert_eq!(list.tests.len(), 3);
     assert_eq!(list.points.len(), 1);
@@ -1142,8 +1163,8 @@ fn the_documented_examples_parse() {
 
 /// MaCFP PMMA data, lab-d (see PROVENANCE.md of the set): five of its six cone files log two
 /// thermocouples on the specimen's back surface (`cone_65kw_lab-d_2.csv` has none, and naming
-/// the column there must be an error that names file, line and column). Read through a test description as the back temperature and
-/// as an in-depth temperature at the specimen's full 6 mm depth, both start at room temperature
+/// the column there must be an error that names file, line and column). Read through a test
+/// description as the back temperature and as an in-depth temperature at the specimen's full 6 mm depth, both start at room temperature
 /// (the files' first readings, 297–300 K), rise by more than 150 K by the end of the test, and
 /// the two thermocouples agree to within 15 K on average (their mean difference is 2–12 K in
 /// the files); the three 25 kW/m² repeats combine into a mean
