@@ -434,7 +434,7 @@ pub fn run_fit(
         let iteration = state.iteration;
         (state, Some(iteration))
     } else {
-        if dir.root.exists() {
+        if dir.root.exists() && !holds_only_the_log(&dir) {
             return Err(RunError::Exists(dir.root.clone()));
         }
         std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
@@ -519,9 +519,12 @@ pub fn run_fit(
     let objective = Objective::new(&model, &job.cases);
     let outcome = optimise(&objective, &settings, state, &mut recorder);
     if let Some(err) = recorder.io_error.take() {
+        recorder.write_event(&ProgressEvent::Failed {
+            message: err.to_string(),
+        });
         return Err(err);
     }
-    let summary = finish(
+    let summary = match finish(
         &dir,
         &job,
         &start_text,
@@ -529,7 +532,16 @@ pub fn run_fit(
         &model,
         &outcome,
         &provenance,
-    )?;
+    ) {
+        Ok(summary) => summary,
+        Err(err) => {
+            // Viewers learn from the log that no outputs will come.
+            recorder.write_event(&ProgressEvent::Failed {
+                message: err.to_string(),
+            });
+            return Err(err);
+        }
+    };
     recorder.write_event(&ProgressEvent::Finished {
         reason: summary.reason.clone(),
         best_cost: summary.objective,
@@ -540,6 +552,19 @@ pub fn run_fit(
         directory: dir.root.clone(),
         summary,
     })
+}
+
+/// True when the directory holds nothing but the log a detached fit opened before starting
+/// (`fit --detach` creates it so the background process has somewhere to write from its
+/// first line).
+fn holds_only_the_log(dir: &RunDirectory) -> bool {
+    let Ok(entries) = std::fs::read_dir(&dir.root) else {
+        return false;
+    };
+    let log = dir.log();
+    entries
+        .filter_map(Result::ok)
+        .all(|entry| entry.path() == log)
 }
 
 /// Keeps the progress lines up to the checkpoint's iteration (the killed process may have
