@@ -454,7 +454,10 @@ fn fit_detached(args: &FitArgs) -> Result<()> {
         }
     }
     let pid = child.id();
-    println!("fitting in the background (pid {pid}); output in {}", log_path.display());
+    println!(
+        "fitting in the background (pid {pid}); output in {}",
+        log_path.display()
+    );
     println!("run directory: {}", directory.root.display());
     println!("watch it:      emberfit watch {}", directory.root.display());
     println!("stop it:       kill -INT {pid}   (finishes the iteration, writes all outputs)");

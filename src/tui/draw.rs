@@ -160,7 +160,7 @@ fn tabs_line<'a>(scene: &Scene) -> Line<'a> {
 
 fn footer_line<'a>(scene: &Scene) -> Line<'a> {
     let mut spans = vec![Span::raw(" ")];
-    for (key, what) in footer_keys(scene.screen.view, scene.screen.mode) {
+    for (key, what) in footer_keys(scene.screen.view, scene.screen.mode, scene.state.is_over()) {
         spans.push(Span::styled(
             key,
             scene.look.accent().add_modifier(Modifier::BOLD),
@@ -383,6 +383,33 @@ fn draw_objective_chart(frame: &mut Frame, area: Rect, scene: &Scene) {
     frame.render_widget(chart, area);
 }
 
+/// Means of `ys` in `n_bins` equal bins of `xs` between `x_min` and `x_max`, at each bin's
+/// mean x; empty bins and non-finite points are left out.
+pub fn binned_means(
+    xs: &[f64],
+    ys: &[f64],
+    x_min: f64,
+    x_max: f64,
+    n_bins: usize,
+) -> Vec<(f64, f64)> {
+    let n_bins = n_bins.max(1);
+    let mut sums = vec![(0.0, 0.0, 0usize); n_bins];
+    let width = (x_max - x_min) / n_bins as f64;
+    for (x, y) in xs.iter().zip(ys) {
+        if !(x.is_finite() && y.is_finite()) || width <= 0.0 {
+            continue;
+        }
+        let bin = (((x - x_min) / width) as usize).min(n_bins - 1);
+        sums[bin].0 += x;
+        sums[bin].1 += y;
+        sums[bin].2 += 1;
+    }
+    sums.into_iter()
+        .filter(|s| s.2 > 0)
+        .map(|(sx, sy, n)| (sx / n as f64, sy / n as f64))
+        .collect()
+}
+
 /// Smallest and largest finite value, widened when they are equal.
 fn span(values: impl Iterator<Item = f64>) -> (f64, f64) {
     let (lo, hi) = values
@@ -444,6 +471,12 @@ fn draw_parameters(frame: &mut Frame, area: Rect, scene: &Scene) {
         return;
     }
     let inner_width = area.width.saturating_sub(2) as usize;
+    let label_width = rows
+        .iter()
+        .flat_map(|r| [significant(r.lower, 3), significant(r.upper, 3)])
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap_or(1);
     let mut lines = vec![Line::from(Span::styled(
         "● best value   ═ 95 % interval   [ ] the bounds   ! a warning",
         look.dim(),
@@ -479,10 +512,10 @@ fn draw_parameters(frame: &mut Frame, area: Rect, scene: &Scene) {
         let upper = significant(row.upper, 3);
         let scale = if row.log_scale { " log" } else { "" };
         let bar_width = inner_width
-            .saturating_sub(lower.chars().count() + upper.chars().count() + 8 + scale.len())
+            .saturating_sub(2 * label_width + 8 + scale.len())
             .min(60);
         lines.push(Line::from(format!(
-            "  {lower} {} {upper}{scale}",
+            "  {lower:>label_width$} {} {upper}{scale}",
             bound_bar(row, bar_width)
         )));
         let mut warnings: Vec<String> = row.warnings.clone();
@@ -593,15 +626,11 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
     };
     let [top, bottom] = Layout::vertical([Constraint::Percentage(62), Constraint::Percentage(38)])
         .areas(charts_area);
-    let pairs = |ys: &[f64]| -> Vec<(f64, f64)> {
-        curve
-            .time_s
-            .iter()
-            .zip(ys)
-            .filter(|(t, y)| t.is_finite() && y.is_finite())
-            .map(|(t, y)| (*t, *y))
-            .collect()
-    };
+    // Curves are averaged into bins of half a cell (the chart's resolution in braille), so
+    // noise in the data does not fill the chart and the band reads as a band.
+    let n_bins = 2 * top.width.saturating_sub(8).max(10) as usize;
+    let (t_min, t_max) = span(curve.time_s.iter().copied());
+    let pairs = |ys: &[f64]| binned_means(&curve.time_s, ys, t_min, t_max, n_bins);
     let measured = pairs(&curve.measured);
     let model = pairs(&curve.model);
     let band_upper: Vec<f64> = curve
@@ -673,7 +702,13 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             Line::from(significant(y_max, 3)),
         ]));
     frame.render_widget(chart, top);
-    let residuals = pairs(&curve.residual);
+    let residuals: Vec<(f64, f64)> = curve
+        .time_s
+        .iter()
+        .zip(&curve.residual)
+        .filter(|(t, r)| t.is_finite() && r.is_finite())
+        .map(|(t, r)| (*t, *r))
+        .collect();
     if residuals.is_empty() {
         frame.render_widget(
             Paragraph::new("this file has no residual column")

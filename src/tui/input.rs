@@ -102,13 +102,14 @@ pub fn action_for_key(key: KeyEvent) -> Option<Action> {
 }
 
 /// The keys the footer lists for a view and mode: (key, what it does).
-pub fn footer_keys(view: View, mode: Mode) -> Vec<(&'static str, &'static str)> {
+pub fn footer_keys(view: View, mode: Mode, is_run_over: bool) -> Vec<(&'static str, &'static str)> {
     let mut keys = vec![("1-4/Tab", "view")];
     if view == View::Residuals {
         keys.push(("←→", "case"));
         keys.push(("↑↓", "signal"));
     }
     match mode {
+        Mode::Attached if is_run_over => keys.push(("q", "exit")),
         Mode::Attached => {
             keys.push(("p", "pause/resume"));
             keys.push(("s", "stop fit"));
@@ -380,8 +381,10 @@ mod tests {
         };
         for view in View::ALL {
             for mode in [Mode::Attached, Mode::ReadOnly] {
-                for (key, _) in footer_keys(view, mode) {
-                    assert!(press(first(key)).is_some(), "{key} in {view:?}/{mode:?}");
+                for is_over in [false, true] {
+                    for (key, _) in footer_keys(view, mode, is_over) {
+                        assert!(press(first(key)).is_some(), "{key} in {view:?}/{mode:?}");
+                    }
                 }
             }
         }

@@ -22,7 +22,7 @@ use draw::{draw, Look, Scene};
 use input::{action_for_key, Effect, Mode, Screen};
 use source::RunSource;
 use state::ViewerState;
-use terminal::{is_restored_by_panic, TerminalSession};
+use terminal::{is_restored_by_panic, wait_for_input, TerminalSession, Wait};
 
 /// How often the run directory's files are looked at (their size and time only, unless they
 /// changed) while the fit runs, and once it has ended.
@@ -82,7 +82,10 @@ pub fn watch(root: &Path) -> Result<(), TuiError> {
     let mut session = TerminalSession::enter().map_err(TuiError::Terminal)?;
     match run_loop(&mut session, root, None) {
         LoopEnd::Left => Ok(()),
-        LoopEnd::Lost(err) => Err(TuiError::Terminal(err)),
+        LoopEnd::Lost(err) => {
+            session.give_up();
+            Err(TuiError::Terminal(err))
+        }
     }
 }
 
@@ -91,7 +94,10 @@ pub fn attach(root: &Path, control: &FitControl) -> Result<ViewerEnd, TuiError> 
     let mut session = TerminalSession::enter().map_err(TuiError::Terminal)?;
     Ok(match run_loop(&mut session, root, Some(control)) {
         LoopEnd::Left => ViewerEnd::Left,
-        LoopEnd::Lost(_) => ViewerEnd::TerminalLost,
+        LoopEnd::Lost(_) => {
+            session.give_up();
+            ViewerEnd::TerminalLost
+        }
     })
 }
 
@@ -181,12 +187,24 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
             poll_every.saturating_sub(last_poll.map_or(Duration::ZERO, |t| t.elapsed()));
         let until_tick = TICK.saturating_sub(last_draw.map_or(Duration::ZERO, |t| t.elapsed()));
         let timeout = until_poll.min(until_tick).max(Duration::from_millis(20));
-        match event::poll(timeout) {
-            Ok(false) => {}
-            Ok(true) if burst.count() > MAX_EVENTS_PER_S => {
-                return lost("the terminal reports events without end");
+        // Wait on the terminal ourselves: crossterm's own wait reads a hung-up terminal's
+        // end-of-file over and over until its timeout, a busy loop.
+        match wait_for_input(timeout) {
+            Ok(Wait::HungUp) => return lost("the terminal hung up"),
+            Ok(Wait::Input | Wait::Timeout) => {}
+            Err(err) => return LoopEnd::Lost(err),
+        }
+        // Everything crossterm has ready now: keys, and resizes it learnt of by signal.
+        loop {
+            match event::poll(Duration::ZERO) {
+                Ok(false) => break,
+                Ok(true) if burst.count() > MAX_EVENTS_PER_S => {
+                    return lost("the terminal reports events without end");
+                }
+                Ok(true) => {}
+                Err(err) => return LoopEnd::Lost(err),
             }
-            Ok(true) => match event::read() {
+            match event::read() {
                 Ok(Event::Key(key)) => {
                     let Some(action) = action_for_key(key) else {
                         continue;
@@ -209,8 +227,7 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
                 Ok(Event::Resize(..)) => is_dirty = true,
                 Ok(_) => {}
                 Err(err) => return LoopEnd::Lost(err),
-            },
-            Err(err) => return LoopEnd::Lost(err),
+            }
         }
     }
 }
