@@ -134,13 +134,13 @@ fn header_line<'a>(scene: &Scene) -> Line<'a> {
         .or_else(|| state.summary.as_ref().and_then(|s| s.title.clone()))
         .unwrap_or_else(|| "(no started line yet)".into());
     let mode = match scene.screen.mode {
-        Mode::Attached => "fit",
-        Mode::ReadOnly => "watch, read-only",
+        Mode::Attached => "",
+        Mode::ReadOnly => "(read-only) ",
     };
     Line::from(vec![
         Span::styled(format!(" [{}] ", status.label()), scene.look.status(status)),
+        Span::styled(mode, scene.look.dim()),
         Span::styled(title, Style::default().add_modifier(Modifier::BOLD)),
-        Span::styled(format!("  emberfit {mode}"), scene.look.dim()),
     ])
 }
 
@@ -201,7 +201,10 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
     let phase = state
         .latest
         .as_ref()
-        .map(|l| format!(" ({} phase, iteration {})", l.phase, l.iter))
+        .map(|l| match l.phase.as_str() {
+            "" => format!(" (iteration {})", l.iter),
+            phase => format!(" ({phase} phase, iteration {})", l.iter),
+        })
         .unwrap_or_default();
     lines.push(Line::from(vec![
         Span::styled(format!("{:<16}", "status"), look.dim()),
@@ -340,13 +343,32 @@ fn draw_progress(frame: &mut Frame, area: Rect, scene: &Scene) {
 }
 
 fn draw_objective_chart(frame: &mut Frame, area: Rect, scene: &Scene) {
-    let block = Block::bordered().title(" Best objective against evaluations (log scale) ");
+    let by_evaluations = scene.state.has_evaluation_counts();
+    let (x_title, title) = if by_evaluations {
+        (
+            "evaluations",
+            " Best objective against evaluations (log scale) ",
+        )
+    } else {
+        (
+            "iterations",
+            " Best objective against iterations (log scale; this run has no evaluation counts) ",
+        )
+    };
+    let block = Block::bordered().title(title);
     let points: Vec<(f64, f64)> = scene
         .state
         .history
         .iter()
         .filter(|p| p.best_cost > 0.0 && p.best_cost.is_finite())
-        .map(|p| (p.evaluations as f64, p.best_cost.log10()))
+        .map(|p| {
+            let x = if by_evaluations {
+                p.evaluations
+            } else {
+                p.iter
+            };
+            (x as f64, p.best_cost.log10())
+        })
         .collect();
     if points.is_empty() {
         frame.render_widget(
@@ -372,7 +394,7 @@ fn draw_objective_chart(frame: &mut Frame, area: Rect, scene: &Scene) {
         .legend_position(None)
         .x_axis(
             Axis::default()
-                .title("evaluations")
+                .title(x_title)
                 .bounds([x_min, x_max])
                 .labels(vec![
                     Line::from(format!("{x_min:.0}")),
@@ -905,4 +927,320 @@ fn draw_help(frame: &mut Frame, area: Rect, scene: &Scene) {
             .block(Block::bordered().title(" Keys ")),
         popup,
     );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::tui::input::Action;
+    use crate::tui::source::RunSource;
+    use ratatui::backend::TestBackend;
+    use ratatui::Terminal;
+
+    fn fixture(name: &str) -> ViewerState {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/fixtures/tui")
+            .join(name);
+        let mut state = ViewerState::default();
+        RunSource::new(&root).refresh(&mut state);
+        state
+    }
+
+    fn render(
+        state: &ViewerState,
+        screen: &Screen,
+        look: Look,
+        width: u16,
+        height: u16,
+    ) -> Terminal<TestBackend> {
+        let mut terminal = Terminal::new(TestBackend::new(width, height)).unwrap();
+        let scene = Scene {
+            state,
+            screen,
+            look,
+            now: SystemTime::now(),
+        };
+        terminal.draw(|frame| draw(frame, &scene)).unwrap();
+        terminal
+    }
+
+    fn text(terminal: &Terminal<TestBackend>) -> String {
+        let buffer = terminal.backend().buffer();
+        let mut out = String::new();
+        for y in 0..buffer.area.height {
+            for x in 0..buffer.area.width {
+                out.push_str(buffer[(x, y)].symbol());
+            }
+            out.push('\n');
+        }
+        out
+    }
+
+    fn screen_on(view: View, mode: Mode) -> Screen {
+        let mut screen = Screen::new(mode);
+        screen.view = view;
+        screen
+    }
+
+    const COLOUR: Look = Look { is_colour: true };
+
+    #[test]
+    fn the_progress_view_shows_status_objective_rate_and_chart_at_80_by_24() {
+        let state = fixture("finished-run");
+        let screen = screen_on(View::Progress, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "[FINISHED]",
+            "(read-only) bench: Ridgeline facing",
+            "[1 Progress]",
+            "best objective  27.4798",
+            "evaluations     640",
+            "evaluations/s",
+            "Best objective against evaluations (log scale)",
+            "q quit",
+            "? help",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        // The chart draws the history with braille dots.
+        assert!(
+            shown
+                .chars()
+                .any(|c| ('\u{2801}'..='\u{28ff}').contains(&c)),
+            "{shown}"
+        );
+    }
+
+    #[test]
+    fn the_parameters_view_shows_bounds_position_and_interval() {
+        let state = fixture("finished-run");
+        let screen = screen_on(View::Parameters, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "component.virgin.conductivity_w_m_k (W/(m·K))",
+            "0.23154",
+            "95 %: 0.2288 … 0.2343",
+            "0.0800 [",
+            "] 0.500",
+            "●",
+            "final values, 95 % intervals",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+    }
+
+    #[test]
+    fn a_parameter_at_its_bound_is_flagged_in_words() {
+        let mut state = fixture("finished-run");
+        if let Some(parameters) = state.summary.as_mut().and_then(|s| s.parameters.as_mut()) {
+            parameters[0].value = Some(0.4999);
+        }
+        let screen = screen_on(View::Parameters, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, Look { is_colour: false }, 100, 30));
+        assert!(shown.contains("! at a bound"), "{shown}");
+    }
+
+    #[test]
+    fn the_residuals_view_follows_the_selected_case_and_signal() {
+        let state = fixture("finished-run");
+        let mut screen = screen_on(View::Residuals, Mode::ReadOnly);
+        screen.apply(Action::NextCase, &state.cases(), true);
+        screen.apply(Action::NextSignal, &state.cases(), true);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "50 kW/m² · hrr",
+            "• measured",
+            "⠤ ±σ band",
+            "▀ model",
+            "› 50 kW/m²",
+            "» hrr",
+            "share of the objective",
+            "residual (model − measured)/σ",
+            "←→ case",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        // The 25 kW/m² case holds 16.1 of the 27.5 of the data parts: 59 %.
+        assert!(shown.contains("25 kW/m²  59 %"), "{shown}");
+    }
+
+    #[test]
+    fn the_summary_brackets_strong_correlations() {
+        let mut state = fixture("finished-run");
+        if let Some(matrix) = state.summary.as_mut().and_then(|s| s.correlation.as_mut()) {
+            matrix[0][5] = Some(0.97);
+            matrix[5][0] = Some(0.97);
+        }
+        let screen = screen_on(View::Summary, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, Look { is_colour: false }, 120, 30));
+        for expected in [
+            "objective       27.4798",
+            "Correlation: [±r] marks |r| ≥ 0.95",
+            "[+0.97]",
+            "+1.00",
+            "exposure.flame_heat_flux_kw_m2",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        assert_eq!(shown.matches("[+0.97]").count(), 2, "{shown}");
+    }
+
+    #[test]
+    fn every_view_fits_a_large_terminal_and_survives_a_tiny_one() {
+        let state = fixture("finished-run");
+        for view in View::ALL {
+            let screen = screen_on(view, Mode::Attached);
+            let shown = text(&render(&state, &screen, COLOUR, 200, 60));
+            assert!(
+                shown.contains(&format!(
+                    "[{}",
+                    View::ALL.iter().position(|v| *v == view).unwrap() + 1
+                )),
+                "{shown}"
+            );
+            assert!(shown.contains("q exit"), "{shown}");
+            render(&state, &screen, COLOUR, 20, 5);
+        }
+    }
+
+    #[test]
+    fn no_color_draws_without_any_colour() {
+        let state = fixture("finished-run");
+        for view in View::ALL {
+            let mut screen = screen_on(view, Mode::ReadOnly);
+            screen.message = Some("a message".into());
+            let terminal = render(&state, &screen, Look { is_colour: false }, 100, 30);
+            let buffer = terminal.backend().buffer();
+            assert!(
+                buffer
+                    .content
+                    .iter()
+                    .all(|cell| cell.fg == Color::Reset && cell.bg == Color::Reset),
+                "{view:?} uses colour"
+            );
+        }
+    }
+
+    #[test]
+    fn the_help_overlay_says_a_watch_is_read_only() {
+        let state = fixture("finished-run");
+        let mut screen = Screen::new(Mode::ReadOnly);
+        screen.apply(Action::ToggleHelp, &state.cases(), true);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        assert!(
+            shown.contains("Keys") && shown.contains("This viewer is read-only"),
+            "{shown}"
+        );
+    }
+
+    #[test]
+    fn an_older_run_shows_what_it_can_and_says_what_it_cannot() {
+        let state = fixture("older-run");
+        let screen = screen_on(View::Progress, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 100, 40));
+        for expected in [
+            "[FINISHED]",
+            "invented older run",
+            "status          FINISHED (iteration 2)",
+            "best objective  6.25000",
+            "evaluations     -",
+            "against iterations",
+            "cannot show: an older run (progress format 0)",
+            "skipped 1 `probe_reading` lines",
+            "`iteration` lines have no evaluations, parts",
+            "summary.json has no parameters, correlation, parts",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        let parameters = text(&render(
+            &state,
+            &screen_on(View::Parameters, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(
+            parameters.contains("component.virgin.conductivity_w_m_k"),
+            "{parameters}"
+        );
+        assert!(parameters.contains("0.26000"), "{parameters}");
+        let residuals = text(&render(
+            &state,
+            &screen_on(View::Residuals, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(residuals.contains("no cases yet"), "{residuals}");
+        let summary = text(&render(
+            &state,
+            &screen_on(View::Summary, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(
+            summary.contains("no correlation matrix in summary.json"),
+            "{summary}"
+        );
+    }
+
+    #[test]
+    fn a_live_run_says_the_curves_come_at_the_end() {
+        let mut state = ViewerState::default();
+        for line in std::fs::read_to_string(
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("tests/fixtures/tui/finished-run/progress.jsonl"),
+        )
+        .unwrap()
+        .lines()
+        .take(10)
+        {
+            state.apply_line(line);
+        }
+        let screen = screen_on(View::Residuals, Mode::Attached);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        assert!(shown.contains("[RUNNING]"), "{shown}");
+        assert!(
+            shown.contains("the curves are written when the fit ends"),
+            "{shown}"
+        );
+        assert!(
+            shown.contains("s stop fit") && shown.contains("q stop+exit"),
+            "{shown}"
+        );
+        let summary = text(&render(
+            &state,
+            &screen_on(View::Summary, Mode::Attached),
+            COLOUR,
+            80,
+            24,
+        ));
+        assert!(summary.contains("appear when the fit ends"), "{summary}");
+    }
+
+    #[test]
+    fn the_bound_bar_places_value_and_interval() {
+        let row = ParameterRow {
+            name: "x".into(),
+            unit: String::new(),
+            value: Some(5.0),
+            lower: 0.0,
+            upper: 10.0,
+            log_scale: false,
+            interval_95: Some((4.0, 6.0)),
+            warnings: Vec::new(),
+            is_at_bound: false,
+            is_strongly_correlated: false,
+            is_poorly_determined: false,
+        };
+        assert_eq!(bound_bar(&row, 11), "[────═●═────]");
+    }
+
+    #[test]
+    fn durations_read_as_words() {
+        assert_eq!(duration_text(4.25), "4.2 s");
+        assert_eq!(duration_text(125.0), "2 min 05 s");
+        assert_eq!(duration_text(3.0 * 3600.0 + 420.0), "3 h 07 min");
+    }
 }

@@ -199,7 +199,7 @@ impl Screen {
             _ => self.is_help_open = false,
         }
         let read_only_note =
-            "read-only viewer: pause or stop the fit from its own terminal, or with kill -INT <pid>";
+            "read-only viewer: pause/stop the fit in its own terminal, or kill -INT <pid>";
         match action {
             Action::Show(view) => self.view = view,
             Action::NextView => self.view = View::ALL[(self.view.index() + 1) % View::ALL.len()],

@@ -90,6 +90,7 @@ pub struct Ending {
 /// One point of the best-objective history.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct HistoryPoint {
+    pub iter: u64,
     pub evaluations: u64,
     pub elapsed_s: f64,
     pub best_cost: f64,
@@ -391,6 +392,7 @@ impl ViewerState {
                 best_params,
             } => {
                 self.history.push(HistoryPoint {
+                    iter: *iter,
                     evaluations: *evaluations,
                     elapsed_s: *elapsed_s,
                     best_cost: *best_cost,
@@ -530,7 +532,18 @@ impl ViewerState {
             .filter(|v| v.is_finite())
     }
 
+    /// Whether the iteration lines carry evaluation counts (an older format may not).
+    pub fn has_evaluation_counts(&self) -> bool {
+        !self
+            .missing_fields
+            .get("`iteration` lines")
+            .is_some_and(|fields| fields.iter().any(|f| f == "evaluations"))
+    }
+
     pub fn evaluations(&self) -> Option<u64> {
+        if !self.has_evaluation_counts() {
+            return None;
+        }
         self.finished
             .as_ref()
             .map(|f| f.evaluations)
@@ -547,6 +560,9 @@ impl ViewerState {
 
     /// Evaluations per second over the last (up to) ten iterations.
     pub fn evaluations_per_s(&self) -> Option<f64> {
+        if !self.has_evaluation_counts() {
+            return None;
+        }
         let last = self.history.last()?;
         let first = self.history[self.history.len().saturating_sub(11)];
         let dt = last.elapsed_s - first.elapsed_s;
