@@ -7,5 +7,6 @@ mod microscale;
 mod pmma_fit;
 mod predict;
 mod properties;
+mod tui;
 mod util;
 mod verification;
