@@ -275,7 +275,8 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
                 )
             }
             (Some(age), None) => format!("{} ago", duration_text(age.as_secs_f64())),
-            _ => "none yet".into(),
+            (None, Some((iter, _, _))) => format!("at iteration {iter} (no checkpoint file here)"),
+            (None, None) => "none yet".into(),
         },
         look,
     ));
@@ -810,13 +811,21 @@ fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
         ),
         look,
     ));
+    // One line per case: its signals' parts of the objective.
+    let mut by_case: Vec<(String, Vec<String>)> = Vec::new();
     for part in summary.parts.iter().flatten() {
-        lines.push(Line::from(format!(
-            "  {:<18} {:<6} {}",
-            part.case,
+        let cost = format!(
+            "{} {}",
             part.signal,
-            part.cost.map_or_else(|| "-".into(), |c| significant(c, 5))
-        )));
+            part.cost.map_or_else(|| "-".into(), |c| significant(c, 4))
+        );
+        match by_case.iter_mut().find(|(case, _)| *case == part.case) {
+            Some((_, costs)) => costs.push(cost),
+            None => by_case.push((part.case.clone(), vec![cost])),
+        }
+    }
+    for (case, costs) in by_case {
+        lines.push(Line::from(format!("  {case}: {}", costs.join(", "))));
     }
     if let Some(problem) = &summary.identifiability_problem {
         lines.push(Line::from(Span::styled(
@@ -1075,6 +1084,7 @@ mod tests {
         let shown = text(&render(&state, &screen, Look { is_colour: false }, 120, 30));
         for expected in [
             "objective       27.4798",
+            "25 kW/m²: mlr 15.18, hrr 0.9288",
             "Correlation: [±r] marks |r| ≥ 0.95",
             "[+0.97]",
             "+1.00",

@@ -405,3 +405,59 @@ fn a_detached_fit_runs_in_its_own_session_and_q_in_a_foreground_fit_stops_it_cle
     assert_complete(&runs.join("fg"));
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+#[test]
+fn watch_refuses_a_directory_that_is_not_a_run_and_a_pipe_for_a_screen() {
+    let dir = scratch("refuse");
+    let output = Command::new(BIN)
+        .arg("watch")
+        .arg(dir.join("nothing-here"))
+        .output()
+        .expect("watch runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    // Standard output is a pipe here, so the terminal check speaks first.
+    assert!(stderr.contains("watch needs a terminal"), "{stderr}");
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/finished-run");
+    let output = Command::new(BIN)
+        .arg("watch")
+        .arg(&fixture)
+        .output()
+        .expect("watch runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("emberfit report"), "{stderr}");
+    if let Some(tmux) = Tmux::start("refuse") {
+        tmux.run(&["set-option", "-g", "remain-on-exit", "on"]);
+        tmux.new_session(
+            "watch",
+            &format!("exec {BIN} watch {}", dir.join("nothing-here").display()),
+        );
+        tmux.wait_for(
+            "watch",
+            &["is not a run directory (no progress.jsonl, summary.json or cases/)"],
+            Duration::from_secs(10),
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn fit_detach_refuses_a_bad_job_where_the_user_sees_it() {
+    let dir = scratch("bad-job");
+    let output = Command::new(BIN)
+        .arg("fit")
+        .arg(dir.join("missing.toml"))
+        .arg("--detach")
+        .arg("--runs-dir")
+        .arg(dir.join("runs"))
+        .output()
+        .expect("fit runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    assert!(stderr.contains("reading the fit job"), "{stderr}");
+    assert!(
+        !dir.join("runs").exists(),
+        "a refused job left a run directory"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
