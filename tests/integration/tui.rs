@@ -427,14 +427,17 @@ fn watch_refuses_a_directory_that_is_not_a_run_and_a_pipe_for_a_screen() {
     let stderr = String::from_utf8_lossy(&output.stderr);
     assert!(stderr.contains("emberfit report"), "{stderr}");
     if let Some(tmux) = Tmux::start("refuse") {
-        tmux.run(&["set-option", "-g", "remain-on-exit", "on"]);
+        // The pane stays a while after the viewer has refused, so its message can be read.
         tmux.new_session(
             "watch",
-            &format!("exec {BIN} watch {}", dir.join("nothing-here").display()),
+            &format!(
+                "{BIN} watch {}; sleep 30",
+                dir.join("nothing-here").display()
+            ),
         );
         tmux.wait_for(
             "watch",
-            &["is not a run directory (no progress.jsonl, summary.json or cases/)"],
+            &["error: watching the run", "is not a run directory"],
             Duration::from_secs(10),
         );
     }
