@@ -385,7 +385,7 @@ fn fit_detached(args: &FitArgs) -> Result<()> {
     emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
     let name = run_name(args);
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
-    if !args.resume && directory.root.exists() {
+    if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
         bail!(
             "run directory {} already exists; give --resume to continue it or --name to start another",
             directory.root.display()

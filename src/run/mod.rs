@@ -104,6 +104,19 @@ impl RunDirectory {
     pub fn log(&self) -> PathBuf {
         self.root.join("fit.log")
     }
+
+    /// True when the directory holds nothing but the log a detached fit opened before
+    /// starting (`fit --detach` creates it so the background process has somewhere to write
+    /// from its first line): a new run may still start there.
+    pub fn holds_only_the_log(&self) -> bool {
+        let Ok(entries) = std::fs::read_dir(&self.root) else {
+            return false;
+        };
+        let log = self.log();
+        entries
+            .filter_map(Result::ok)
+            .all(|entry| entry.path() == log)
+    }
 }
 
 /// `run.toml`: what started the run.
@@ -434,7 +447,7 @@ pub fn run_fit(
         let iteration = state.iteration;
         (state, Some(iteration))
     } else {
-        if dir.root.exists() && !holds_only_the_log(&dir) {
+        if dir.root.exists() && !dir.holds_only_the_log() {
             return Err(RunError::Exists(dir.root.clone()));
         }
         std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
@@ -552,19 +565,6 @@ pub fn run_fit(
         directory: dir.root.clone(),
         summary,
     })
-}
-
-/// True when the directory holds nothing but the log a detached fit opened before starting
-/// (`fit --detach` creates it so the background process has somewhere to write from its
-/// first line).
-fn holds_only_the_log(dir: &RunDirectory) -> bool {
-    let Ok(entries) = std::fs::read_dir(&dir.root) else {
-        return false;
-    };
-    let log = dir.log();
-    entries
-        .filter_map(Result::ok)
-        .all(|entry| entry.path() == log)
 }
 
 /// Keeps the progress lines up to the checkpoint's iteration (the killed process may have
