@@ -327,7 +327,9 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
 fn draw_progress(frame: &mut Frame, area: Rect, scene: &Scene) {
     let lines = progress_lines(scene);
     let (stats_area, chart_area) = if area.width >= 110 {
-        let [a, b] = Layout::horizontal([Constraint::Length(52), Constraint::Min(20)]).areas(area);
+        let stats_width = if area.width >= 160 { 72 } else { 52 };
+        let [a, b] =
+            Layout::horizontal([Constraint::Length(stats_width), Constraint::Min(20)]).areas(area);
         (a, b)
     } else {
         let height = (lines.len() as u16 + 2).min(area.height.saturating_sub(6).max(3));
@@ -827,6 +829,23 @@ fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
     for (case, costs) in by_case {
         lines.push(Line::from(format!("  {case}: {}", costs.join(", "))));
     }
+    // With room to spare, the parameters too (the Parameters view has them at any size).
+    if area.height >= 30 {
+        lines.push(Line::from(""));
+        for row in scene.state.parameter_rows() {
+            let interval = row.interval_95.map_or_else(
+                || "undetermined".into(),
+                |(a, b)| format!("{} … {}", significant(a, 4), significant(b, 4)),
+            );
+            lines.push(Line::from(format!(
+                "  {} = {} {}  (95 %: {interval})",
+                row.name,
+                row.value.map_or_else(|| "-".into(), |v| significant(v, 5)),
+                row.unit
+            )));
+        }
+        lines.push(Line::from(""));
+    }
     if let Some(problem) = &summary.identifiability_problem {
         lines.push(Line::from(Span::styled(
             format!("intervals not computed: {problem}"),
@@ -1101,6 +1120,14 @@ mod tests {
         for view in View::ALL {
             let screen = screen_on(view, Mode::Attached);
             let shown = text(&render(&state, &screen, COLOUR, 200, 60));
+            if view == View::Summary {
+                assert!(
+                    shown.contains(
+                        "reaction.0.peak_temperature_k = 619.44 K  (95 %: 617.6 … 621.3)"
+                    ),
+                    "{shown}"
+                );
+            }
             assert!(
                 shown.contains(&format!(
                     "[{}",
