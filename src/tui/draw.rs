@@ -380,7 +380,9 @@ fn draw_objective_chart(frame: &mut Frame, area: Rect, scene: &Scene) {
         );
         return;
     }
+    // Counts are never negative: a single point widens to the right only.
     let (x_min, x_max) = span(points.iter().map(|p| p.0));
+    let (x_min, x_max) = (x_min.max(0.0), x_max.max(x_min.max(0.0) + 1.0));
     let (y_min, y_max) = span(points.iter().map(|p| p.1));
     let (y_min, y_max) = (y_min.floor(), y_max.ceil().max(y_min.floor() + 1.0));
     let y_labels: Vec<Line> = [y_min, (y_min + y_max) / 2.0, y_max]

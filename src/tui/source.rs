@@ -176,6 +176,30 @@ mod tests {
     }
 
     #[test]
+    fn a_progress_file_rewritten_shorter_is_read_again_from_its_start() {
+        let dir = scratch("rewritten");
+        let progress = dir.join("progress.jsonl");
+        let line = |iter: u64, cost: f64| {
+            format!("{{\"event\":\"iteration\",\"iter\":{iter},\"phase\":\"global\",\"evaluations\":{},\"elapsed_s\":{iter}.0,\"best_cost\":{cost},\"parts\":[],\"best_params\":[]}}\n", iter * 10)
+        };
+        std::fs::write(
+            &progress,
+            [line(1, 9.0), line(2, 8.0), line(3, 7.0)].concat(),
+        )
+        .unwrap();
+        let mut source = RunSource::new(&dir);
+        let mut state = ViewerState::default();
+        source.refresh(&mut state);
+        assert_eq!(state.history.len(), 3);
+        // A resume trims the log back to its checkpoint (rewritten atomically, shorter).
+        std::fs::write(&progress, line(1, 9.0)).unwrap();
+        source.refresh(&mut state);
+        assert_eq!(state.history.len(), 1);
+        assert_eq!(state.best_cost(), Some(9.0));
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
+
+    #[test]
     fn unchanged_files_are_not_read_again() {
         let dir = scratch("unchanged");
         std::fs::write(
