@@ -46,12 +46,31 @@ pub enum Command {
     /// finishes the current generation, writes the checkpoint and all outputs, then exits;
     /// a second Ctrl-C exits at once. `--resume` continues a stopped or killed run exactly.
     ///
+    /// On a terminal the fit opens the terminal interface (progress, parameters, residuals,
+    /// summary; ? lists the keys): p pauses, s stops, q stops and exits once the outputs are
+    /// written. Closing the terminal or losing SSH does not stop the fit. `--detach` runs it
+    /// in the background instead and prints how to watch it (`emberfit watch runs/NAME`).
+    ///
     /// Examples:
     ///   emberfit fit demo-cases/ridgeline-panel/fit.toml
+    ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --detach --name overnight
     ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --time 8h --threads 2
     ///   emberfit fit demo-cases/ridgeline-panel/fit.toml --name overnight --resume
     #[command(verbatim_doc_comment)]
     Fit(FitArgs),
+    /// Watch a running or finished fit in the terminal interface, read-only
+    ///
+    /// Reads only the run directory (progress.jsonl, summary.json, cases/*.csv), so it works
+    /// from any terminal or SSH session, any number of viewers at once, while the fit runs
+    /// (started with --detach or in another terminal) or long after it ended. It cannot pause
+    /// or stop the fit: do that from the fit's terminal, or with kill -INT <pid>.
+    ///
+    /// Keys: 1-4 or Tab switch views, ← → choose a case, ↑ ↓ a signal, ? help, q quit.
+    ///
+    /// Examples:
+    ///   emberfit watch runs/overnight
+    #[command(verbatim_doc_comment)]
+    Watch(WatchArgs),
     /// Reduce one cone calorimeter test: read its data, compute HRR and MLR, print the report
     ///
     /// Reads a test description (TEST.toml, keys in docs/test-files.md) and the CSV it names,
@@ -411,4 +430,14 @@ pub struct FitArgs {
     /// Print progress lines instead of opening the terminal interface.
     #[arg(long)]
     pub headless: bool,
+    /// Run the fit in the background, in its own session, with its output in the run
+    /// directory's fit.log; print the run directory and how to watch and stop it.
+    #[arg(long, conflicts_with = "headless")]
+    pub detach: bool,
+}
+
+#[derive(Debug, clap::Args)]
+pub struct WatchArgs {
+    /// The run directory, e.g. runs/overnight.
+    pub run: PathBuf,
 }

@@ -18,7 +18,7 @@ use emberfit::physics::{simulate as run_simulation, History};
 
 use crate::cli::{
     Cli, Command, CompareArgs, FitArgs, IgnitionArgs, PredictArgs, ReduceArgs, ReportArgs,
-    SimulateArgs, SynthesizeArgs,
+    SimulateArgs, SynthesizeArgs, WatchArgs,
 };
 
 pub fn run(cli: Cli) -> Result<()> {
@@ -26,6 +26,7 @@ pub fn run(cli: Cli) -> Result<()> {
         Command::Simulate(args) => simulate(args),
         Command::Synthesize(args) => synthesize(args),
         Command::Fit(args) => fit(args),
+        Command::Watch(args) => watch(args),
         Command::Reduce(args) => reduce(*args),
         Command::Ignition(args) => ignition(args),
         Command::Isoconversional(args) => milligram::isoconversional(args),
@@ -209,10 +210,41 @@ fn report(args: ReportArgs) -> Result<()> {
     Ok(())
 }
 
+/// The run directory's name: given, or the job's name made unique (a fresh user may run the
+/// demo twice).
+fn run_name(args: &FitArgs) -> String {
+    if let Some(name) = &args.name {
+        return name.clone();
+    }
+    let stem = args
+        .job
+        .file_stem()
+        .map(|s| emberfit::run::slug(&s.to_string_lossy()))
+        .unwrap_or_else(|| "fit".into());
+    let mut candidate = stem.clone();
+    let mut n = 2;
+    while !args.resume && args.runs_dir.join(&candidate).exists() {
+        candidate = format!("{stem}-{n}");
+        n += 1;
+    }
+    candidate
+}
+
+/// Writes a line to stderr, ignoring failure: after a hang-up the terminal is gone, and the
+/// fit must keep running rather than panic on a failed write (as `eprintln!` would).
+fn tell(line: &str) {
+    use std::io::Write;
+    let _ = writeln!(std::io::stderr(), "{line}");
+}
+
 fn fit(args: FitArgs) -> Result<()> {
+    use std::io::IsTerminal;
     use std::sync::atomic::AtomicBool;
     use std::sync::Arc;
 
+    if args.detach {
+        return fit_detached(&args);
+    }
     let threads = args
         .threads
         .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
@@ -235,38 +267,19 @@ fn fit(args: FitArgs) -> Result<()> {
     };
     let stop = Arc::new(AtomicBool::new(false));
     let pause = Arc::new(AtomicBool::new(false));
+    let hangup = Arc::new(AtomicBool::new(false));
     // First SIGINT/SIGTERM: stop cleanly after this generation; a second one exits at once.
-    // SIGHUP (a closed terminal or a dropped SSH link) is ignored: the fit keeps running.
+    // SIGHUP (a closed terminal or a dropped SSH link) does not stop the fit: it only tells
+    // the interface that the terminal is gone.
     for signal in [signal_hook::consts::SIGINT, signal_hook::consts::SIGTERM] {
         signal_hook::flag::register_conditional_shutdown(signal, 1, Arc::clone(&stop))
             .context("installing the signal handlers")?;
         signal_hook::flag::register(signal, Arc::clone(&stop))
             .context("installing the signal handlers")?;
     }
-    signal_hook::flag::register(
-        signal_hook::consts::SIGHUP,
-        Arc::new(AtomicBool::new(false)),
-    )
-    .context("installing the signal handlers")?;
-    // The run directory's name: given, or the job's name made unique (a fresh user may run
-    // the demo twice).
-    let name = match &args.name {
-        Some(name) => name.clone(),
-        None => {
-            let stem = args
-                .job
-                .file_stem()
-                .map(|s| emberfit::run::slug(&s.to_string_lossy()))
-                .unwrap_or_else(|| "fit".into());
-            let mut candidate = stem.clone();
-            let mut n = 2;
-            while !args.resume && args.runs_dir.join(&candidate).exists() {
-                candidate = format!("{stem}-{n}");
-                n += 1;
-            }
-            candidate
-        }
-    };
+    signal_hook::flag::register(signal_hook::consts::SIGHUP, Arc::clone(&hangup))
+        .context("installing the signal handlers")?;
+    let name = run_name(&args);
     let options = emberfit::run::RunOptions {
         runs_root: args.runs_dir.clone(),
         name: Some(name.clone()),
@@ -283,25 +296,56 @@ fn fit(args: FitArgs) -> Result<()> {
         emberfit::run::run_fit(&job, &options, worker_stop, worker_pause)
     });
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
+    if !args.headless && std::io::stdout().is_terminal() {
+        let is_worker_finished = || worker.is_finished();
+        let control = emberfit::tui::FitControl {
+            stop: &stop,
+            pause: &pause,
+            hangup: &hangup,
+            is_worker_finished: &is_worker_finished,
+        };
+        match emberfit::tui::attach(&directory.root, &control) {
+            Ok(emberfit::tui::ViewerEnd::Left) => {
+                let report = join_fit(worker)?;
+                print!("{}", fit_summary_table(&report.summary));
+                println!("run directory: {}", report.directory.display());
+                return Ok(());
+            }
+            Ok(emberfit::tui::ViewerEnd::TerminalLost) => {
+                // Nobody is looking: wait for the fit (blocking, no polling) and say nothing
+                // on the terminal; the run directory holds everything.
+                return match join_fit(worker) {
+                    Ok(_) => Ok(()),
+                    Err(err) => {
+                        tell(&format!("error: {err:#}"));
+                        std::process::exit(1);
+                    }
+                };
+            }
+            Err(err) => tell(&format!(
+                "note: no terminal interface ({err:#}); printing progress lines instead"
+            )),
+        }
+    }
     let mut follower = emberfit::run::progress::ProgressFollower::new(&directory.progress());
     if args.resume {
         // Skip what the earlier process already printed; only new events are shown.
         let _ = follower.poll();
     }
-    eprintln!("run directory: {}", directory.root.display());
+    tell(&format!("run directory: {}", directory.root.display()));
     let mut ticker = emberfit::headless::Ticker::new(std::time::Duration::from_secs(3));
     let mut print_events = |follower: &mut emberfit::run::progress::ProgressFollower,
                             is_last: bool| {
         if let Ok(events) = follower.poll() {
             for event in &events {
                 if let Some(line) = ticker.line(event, std::time::Instant::now()) {
-                    eprintln!("{line}");
+                    tell(&line);
                 }
             }
         }
         if is_last {
             if let Some(line) = ticker.flush() {
-                eprintln!("{line}");
+                tell(&line);
             }
         }
     };
@@ -309,16 +353,127 @@ fn fit(args: FitArgs) -> Result<()> {
         print_events(&mut follower, false);
         std::thread::sleep(std::time::Duration::from_millis(200));
     }
-    let report = match worker.join() {
-        Ok(result) => result.context("running the fit")?,
+    let report = join_fit(worker)?;
+    print_events(&mut follower, true);
+    {
+        use std::io::Write;
+        let mut out = std::io::stdout();
+        let _ = write!(out, "{}", fit_summary_table(&report.summary));
+        let _ = writeln!(out, "run directory: {}", report.directory.display());
+    }
+    Ok(())
+}
+
+fn join_fit(
+    worker: std::thread::JoinHandle<Result<emberfit::run::FitReport, emberfit::run::RunError>>,
+) -> Result<emberfit::run::FitReport> {
+    match worker.join() {
+        Ok(result) => result.context("running the fit"),
         Err(_) => bail!(
             "the fit stopped unexpectedly (a worker thread panicked); the last checkpoint is kept"
         ),
-    };
-    print_events(&mut follower, true);
-    print!("{}", fit_summary_table(&report.summary));
-    println!("run directory: {}", report.directory.display());
+    }
+}
+
+/// `fit --detach`: the same fit, headless, in a background process with its own session (so
+/// a closed terminal or a dropped SSH link sends it no hang-up), its output in `fit.log`.
+fn fit_detached(args: &FitArgs) -> Result<()> {
+    use std::os::unix::process::CommandExt;
+    use std::process::{Command as Process, Stdio};
+
+    // Refuse a bad job here, where the user can see the message.
+    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    let name = run_name(args);
+    let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
+    if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
+        bail!(
+            "run directory {} already exists; give --resume to continue it or --name to start another",
+            directory.root.display()
+        );
+    }
+    std::fs::create_dir_all(&directory.root)
+        .with_context(|| format!("creating {}", directory.root.display()))?;
+    let log_path = directory.log();
+    let log = std::fs::OpenOptions::new()
+        .create(true)
+        .append(true)
+        .open(&log_path)
+        .with_context(|| format!("opening {}", log_path.display()))?;
+    let log_for_stderr = log
+        .try_clone()
+        .with_context(|| format!("opening {}", log_path.display()))?;
+    let exe = std::env::current_exe().context("finding the emberfit program")?;
+    let mut command = Process::new(exe);
+    command
+        .arg("fit")
+        .arg(&args.job)
+        .arg("--headless")
+        .arg("--name")
+        .arg(&name)
+        .arg("--runs-dir")
+        .arg(&args.runs_dir);
+    if args.resume {
+        command.arg("--resume");
+    }
+    if let Some(threads) = args.threads {
+        command.arg("--threads").arg(threads.to_string());
+    }
+    if let Some(time) = &args.time {
+        command.arg("--time").arg(time);
+    }
+    if let Some(n) = args.max_evaluations {
+        command.arg("--max-evaluations").arg(n.to_string());
+    }
+    if let Some(seed) = args.seed {
+        command.arg("--seed").arg(seed.to_string());
+    }
+    command
+        .stdin(Stdio::null())
+        .stdout(log)
+        .stderr(log_for_stderr);
+    // SAFETY: `setsid` is async-signal-safe and touches no memory of this process, which is
+    // all that may happen between fork and exec.
+    unsafe {
+        command.pre_exec(|| {
+            if libc::setsid() == -1 {
+                return Err(std::io::Error::last_os_error());
+            }
+            Ok(())
+        });
+    }
+    let mut child = command.spawn().context("starting the background fit")?;
+    // A moment to catch a fit that cannot start (its message is in the log).
+    std::thread::sleep(std::time::Duration::from_millis(500));
+    if let Some(status) = child.try_wait().context("checking the background fit")? {
+        if !status.success() {
+            let log_text = std::fs::read_to_string(&log_path).unwrap_or_default();
+            bail!(
+                "the background fit stopped at once ({status}):\n{}",
+                log_text.trim_end()
+            );
+        }
+    }
+    let pid = child.id();
+    println!(
+        "fitting in the background (pid {pid}); output in {}",
+        log_path.display()
+    );
+    println!("run directory: {}", directory.root.display());
+    println!("watch it:      emberfit watch {}", directory.root.display());
+    println!("stop it:       kill -INT {pid}   (finishes the iteration, writes all outputs)");
     Ok(())
+}
+
+fn watch(args: WatchArgs) -> Result<()> {
+    use std::io::IsTerminal;
+    if !std::io::stdout().is_terminal() {
+        bail!(
+            "watch needs a terminal; without one, read {} or run `emberfit report {}`",
+            args.run.join("progress.jsonl").display(),
+            args.run.display()
+        );
+    }
+    emberfit::tui::watch(&args.run).context("watching the run")
 }
 
 fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {

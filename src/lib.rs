@@ -11,3 +11,4 @@ pub mod physics;
 pub mod predict;
 pub mod run;
 pub mod synthetic;
+pub mod tui;

@@ -104,6 +104,19 @@ impl RunDirectory {
     pub fn log(&self) -> PathBuf {
         self.root.join("fit.log")
     }
+
+    /// True when the directory holds nothing but the log a detached fit opened before
+    /// starting (`fit --detach` creates it so the background process has somewhere to write
+    /// from its first line): a new run may still start there.
+    pub fn holds_only_the_log(&self) -> bool {
+        let Ok(entries) = std::fs::read_dir(&self.root) else {
+            return false;
+        };
+        let log = self.log();
+        entries
+            .filter_map(Result::ok)
+            .all(|entry| entry.path() == log)
+    }
 }
 
 /// `run.toml`: what started the run.
@@ -450,7 +463,7 @@ pub fn run_fit(
         let iteration = state.iteration;
         (state, Some(iteration))
     } else {
-        if dir.root.exists() {
+        if dir.root.exists() && !dir.holds_only_the_log() {
             return Err(RunError::Exists(dir.root.clone()));
         }
         std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
@@ -532,9 +545,12 @@ pub fn run_fit(
     let objective = Objective::new(&model, &job.cases);
     let outcome = optimise(&objective, &settings, state, &mut recorder);
     if let Some(err) = recorder.io_error.take() {
+        recorder.write_event(&ProgressEvent::Failed {
+            message: err.to_string(),
+        });
         return Err(err);
     }
-    let summary = finish(
+    let summary = match finish(
         &dir,
         &job,
         &start_text,
@@ -542,7 +558,16 @@ pub fn run_fit(
         &model,
         &outcome,
         &provenance,
-    )?;
+    ) {
+        Ok(summary) => summary,
+        Err(err) => {
+            // Viewers learn from the log that no outputs will come.
+            recorder.write_event(&ProgressEvent::Failed {
+                message: err.to_string(),
+            });
+            return Err(err);
+        }
+    };
     recorder.write_event(&ProgressEvent::Finished {
         reason: summary.reason.clone(),
         best_cost: summary.objective,

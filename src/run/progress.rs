@@ -117,7 +117,7 @@ impl ProgressWriter {
 pub struct ProgressFollower {
     path: PathBuf,
     offset: u64,
-    pending: String,
+    pending_bytes: Vec<u8>,
 }
 
 impl ProgressFollower {
@@ -125,42 +125,64 @@ impl ProgressFollower {
         ProgressFollower {
             path: path.to_path_buf(),
             offset: 0,
-            pending: String::new(),
+            pending_bytes: Vec::new(),
         }
     }
 
     /// Events completed since the last call. A file that does not exist yet gives none; a
-    /// file that shrank (rewritten on resume) is read again from the start.
+    /// file that shrank (rewritten on resume) is read again from the start. A line this
+    /// version cannot read (a newer event) is skipped, not fatal.
     pub fn poll(&mut self) -> std::io::Result<Vec<ProgressEvent>> {
+        Ok(self
+            .poll_lines()?
+            .lines
+            .iter()
+            .filter_map(|line| serde_json::from_str(line).ok())
+            .collect())
+    }
+
+    /// The complete, non-empty lines written since the last call, for readers that want to
+    /// say what they could not read. `restarted` is true when the file shrank and was read
+    /// again from its start (the reader should forget what it had).
+    pub fn poll_lines(&mut self) -> std::io::Result<NewLines> {
         let mut file = match File::open(&self.path) {
             Ok(file) => file,
-            Err(err) if err.kind() == std::io::ErrorKind::NotFound => return Ok(Vec::new()),
+            Err(err) if err.kind() == std::io::ErrorKind::NotFound => {
+                return Ok(NewLines::default())
+            }
             Err(err) => return Err(err),
         };
         let length = file.metadata()?.len();
-        if length < self.offset {
+        let restarted = length < self.offset;
+        if restarted {
             self.offset = 0;
-            self.pending.clear();
+            self.pending_bytes.clear();
         }
         file.seek(SeekFrom::Start(self.offset))?;
-        let mut chunk = String::new();
-        let read = file.read_to_string(&mut chunk)?;
+        let mut bytes = Vec::new();
+        let read = file.read_to_end(&mut bytes)?;
         self.offset += read as u64;
-        self.pending.push_str(&chunk);
-        let mut events = Vec::new();
-        while let Some(newline) = self.pending.find('\n') {
-            let line: String = self.pending.drain(..=newline).collect();
+        // A multi-byte character split across two reads is completed by the next one, so
+        // only whole lines are decoded.
+        self.pending_bytes.extend_from_slice(&bytes);
+        let mut lines = Vec::new();
+        while let Some(newline) = self.pending_bytes.iter().position(|&b| b == b'\n') {
+            let line: Vec<u8> = self.pending_bytes.drain(..=newline).collect();
+            let line = String::from_utf8_lossy(&line);
             let line = line.trim();
-            if line.is_empty() {
-                continue;
-            }
-            // A line this version cannot read (a newer event) is skipped, not fatal.
-            if let Ok(event) = serde_json::from_str(line) {
-                events.push(event);
+            if !line.is_empty() {
+                lines.push(line.to_string());
             }
         }
-        Ok(events)
+        Ok(NewLines { lines, restarted })
     }
+}
+
+/// What [`ProgressFollower::poll_lines`] found.
+#[derive(Debug, Default, Clone, PartialEq)]
+pub struct NewLines {
+    pub lines: Vec<String>,
+    pub restarted: bool,
 }
 
 /// Every complete event of a progress file.

@@ -8,5 +8,6 @@ mod milligram_fit;
 mod pmma_fit;
 mod predict;
 mod properties;
+mod tui;
 mod util;
 mod verification;

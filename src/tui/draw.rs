@@ -1,0 +1,1285 @@
+//! The screens: a pure function of the viewer state, the screen state, the look and the time.
+//! Nothing here reads files or the terminal; tests draw into ratatui's `TestBackend`.
+//!
+//! Nothing relies on colour alone: the status is a word, the selected tab and case are
+//! bracketed and marked, strong correlations are bracketed, and each curve has its own glyph,
+//! named in the chart's title.
+
+use std::time::SystemTime;
+
+use ratatui::layout::{Constraint, Layout, Rect};
+use ratatui::style::{Color, Modifier, Style};
+use ratatui::symbols::Marker;
+use ratatui::text::{Line, Span};
+use ratatui::widgets::{Axis, Block, Chart, Clear, Dataset, GraphType, Paragraph, Wrap};
+use ratatui::Frame;
+
+use crate::headless::significant;
+
+use super::input::{footer_keys, help_lines, Mode, Screen, View};
+use super::state::{position_between, ParameterRow, Status, ViewerState, STRONG_CORRELATION};
+
+/// Colours, or none (NO_COLOR): every style below degrades to a modifier or to nothing.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct Look {
+    pub is_colour: bool,
+}
+
+impl Look {
+    /// Colour unless `NO_COLOR` is set to a non-empty value (no-color.org).
+    pub fn from_env() -> Self {
+        Look {
+            is_colour: std::env::var_os("NO_COLOR").is_none_or(|v| v.is_empty()),
+        }
+    }
+
+    fn fg(self, colour: Color) -> Style {
+        if self.is_colour {
+            Style::default().fg(colour)
+        } else {
+            Style::default()
+        }
+    }
+
+    fn strong(self) -> Style {
+        self.fg(Color::Yellow).add_modifier(Modifier::BOLD)
+    }
+
+    fn warn(self) -> Style {
+        self.fg(Color::Red).add_modifier(Modifier::BOLD)
+    }
+
+    fn dim(self) -> Style {
+        self.fg(Color::DarkGray)
+    }
+
+    fn accent(self) -> Style {
+        self.fg(Color::Cyan)
+    }
+
+    fn selected(self) -> Style {
+        Style::default().add_modifier(Modifier::REVERSED | Modifier::BOLD)
+    }
+
+    fn status(self, status: Status) -> Style {
+        let colour = match status {
+            Status::Running => Color::Green,
+            Status::Paused | Status::Stopping | Status::Waiting => Color::Yellow,
+            Status::Finished => Color::Cyan,
+            Status::Failed | Status::Stale => Color::Red,
+        };
+        self.fg(colour).add_modifier(Modifier::BOLD)
+    }
+}
+
+/// Everything one frame is drawn from.
+pub struct Scene<'a> {
+    pub state: &'a ViewerState,
+    pub screen: &'a Screen,
+    pub look: Look,
+    pub now: SystemTime,
+}
+
+/// Draws the whole screen.
+pub fn draw(frame: &mut Frame, scene: &Scene) {
+    let area = frame.area();
+    let footer = footer_line(scene);
+    let footer_height = if footer.width() as u16 > area.width {
+        2
+    } else {
+        1
+    };
+    let message_height = u16::from(scene.screen.message.is_some());
+    let [header, tabs, body, message, footer_area] = Layout::vertical([
+        Constraint::Length(1),
+        Constraint::Length(1),
+        Constraint::Min(3),
+        Constraint::Length(message_height),
+        Constraint::Length(footer_height),
+    ])
+    .areas(area);
+    frame.render_widget(Paragraph::new(header_line(scene)), header);
+    frame.render_widget(Paragraph::new(tabs_line(scene)), tabs);
+    match scene.screen.view {
+        View::Progress => draw_progress(frame, body, scene),
+        View::Parameters => draw_parameters(frame, body, scene),
+        View::Residuals => draw_residuals(frame, body, scene),
+        View::Summary => draw_summary(frame, body, scene),
+    }
+    if let Some(text) = &scene.screen.message {
+        frame.render_widget(
+            Paragraph::new(Line::from(Span::styled(
+                format!(" {text}"),
+                scene.look.strong(),
+            ))),
+            message,
+        );
+    }
+    frame.render_widget(
+        Paragraph::new(footer).wrap(Wrap { trim: false }),
+        footer_area,
+    );
+    if scene.screen.is_help_open {
+        draw_help(frame, area, scene);
+    }
+}
+
+fn header_line<'a>(scene: &Scene) -> Line<'a> {
+    let state = scene.state;
+    let status = state.status(scene.now, scene.screen.is_stop_requested);
+    let title = state
+        .info
+        .as_ref()
+        .map(|i| i.title.clone())
+        .or_else(|| state.summary.as_ref().and_then(|s| s.title.clone()))
+        .unwrap_or_else(|| "(no started line yet)".into());
+    let mode = match scene.screen.mode {
+        Mode::Attached => "",
+        Mode::ReadOnly => "(read-only) ",
+    };
+    Line::from(vec![
+        Span::styled(format!(" [{}] ", status.label()), scene.look.status(status)),
+        Span::styled(mode, scene.look.dim()),
+        Span::styled(title, Style::default().add_modifier(Modifier::BOLD)),
+    ])
+}
+
+fn tabs_line<'a>(scene: &Scene) -> Line<'a> {
+    let mut spans = vec![Span::raw(" ")];
+    for (i, view) in View::ALL.iter().enumerate() {
+        let label = format!("{} {}", i + 1, view.title());
+        if *view == scene.screen.view {
+            spans.push(Span::styled(format!("[{label}]"), scene.look.selected()));
+        } else {
+            spans.push(Span::raw(format!(" {label} ")));
+        }
+        spans.push(Span::raw(" "));
+    }
+    Line::from(spans)
+}
+
+fn footer_line<'a>(scene: &Scene) -> Line<'a> {
+    let mut spans = vec![Span::raw(" ")];
+    for (key, what) in footer_keys(scene.screen.view, scene.screen.mode, scene.state.is_over()) {
+        spans.push(Span::styled(
+            key,
+            scene.look.accent().add_modifier(Modifier::BOLD),
+        ));
+        spans.push(Span::raw(format!(" {what}  ")));
+    }
+    if scene.screen.mode == Mode::ReadOnly {
+        spans.push(Span::styled("(read-only)", scene.look.dim()));
+    }
+    Line::from(spans)
+}
+
+/// A duration in words: 45 s, 12 min 05 s, 3 h 07 min.
+pub fn duration_text(seconds: f64) -> String {
+    if !seconds.is_finite() || seconds < 0.0 {
+        return "-".into();
+    }
+    let total = seconds.round() as u64;
+    match total {
+        0..=59 => format!("{seconds:.1} s"),
+        60..=3599 => format!("{} min {:02} s", total / 60, total % 60),
+        _ => format!("{} h {:02} min", total / 3600, (total % 3600) / 60),
+    }
+}
+
+fn label_value<'a>(label: &str, value: String, look: Look) -> Line<'a> {
+    Line::from(vec![
+        Span::styled(format!("{label:<16}"), look.dim()),
+        Span::raw(value),
+    ])
+}
+
+fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
+    let state = scene.state;
+    let look = scene.look;
+    let status = state.status(scene.now, scene.screen.is_stop_requested);
+    let mut lines = Vec::new();
+    let phase = state
+        .latest
+        .as_ref()
+        .map(|l| match l.phase.as_str() {
+            "" => format!(" (iteration {})", l.iter),
+            phase => format!(" ({phase} phase, iteration {})", l.iter),
+        })
+        .unwrap_or_default();
+    lines.push(Line::from(vec![
+        Span::styled(format!("{:<16}", "status"), look.dim()),
+        Span::styled(status.label(), look.status(status)),
+        Span::raw(phase),
+    ]));
+    lines.push(label_value(
+        "best objective",
+        state
+            .best_cost()
+            .map_or_else(|| "-".into(), |c| significant(c, 6)),
+        look,
+    ));
+    let budget = state.info.as_ref().map(|i| i.max_evaluations).unwrap_or(0);
+    let evaluations = state.evaluations();
+    lines.push(label_value(
+        "evaluations",
+        match evaluations {
+            Some(n) if budget > 0 => format!("{n} (budget {budget} + local refinement)"),
+            Some(n) => n.to_string(),
+            None => "-".into(),
+        },
+        look,
+    ));
+    lines.push(label_value(
+        "rate",
+        state
+            .evaluations_per_s()
+            .map_or_else(|| "-".into(), |r| format!("{r:.1} evaluations/s")),
+        look,
+    ));
+    let elapsed = state.elapsed_s();
+    lines.push(label_value(
+        "elapsed",
+        elapsed.map_or_else(|| "-".into(), duration_text),
+        look,
+    ));
+    if !state.is_over() {
+        let mut left = Vec::new();
+        if budget > 0 {
+            left.push(format!(
+                "{} evaluations",
+                budget.saturating_sub(evaluations.unwrap_or(0))
+            ));
+        }
+        if let (Some(limit), Some(elapsed)) =
+            (state.info.as_ref().and_then(|i| i.time_budget_s), elapsed)
+        {
+            left.push(duration_text((limit - elapsed).max(0.0)));
+        }
+        lines.push(label_value(
+            "budget left",
+            if left.is_empty() {
+                "-".into()
+            } else {
+                left.join(" or ")
+            },
+            look,
+        ));
+    }
+    lines.push(label_value(
+        "checkpoint",
+        match (state.since_checkpoint(scene.now), state.last_checkpoint) {
+            (Some(age), Some((iter, _, _))) => {
+                format!(
+                    "{} ago (iteration {iter})",
+                    duration_text(age.as_secs_f64())
+                )
+            }
+            (Some(age), None) => format!("{} ago", duration_text(age.as_secs_f64())),
+            (None, Some((iter, _, _))) => format!("at iteration {iter} (no checkpoint file here)"),
+            (None, None) => "none yet".into(),
+        },
+        look,
+    ));
+    if let Some(age) = state.since_progress(scene.now) {
+        if !state.is_over() {
+            lines.push(label_value(
+                "last line",
+                format!("{} ago", duration_text(age.as_secs_f64())),
+                look,
+            ));
+        }
+    }
+    if state.n_failures > 0 {
+        lines.push(label_value(
+            "failed candidates",
+            format!(
+                "{} (penalised): {}",
+                state.n_failures,
+                state.last_failure.clone().unwrap_or_default()
+            ),
+            look,
+        ));
+    }
+    if let Some(ending) = &state.finished {
+        lines.push(label_value("ended", ending.reason.clone(), look));
+    }
+    if let Some(message) = &state.failed {
+        lines.push(Line::from(vec![
+            Span::styled(format!("{:<16}", "failed"), look.warn()),
+            Span::raw(message.clone()),
+        ]));
+    }
+    if status == Status::Stale {
+        lines.push(Line::from(Span::styled(
+            "no progress for a while: the fitting process may have been killed (resume it with fit --resume)",
+            look.warn(),
+        )));
+    }
+    for note in state.notes() {
+        lines.push(Line::from(Span::styled(
+            format!("cannot show: {note}"),
+            look.warn(),
+        )));
+    }
+    lines
+}
+
+fn draw_progress(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let lines = progress_lines(scene);
+    let (stats_area, chart_area) = if area.width >= 110 {
+        let stats_width = if area.width >= 160 { 72 } else { 52 };
+        let [a, b] =
+            Layout::horizontal([Constraint::Length(stats_width), Constraint::Min(20)]).areas(area);
+        (a, b)
+    } else {
+        let height = (lines.len() as u16 + 2).min(area.height.saturating_sub(6).max(3));
+        let [a, b] = Layout::vertical([Constraint::Length(height), Constraint::Min(3)]).areas(area);
+        (a, b)
+    };
+    frame.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title(" Fit ")),
+        stats_area,
+    );
+    draw_objective_chart(frame, chart_area, scene);
+}
+
+fn draw_objective_chart(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let by_evaluations = scene.state.has_evaluation_counts();
+    let (x_title, title) = if by_evaluations {
+        (
+            "evaluations",
+            " Best objective against evaluations (log scale) ",
+        )
+    } else {
+        (
+            "iterations",
+            " Best objective against iterations (log scale; this run has no evaluation counts) ",
+        )
+    };
+    let block = Block::bordered().title(title);
+    let points: Vec<(f64, f64)> = scene
+        .state
+        .history
+        .iter()
+        .filter(|p| p.best_cost > 0.0 && p.best_cost.is_finite())
+        .map(|p| {
+            let x = if by_evaluations {
+                p.evaluations
+            } else {
+                p.iter
+            };
+            (x as f64, p.best_cost.log10())
+        })
+        .collect();
+    if points.is_empty() {
+        frame.render_widget(
+            Paragraph::new("waiting for the first iteration").block(block),
+            area,
+        );
+        return;
+    }
+    // Counts are never negative: a single point widens to the right only.
+    let (x_min, x_max) = span(points.iter().map(|p| p.0));
+    let (x_min, x_max) = (x_min.max(0.0), x_max.max(x_min.max(0.0) + 1.0));
+    let (y_min, y_max) = span(points.iter().map(|p| p.1));
+    let (y_min, y_max) = (y_min.floor(), y_max.ceil().max(y_min.floor() + 1.0));
+    let y_labels: Vec<Line> = [y_min, (y_min + y_max) / 2.0, y_max]
+        .iter()
+        .map(|y| Line::from(significant(10f64.powf(*y), 3)))
+        .collect();
+    let dataset = Dataset::default()
+        .marker(Marker::Braille)
+        .graph_type(GraphType::Line)
+        .style(scene.look.strong())
+        .data(&points);
+    let chart = Chart::new(vec![dataset])
+        .block(block)
+        .legend_position(None)
+        .x_axis(
+            Axis::default()
+                .title(x_title)
+                .bounds([x_min, x_max])
+                .labels(vec![
+                    Line::from(format!("{x_min:.0}")),
+                    Line::from(format!("{x_max:.0}")),
+                ]),
+        )
+        .y_axis(Axis::default().bounds([y_min, y_max]).labels(y_labels));
+    frame.render_widget(chart, area);
+}
+
+/// Means of `ys` in `n_bins` equal bins of `xs` between `x_min` and `x_max`, at each bin's
+/// mean x; empty bins and non-finite points are left out.
+pub fn binned_means(
+    xs: &[f64],
+    ys: &[f64],
+    x_min: f64,
+    x_max: f64,
+    n_bins: usize,
+) -> Vec<(f64, f64)> {
+    let n_bins = n_bins.max(1);
+    let mut sums = vec![(0.0, 0.0, 0usize); n_bins];
+    let width = (x_max - x_min) / n_bins as f64;
+    for (x, y) in xs.iter().zip(ys) {
+        if !(x.is_finite() && y.is_finite()) || width <= 0.0 {
+            continue;
+        }
+        let bin = (((x - x_min) / width) as usize).min(n_bins - 1);
+        sums[bin].0 += x;
+        sums[bin].1 += y;
+        sums[bin].2 += 1;
+    }
+    sums.into_iter()
+        .filter(|s| s.2 > 0)
+        .map(|(sx, sy, n)| (sx / n as f64, sy / n as f64))
+        .collect()
+}
+
+/// Smallest and largest finite value, widened when they are equal.
+fn span(values: impl Iterator<Item = f64>) -> (f64, f64) {
+    let (lo, hi) = values
+        .filter(|v| v.is_finite())
+        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), v| {
+            (lo.min(v), hi.max(v))
+        });
+    if !lo.is_finite() {
+        return (0.0, 1.0);
+    }
+    if hi - lo <= f64::EPSILON * lo.abs().max(1.0) {
+        return (lo - 0.5, hi + 0.5);
+    }
+    (lo, hi)
+}
+
+/// A bar between the bounds: `─` the range, `═` the 95 % interval, `●` the best value.
+pub fn bound_bar(row: &ParameterRow, width: usize) -> String {
+    let width = width.max(3);
+    let mut cells = vec!['─'; width];
+    let cell = |p: f64| ((p * (width - 1) as f64).round() as usize).min(width - 1);
+    if let Some((a, b)) = row.interval_95 {
+        let pa = position_between(a, row.lower, row.upper, row.log_scale);
+        let pb = position_between(b, row.lower, row.upper, row.log_scale);
+        if let (Some(pa), Some(pb)) = (pa, pb) {
+            for c in &mut cells[cell(pa)..=cell(pb).max(cell(pa))] {
+                *c = '═';
+            }
+        }
+    }
+    if let Some(p) = row
+        .value
+        .and_then(|v| position_between(v, row.lower, row.upper, row.log_scale))
+    {
+        cells[cell(p)] = '●';
+    }
+    format!("[{}]", cells.into_iter().collect::<String>())
+}
+
+fn draw_parameters(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let look = scene.look;
+    let rows = scene.state.parameter_rows();
+    let is_final = scene
+        .state
+        .summary
+        .as_ref()
+        .is_some_and(|s| s.parameters.is_some());
+    let title = if is_final {
+        " Parameters: final values, 95 % intervals, warnings "
+    } else {
+        " Parameters: current best (intervals come when the fit ends) "
+    };
+    let block = Block::bordered().title(title);
+    if rows.is_empty() {
+        frame.render_widget(
+            Paragraph::new("no parameters yet (waiting for the started line)").block(block),
+            area,
+        );
+        return;
+    }
+    let inner_width = area.width.saturating_sub(2) as usize;
+    let label_width = rows
+        .iter()
+        .flat_map(|r| [significant(r.lower, 3), significant(r.upper, 3)])
+        .map(|l| l.chars().count())
+        .max()
+        .unwrap_or(1);
+    let mut lines = vec![Line::from(Span::styled(
+        "● best value   ═ 95 % interval   [ ] the bounds   ! a warning",
+        look.dim(),
+    ))];
+    for row in &rows {
+        let unit = if row.unit.is_empty() {
+            String::new()
+        } else {
+            format!(" ({})", row.unit)
+        };
+        let value = row.value.map_or_else(|| "-".into(), |v| significant(v, 5));
+        let interval = row.interval_95.map_or_else(
+            || {
+                if is_final {
+                    "95 %: undetermined".into()
+                } else {
+                    String::new()
+                }
+            },
+            |(a, b)| format!("95 %: {} … {}", significant(a, 4), significant(b, 4)),
+        );
+        lines.push(Line::from(vec![
+            Span::styled(
+                row.name.clone(),
+                Style::default().add_modifier(Modifier::BOLD),
+            ),
+            Span::raw(unit),
+            Span::raw("  "),
+            Span::styled(value, look.strong()),
+            Span::raw(format!("  {interval}")),
+        ]));
+        let lower = significant(row.lower, 3);
+        let upper = significant(row.upper, 3);
+        let scale = if row.log_scale { " log" } else { "" };
+        let bar_width = inner_width
+            .saturating_sub(2 * label_width + 8 + scale.len())
+            .min(60);
+        lines.push(Line::from(format!(
+            "  {lower:>label_width$} {} {upper}{scale}",
+            bound_bar(row, bar_width)
+        )));
+        let mut warnings: Vec<String> = row.warnings.clone();
+        if warnings.is_empty() {
+            if row.is_at_bound {
+                warnings.push("at a bound".into());
+            }
+            if row.is_strongly_correlated {
+                warnings.push("strongly correlated".into());
+            }
+            if is_final && row.is_poorly_determined {
+                warnings.push("poorly determined".into());
+            }
+        }
+        for warning in warnings {
+            lines.push(Line::from(Span::styled(
+                format!("  ! {warning}"),
+                look.warn(),
+            )));
+        }
+    }
+    frame.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(block),
+        area,
+    );
+}
+
+fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let look = scene.look;
+    let cases = scene.state.cases();
+    let shares = scene.state.case_shares();
+    let list_width = if area.width >= 120 { 34 } else { 24 };
+    let [list_area, charts_area] =
+        Layout::horizontal([Constraint::Length(list_width), Constraint::Min(20)]).areas(area);
+    let case_idx = scene.screen.case_idx.min(cases.len().saturating_sub(1));
+    let mut lines = vec![Line::from(Span::styled(
+        "share of the objective",
+        look.dim(),
+    ))];
+    for (i, (case, signals)) in cases.iter().enumerate() {
+        let share = shares.iter().find(|s| &s.case == case).map(|s| s.share);
+        let marker = if i == case_idx { "›" } else { " " };
+        let style = if i == case_idx {
+            look.selected()
+        } else {
+            Style::default()
+        };
+        lines.push(Line::from(vec![
+            Span::raw(format!("{marker} ")),
+            Span::styled(case.clone(), style),
+            Span::raw(share.map_or_else(String::new, |s| format!(" {:>3.0} %", 100.0 * s))),
+        ]));
+        if let Some(share) = share {
+            let width = (list_width as usize).saturating_sub(6);
+            let filled = ((share * width as f64).round() as usize).min(width);
+            lines.push(Line::from(format!(
+                "  {}{}",
+                "█".repeat(filled),
+                "·".repeat(width - filled)
+            )));
+        }
+        if i == case_idx {
+            let signal_idx = scene.screen.signal_idx.min(signals.len().saturating_sub(1));
+            for (j, signal) in signals.iter().enumerate() {
+                let (marker, style) = if j == signal_idx {
+                    ("»", look.selected())
+                } else {
+                    (" ", Style::default())
+                };
+                lines.push(Line::from(vec![
+                    Span::raw(format!("   {marker} ")),
+                    Span::styled(signal.clone(), style),
+                ]));
+            }
+        }
+    }
+    if cases.is_empty() {
+        lines.push(Line::from("no cases yet"));
+    }
+    frame.render_widget(
+        Paragraph::new(lines).block(Block::bordered().title(" Cases ")),
+        list_area,
+    );
+    let Some((case, signals)) = cases.get(case_idx) else {
+        frame.render_widget(Block::bordered().title(" Residuals "), charts_area);
+        return;
+    };
+    let signal = signals
+        .get(scene.screen.signal_idx.min(signals.len().saturating_sub(1)))
+        .cloned()
+        .unwrap_or_default();
+    let Some(curve) = scene.state.curve(case, &signal) else {
+        let text = if scene.state.is_over() {
+            format!("no curve file for {case} / {signal} in cases/ (this run did not write one)")
+        } else {
+            "the curves are written when the fit ends (cases/*.csv); the shares on the left are live"
+                .into()
+        };
+        frame.render_widget(
+            Paragraph::new(text)
+                .wrap(Wrap { trim: false })
+                .block(Block::bordered().title(format!(" {case} · {signal} "))),
+            charts_area,
+        );
+        return;
+    };
+    let [top, bottom] = Layout::vertical([Constraint::Percentage(62), Constraint::Percentage(38)])
+        .areas(charts_area);
+    // Curves are averaged into bins of half a cell (the chart's resolution in braille), so
+    // noise in the data does not fill the chart and the band reads as a band.
+    let n_bins = 2 * top.width.saturating_sub(8).max(10) as usize;
+    let (t_min, t_max) = span(curve.time_s.iter().copied());
+    let pairs = |ys: &[f64]| binned_means(&curve.time_s, ys, t_min, t_max, n_bins);
+    let measured = pairs(&curve.measured);
+    let model = pairs(&curve.model);
+    let band_upper: Vec<f64> = curve
+        .measured
+        .iter()
+        .zip(&curve.sigma)
+        .map(|(m, s)| m + s)
+        .collect();
+    let band_lower: Vec<f64> = curve
+        .measured
+        .iter()
+        .zip(&curve.sigma)
+        .map(|(m, s)| m - s)
+        .collect();
+    let upper = pairs(&band_upper);
+    let lower = pairs(&band_lower);
+    let (x_min, x_max) = span(measured.iter().map(|p| p.0));
+    // The range follows the measured and model curves; a wide band is clipped, not allowed to
+    // flatten the curves.
+    let (y_min, y_max) = span(measured.iter().chain(&model).map(|p| p.1));
+    let margin = 0.05 * (y_max - y_min);
+    let (y_min, y_max) = (y_min - margin, y_max + margin);
+    let mut datasets = Vec::new();
+    let has_band = !curve.sigma.is_empty();
+    if has_band {
+        for band in [&upper, &lower] {
+            datasets.push(
+                Dataset::default()
+                    .marker(Marker::Braille)
+                    .graph_type(GraphType::Line)
+                    .style(look.dim())
+                    .data(band),
+            );
+        }
+    }
+    datasets.push(
+        Dataset::default()
+            .marker(Marker::Dot)
+            .graph_type(GraphType::Scatter)
+            .style(look.accent())
+            .data(&measured),
+    );
+    datasets.push(
+        Dataset::default()
+            .marker(Marker::HalfBlock)
+            .graph_type(GraphType::Line)
+            .style(look.strong())
+            .data(&model),
+    );
+    let legend = format!(
+        " {case} · {signal}   • measured{}   ▀ model ",
+        if has_band { "   ⠤ ±σ band" } else { "" }
+    );
+    let x_axis = |title: &'static str| {
+        Axis::default()
+            .title(title)
+            .bounds([x_min, x_max])
+            .labels(vec![
+                Line::from(format!("{x_min:.0}")),
+                Line::from(format!("{x_max:.0} s")),
+            ])
+    };
+    let chart = Chart::new(datasets)
+        .block(Block::bordered().title(legend))
+        .legend_position(None)
+        .x_axis(x_axis(""))
+        .y_axis(Axis::default().bounds([y_min, y_max]).labels(vec![
+            Line::from(significant(y_min, 3)),
+            Line::from(significant(y_max, 3)),
+        ]));
+    frame.render_widget(chart, top);
+    let residuals: Vec<(f64, f64)> = curve
+        .time_s
+        .iter()
+        .zip(&curve.residual)
+        .filter(|(t, r)| t.is_finite() && r.is_finite())
+        .map(|(t, r)| (*t, *r))
+        .collect();
+    if residuals.is_empty() {
+        frame.render_widget(
+            Paragraph::new("this file has no residual column")
+                .block(Block::bordered().title(" residual ")),
+            bottom,
+        );
+        return;
+    }
+    let extent = residuals
+        .iter()
+        .map(|p| p.1.abs())
+        .fold(0.0_f64, f64::max)
+        .max(1e-9);
+    let zero = [(x_min, 0.0), (x_max, 0.0)];
+    let chart = Chart::new(vec![
+        Dataset::default()
+            .marker(Marker::Braille)
+            .graph_type(GraphType::Line)
+            .style(look.dim())
+            .data(&zero),
+        Dataset::default()
+            .marker(Marker::Dot)
+            .graph_type(GraphType::Scatter)
+            .style(look.accent())
+            .data(&residuals),
+    ])
+    .block(Block::bordered().title(" residual (model − measured)/σ   • residual   ⠤ zero "))
+    .legend_position(None)
+    .x_axis(x_axis("time"))
+    .y_axis(Axis::default().bounds([-extent, extent]).labels(vec![
+        Line::from(significant(-extent, 2)),
+        Line::from("0"),
+        Line::from(significant(extent, 2)),
+    ]));
+    frame.render_widget(chart, bottom);
+}
+
+fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let look = scene.look;
+    let Some(summary) = &scene.state.summary else {
+        let text = if scene.state.is_over() {
+            "this run has no summary.json (it ended before writing one)"
+        } else {
+            "the summary and the correlation matrix appear when the fit ends (summary.json)"
+        };
+        frame.render_widget(
+            Paragraph::new(text).block(Block::bordered().title(" Summary ")),
+            area,
+        );
+        return;
+    };
+    let mut lines = Vec::new();
+    if let Some(title) = &summary.title {
+        lines.push(Line::from(Span::styled(
+            title.clone(),
+            Style::default().add_modifier(Modifier::BOLD),
+        )));
+    }
+    lines.push(label_value(
+        "objective",
+        summary
+            .objective
+            .map_or_else(|| "-".into(), |v| significant(v, 6)),
+        look,
+    ));
+    if let Some(reason) = &summary.reason {
+        lines.push(label_value("ended", reason.clone(), look));
+    }
+    lines.push(label_value(
+        "evaluations",
+        format!(
+            "{} in {}",
+            summary
+                .evaluations
+                .map_or_else(|| "-".into(), |n| n.to_string()),
+            summary.elapsed_s.map_or_else(|| "-".into(), duration_text)
+        ),
+        look,
+    ));
+    // One line per case: its signals' parts of the objective.
+    let mut by_case: Vec<(String, Vec<String>)> = Vec::new();
+    for part in summary.parts.iter().flatten() {
+        let cost = format!(
+            "{} {}",
+            part.signal,
+            part.cost.map_or_else(|| "-".into(), |c| significant(c, 4))
+        );
+        match by_case.iter_mut().find(|(case, _)| *case == part.case) {
+            Some((_, costs)) => costs.push(cost),
+            None => by_case.push((part.case.clone(), vec![cost])),
+        }
+    }
+    for (case, costs) in by_case {
+        lines.push(Line::from(format!("  {case}: {}", costs.join(", "))));
+    }
+    // With room to spare, the parameters too (the Parameters view has them at any size).
+    if area.height >= 30 {
+        lines.push(Line::from(""));
+        for row in scene.state.parameter_rows() {
+            let interval = row.interval_95.map_or_else(
+                || "undetermined".into(),
+                |(a, b)| format!("{} … {}", significant(a, 4), significant(b, 4)),
+            );
+            lines.push(Line::from(format!(
+                "  {} = {} {}  (95 %: {interval})",
+                row.name,
+                row.value.map_or_else(|| "-".into(), |v| significant(v, 5)),
+                row.unit
+            )));
+        }
+        lines.push(Line::from(""));
+    }
+    if let Some(problem) = &summary.identifiability_problem {
+        lines.push(Line::from(Span::styled(
+            format!("intervals not computed: {problem}"),
+            look.warn(),
+        )));
+    }
+    for note in scene.state.notes() {
+        lines.push(Line::from(Span::styled(
+            format!("cannot show: {note}"),
+            look.warn(),
+        )));
+    }
+    lines.push(Line::from(Span::styled(
+        "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.",
+        look.dim(),
+    )));
+    let matrix = correlation_lines(scene);
+    let (text_area, matrix_area) = if area.width >= 150 {
+        let [a, b] = Layout::horizontal([Constraint::Percentage(45), Constraint::Percentage(55)])
+            .areas(area);
+        (a, b)
+    } else {
+        let needed = matrix.len() as u16 + 2;
+        let [a, b] = Layout::vertical([Constraint::Min(4), Constraint::Length(needed)]).areas(area);
+        (a, b)
+    };
+    frame.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title(" Summary ")),
+        text_area,
+    );
+    frame.render_widget(
+        Paragraph::new(matrix).block(Block::bordered().title(format!(
+            " Correlation: [±r] marks |r| ≥ {STRONG_CORRELATION} "
+        ))),
+        matrix_area,
+    );
+}
+
+/// The correlation matrix as text: parameters numbered, strong off-diagonal entries in
+/// brackets (and bold, and red when there is colour).
+fn correlation_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
+    let look = scene.look;
+    let Some(matrix) = scene.state.correlation() else {
+        let reason = match scene
+            .state
+            .summary
+            .as_ref()
+            .and_then(|s| s.identifiability_problem.clone())
+        {
+            Some(problem) => format!("no correlation matrix: {problem}"),
+            None => "no correlation matrix in summary.json".into(),
+        };
+        return vec![Line::from(reason)];
+    };
+    let names: Vec<String> = scene
+        .state
+        .parameter_rows()
+        .iter()
+        .map(|r| r.name.clone())
+        .collect();
+    let mut lines = Vec::new();
+    let mut header = vec![Span::raw("    ")];
+    for j in 0..matrix.len() {
+        header.push(Span::styled(format!("{:>8}", j + 1), look.dim()));
+    }
+    lines.push(Line::from(header));
+    for (i, row) in matrix.iter().enumerate() {
+        let mut spans = vec![Span::styled(format!("{:>3} ", i + 1), look.dim())];
+        for (j, r) in row.iter().enumerate() {
+            let span = match r {
+                Some(r) if i != j && r.abs() >= STRONG_CORRELATION => {
+                    Span::styled(format!(" [{r:+.2}]"), look.warn())
+                }
+                Some(r) => Span::raw(format!("  {r:+.2} ")),
+                None => Span::raw(format!("{:>8}", "-")),
+            };
+            spans.push(span);
+        }
+        spans.push(Span::raw(format!(
+            "  {}",
+            names.get(i).cloned().unwrap_or_default()
+        )));
+        lines.push(Line::from(spans));
+    }
+    lines
+}
+
+fn draw_help(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let lines: Vec<Line> = help_lines(scene.screen.mode)
+        .into_iter()
+        .map(Line::from)
+        .collect();
+    let width = (lines.iter().map(Line::width).max().unwrap_or(20) as u16 + 4).min(area.width);
+    let height = (lines.len() as u16 + 2).min(area.height);
+    let popup = Rect {
+        x: area.x + (area.width - width) / 2,
+        y: area.y + (area.height - height) / 2,
+        width,
+        height,
+    };
+    frame.render_widget(Clear, popup);
+    frame.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title(" Keys ")),
+        popup,
+    );
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::tui::input::Action;
+    use crate::tui::source::RunSource;
+    use ratatui::backend::TestBackend;
+    use ratatui::Terminal;
+
+    fn fixture(name: &str) -> ViewerState {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("tests/fixtures/tui")
+            .join(name);
+        let mut state = ViewerState::default();
+        RunSource::new(&root).refresh(&mut state);
+        state
+    }
+
+    fn render(
+        state: &ViewerState,
+        screen: &Screen,
+        look: Look,
+        width: u16,
+        height: u16,
+    ) -> Terminal<TestBackend> {
+        let mut terminal = Terminal::new(TestBackend::new(width, height)).unwrap();
+        let scene = Scene {
+            state,
+            screen,
+            look,
+            now: SystemTime::now(),
+        };
+        terminal.draw(|frame| draw(frame, &scene)).unwrap();
+        terminal
+    }
+
+    fn text(terminal: &Terminal<TestBackend>) -> String {
+        let buffer = terminal.backend().buffer();
+        let mut out = String::new();
+        for y in 0..buffer.area.height {
+            for x in 0..buffer.area.width {
+                out.push_str(buffer[(x, y)].symbol());
+            }
+            out.push('\n');
+        }
+        out
+    }
+
+    fn screen_on(view: View, mode: Mode) -> Screen {
+        let mut screen = Screen::new(mode);
+        screen.view = view;
+        screen
+    }
+
+    const COLOUR: Look = Look { is_colour: true };
+
+    #[test]
+    fn the_progress_view_shows_status_objective_rate_and_chart_at_80_by_24() {
+        let state = fixture("finished-run");
+        let screen = screen_on(View::Progress, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "[FINISHED]",
+            "(read-only) bench: Ridgeline facing",
+            "[1 Progress]",
+            "best objective  27.4798",
+            "evaluations     640",
+            "evaluations/s",
+            "Best objective against evaluations (log scale)",
+            "q quit",
+            "? help",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        // The chart draws the history with braille dots.
+        assert!(
+            shown
+                .chars()
+                .any(|c| ('\u{2801}'..='\u{28ff}').contains(&c)),
+            "{shown}"
+        );
+    }
+
+    #[test]
+    fn the_parameters_view_shows_bounds_position_and_interval() {
+        let state = fixture("finished-run");
+        let screen = screen_on(View::Parameters, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "component.virgin.conductivity_w_m_k (W/(m·K))",
+            "0.23154",
+            "95 %: 0.2288 … 0.2343",
+            "0.0800 [",
+            "] 0.500",
+            "●",
+            "final values, 95 % intervals",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+    }
+
+    #[test]
+    fn a_parameter_at_its_bound_is_flagged_in_words() {
+        let mut state = fixture("finished-run");
+        if let Some(parameters) = state.summary.as_mut().and_then(|s| s.parameters.as_mut()) {
+            parameters[0].value = Some(0.4999);
+        }
+        let screen = screen_on(View::Parameters, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, Look { is_colour: false }, 100, 30));
+        assert!(shown.contains("! at a bound"), "{shown}");
+    }
+
+    #[test]
+    fn the_residuals_view_follows_the_selected_case_and_signal() {
+        let state = fixture("finished-run");
+        let mut screen = screen_on(View::Residuals, Mode::ReadOnly);
+        screen.apply(Action::NextCase, &state.cases(), true);
+        screen.apply(Action::NextSignal, &state.cases(), true);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        for expected in [
+            "50 kW/m² · hrr",
+            "• measured",
+            "⠤ ±σ band",
+            "▀ model",
+            "› 50 kW/m²",
+            "» hrr",
+            "share of the objective",
+            "residual (model − measured)/σ",
+            "←→ case",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        // The 25 kW/m² case holds 16.1 of the 27.5 of the data parts: 59 %.
+        assert!(shown.contains("25 kW/m²  59 %"), "{shown}");
+    }
+
+    #[test]
+    fn the_summary_brackets_strong_correlations() {
+        let mut state = fixture("finished-run");
+        if let Some(matrix) = state.summary.as_mut().and_then(|s| s.correlation.as_mut()) {
+            matrix[0][5] = Some(0.97);
+            matrix[5][0] = Some(0.97);
+        }
+        let screen = screen_on(View::Summary, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, Look { is_colour: false }, 120, 30));
+        for expected in [
+            "objective       27.4798",
+            "25 kW/m²: mlr 15.18, hrr 0.9288",
+            "Correlation: [±r] marks |r| ≥ 0.95",
+            "[+0.97]",
+            "+1.00",
+            "exposure.flame_heat_flux_kw_m2",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        assert_eq!(shown.matches("[+0.97]").count(), 2, "{shown}");
+    }
+
+    #[test]
+    fn every_view_fits_a_large_terminal_and_survives_a_tiny_one() {
+        let state = fixture("finished-run");
+        for view in View::ALL {
+            let screen = screen_on(view, Mode::Attached);
+            let shown = text(&render(&state, &screen, COLOUR, 200, 60));
+            if view == View::Summary {
+                assert!(
+                    shown.contains(
+                        "reaction.0.peak_temperature_k = 619.44 K  (95 %: 617.6 … 621.3)"
+                    ),
+                    "{shown}"
+                );
+            }
+            assert!(
+                shown.contains(&format!(
+                    "[{}",
+                    View::ALL.iter().position(|v| *v == view).unwrap() + 1
+                )),
+                "{shown}"
+            );
+            assert!(shown.contains("q exit"), "{shown}");
+            render(&state, &screen, COLOUR, 20, 5);
+        }
+    }
+
+    #[test]
+    fn no_color_draws_without_any_colour() {
+        let state = fixture("finished-run");
+        for view in View::ALL {
+            let mut screen = screen_on(view, Mode::ReadOnly);
+            screen.message = Some("a message".into());
+            let terminal = render(&state, &screen, Look { is_colour: false }, 100, 30);
+            let buffer = terminal.backend().buffer();
+            assert!(
+                buffer
+                    .content
+                    .iter()
+                    .all(|cell| cell.fg == Color::Reset && cell.bg == Color::Reset),
+                "{view:?} uses colour"
+            );
+        }
+    }
+
+    #[test]
+    fn the_help_overlay_says_a_watch_is_read_only() {
+        let state = fixture("finished-run");
+        let mut screen = Screen::new(Mode::ReadOnly);
+        screen.apply(Action::ToggleHelp, &state.cases(), true);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        assert!(
+            shown.contains("Keys") && shown.contains("This viewer is read-only"),
+            "{shown}"
+        );
+    }
+
+    #[test]
+    fn an_older_run_shows_what_it_can_and_says_what_it_cannot() {
+        let state = fixture("older-run");
+        let screen = screen_on(View::Progress, Mode::ReadOnly);
+        let shown = text(&render(&state, &screen, COLOUR, 100, 40));
+        for expected in [
+            "[FINISHED]",
+            "invented older run",
+            "status          FINISHED (iteration 2)",
+            "best objective  6.25000",
+            "evaluations     -",
+            "against iterations",
+            "cannot show: an older run (progress format 0)",
+            "skipped 1 `probe_reading` lines",
+            "`iteration` lines have no evaluations, parts",
+            "summary.json has no parameters, correlation, parts",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        let parameters = text(&render(
+            &state,
+            &screen_on(View::Parameters, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(
+            parameters.contains("component.virgin.conductivity_w_m_k"),
+            "{parameters}"
+        );
+        assert!(parameters.contains("0.26000"), "{parameters}");
+        let residuals = text(&render(
+            &state,
+            &screen_on(View::Residuals, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(residuals.contains("no cases yet"), "{residuals}");
+        let summary = text(&render(
+            &state,
+            &screen_on(View::Summary, Mode::ReadOnly),
+            COLOUR,
+            120,
+            30,
+        ));
+        assert!(
+            summary.contains("no correlation matrix in summary.json"),
+            "{summary}"
+        );
+    }
+
+    #[test]
+    fn a_live_run_says_the_curves_come_at_the_end() {
+        let mut state = ViewerState::default();
+        for line in std::fs::read_to_string(
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("tests/fixtures/tui/finished-run/progress.jsonl"),
+        )
+        .unwrap()
+        .lines()
+        .take(10)
+        {
+            state.apply_line(line);
+        }
+        let screen = screen_on(View::Residuals, Mode::Attached);
+        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
+        assert!(shown.contains("[RUNNING]"), "{shown}");
+        assert!(
+            shown.contains("the curves are written when the fit ends"),
+            "{shown}"
+        );
+        assert!(
+            shown.contains("s stop fit") && shown.contains("q stop+exit"),
+            "{shown}"
+        );
+        let summary = text(&render(
+            &state,
+            &screen_on(View::Summary, Mode::Attached),
+            COLOUR,
+            80,
+            24,
+        ));
+        assert!(summary.contains("appear when the fit ends"), "{summary}");
+    }
+
+    #[test]
+    fn the_bound_bar_places_value_and_interval() {
+        let row = ParameterRow {
+            name: "x".into(),
+            unit: String::new(),
+            value: Some(5.0),
+            lower: 0.0,
+            upper: 10.0,
+            log_scale: false,
+            interval_95: Some((4.0, 6.0)),
+            warnings: Vec::new(),
+            is_at_bound: false,
+            is_strongly_correlated: false,
+            is_poorly_determined: false,
+        };
+        assert_eq!(bound_bar(&row, 11), "[────═●═────]");
+    }
+
+    #[test]
+    fn durations_read_as_words() {
+        assert_eq!(duration_text(4.25), "4.2 s");
+        assert_eq!(duration_text(125.0), "2 min 05 s");
+        assert_eq!(duration_text(3.0 * 3600.0 + 420.0), "3 h 07 min");
+    }
+}

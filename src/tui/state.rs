@@ -1,0 +1,1016 @@
+//! What a viewer knows about a run, built only from the run directory's contents: the lines
+//! of `progress.jsonl`, the text of `summary.json`, the `cases/*.csv` files and the times the
+//! files were last written. No terminal, no clock (the caller passes `now`), no file access.
+//!
+//! Everything is read leniently: a line or field this version does not know is counted and
+//! named in [`ViewerState::notes`] instead of stopping the viewer, and a file that does not
+//! parse leaves the last good reading in place.
+
+use std::collections::BTreeMap;
+use std::time::{Duration, SystemTime};
+
+use serde::Deserialize;
+use serde_json::Value;
+
+use crate::run::progress::{ParameterInfo, PartInfo, ProgressEvent, FORMAT_VERSION};
+
+/// |r| at or above which two parameters count as strongly correlated; the threshold the fit's
+/// identifiability analysis warns at (a unit test checks the two agree).
+pub const STRONG_CORRELATION: f64 = 0.95;
+
+/// A run with no new progress line for this long (and not paused or ended) is called stale,
+/// unless its own iterations are slower (see [`ViewerState::stale_after`]).
+pub const MIN_STALE_AFTER: Duration = Duration::from_secs(60);
+
+/// The state of the fit as the run directory shows it.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Status {
+    /// No progress line yet.
+    Waiting,
+    Running,
+    Paused,
+    /// A stop was requested from this viewer; the fit finishes its iteration and writes outputs.
+    Stopping,
+    Finished,
+    Failed,
+    /// No progress for a while although the run has not ended (its process may be gone).
+    Stale,
+}
+
+impl Status {
+    pub fn label(self) -> &'static str {
+        match self {
+            Status::Waiting => "WAITING",
+            Status::Running => "RUNNING",
+            Status::Paused => "PAUSED",
+            Status::Stopping => "STOPPING",
+            Status::Finished => "FINISHED",
+            Status::Failed => "FAILED",
+            Status::Stale => "STALE",
+        }
+    }
+}
+
+/// What the `started` line says about the run.
+#[derive(Debug, Clone, PartialEq)]
+pub struct RunInfo {
+    pub title: String,
+    pub format_version: u32,
+    pub seed: u64,
+    pub threads: usize,
+    pub parameters: Vec<ParameterInfo>,
+    /// Case name and its signals.
+    pub cases: Vec<(String, Vec<String>)>,
+    pub max_evaluations: u64,
+    pub time_budget_s: Option<f64>,
+    pub resumed_from: Option<u64>,
+}
+
+/// The latest `iteration` line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct LatestIteration {
+    pub iter: u64,
+    pub phase: String,
+    pub evaluations: u64,
+    pub elapsed_s: f64,
+    pub best_cost: f64,
+    pub parts: Vec<PartInfo>,
+    pub best_params: Vec<f64>,
+}
+
+/// The `finished` line.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Ending {
+    pub reason: String,
+    pub best_cost: f64,
+    pub evaluations: u64,
+    pub elapsed_s: f64,
+}
+
+/// One point of the best-objective history.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct HistoryPoint {
+    pub iter: u64,
+    pub evaluations: u64,
+    pub elapsed_s: f64,
+    pub best_cost: f64,
+}
+
+/// `summary.json` read leniently: every field may be missing (an older or newer run).
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct SummaryView {
+    pub title: Option<String>,
+    pub reason: Option<String>,
+    pub objective: Option<f64>,
+    pub parts: Option<Vec<SummaryPart>>,
+    pub prior_cost: Option<f64>,
+    pub evaluations: Option<u64>,
+    pub elapsed_s: Option<f64>,
+    pub parameters: Option<Vec<SummaryParameterView>>,
+    /// Entries are `None` where the file has `null` (a NaN).
+    pub correlation: Option<Vec<Vec<Option<f64>>>>,
+    pub n_residuals: Option<usize>,
+    pub identifiability_problem: Option<String>,
+}
+
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct SummaryPart {
+    pub case: String,
+    pub signal: String,
+    pub cost: Option<f64>,
+}
+
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct SummaryParameterView {
+    pub name: String,
+    pub unit: String,
+    pub value: Option<f64>,
+    pub lower_bound: Option<f64>,
+    pub upper_bound: Option<f64>,
+    pub log_scale: Option<bool>,
+    pub lower_95: Option<f64>,
+    pub upper_95: Option<f64>,
+    pub sensitivity_rank: Option<usize>,
+    pub warnings: Option<Vec<String>>,
+}
+
+/// One `cases/<case>--<signal>.csv`: measured and model at the data times.
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct CaseCurve {
+    pub time_s: Vec<f64>,
+    pub measured: Vec<f64>,
+    /// The σ of each point (the spread of the repeats, or the job's noise level); empty when
+    /// the file has no `sigma` column.
+    pub sigma: Vec<f64>,
+    pub model: Vec<f64>,
+    /// Standardised residual (model − measured)/σ; empty when the file has no such column.
+    pub residual: Vec<f64>,
+}
+
+/// A parameter as the Parameters view shows it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ParameterRow {
+    pub name: String,
+    pub unit: String,
+    pub value: Option<f64>,
+    pub lower: f64,
+    pub upper: f64,
+    pub log_scale: bool,
+    pub interval_95: Option<(f64, f64)>,
+    pub warnings: Vec<String>,
+    pub is_at_bound: bool,
+    pub is_strongly_correlated: bool,
+    pub is_poorly_determined: bool,
+}
+
+/// A case's share of the objective.
+#[derive(Debug, Clone, PartialEq)]
+pub struct CaseShare {
+    pub case: String,
+    pub cost: f64,
+    /// Fraction of the summed data parts, 0..1.
+    pub share: f64,
+}
+
+/// Everything a viewer shows, folded from the run directory.
+#[derive(Debug, Clone, Default)]
+pub struct ViewerState {
+    pub info: Option<RunInfo>,
+    pub history: Vec<HistoryPoint>,
+    pub latest: Option<LatestIteration>,
+    pub is_paused: bool,
+    pub n_failures: u64,
+    pub last_failure: Option<String>,
+    /// Iteration, evaluations and elapsed seconds of the last `checkpoint` line.
+    pub last_checkpoint: Option<(u64, u64, f64)>,
+    pub finished: Option<Ending>,
+    pub failed: Option<String>,
+    pub summary: Option<SummaryView>,
+    /// Curves by file stem (`<case slug>--<signal>`).
+    pub curves: BTreeMap<String, CaseCurve>,
+    pub progress_modified: Option<SystemTime>,
+    pub checkpoint_modified: Option<SystemTime>,
+    /// What could not be read, by kind, with a count: shown so a user knows what is missing.
+    unreadable_lines: BTreeMap<String, u64>,
+    /// Files that could not be read the last time they changed, with the problem.
+    pub file_problems: BTreeMap<String, String>,
+    /// Fields missing from lines or files (older formats), e.g. "`iteration` lines: parts".
+    missing_fields: BTreeMap<String, Vec<String>>,
+}
+
+impl ViewerState {
+    /// Forgets everything read from `progress.jsonl` (it was rewritten, e.g. on resume).
+    pub fn restart_progress(&mut self) {
+        let summary = self.summary.take();
+        let curves = std::mem::take(&mut self.curves);
+        let file_problems = std::mem::take(&mut self.file_problems);
+        *self = ViewerState {
+            summary,
+            curves,
+            file_problems,
+            ..ViewerState::default()
+        };
+    }
+
+    /// Folds one complete line of `progress.jsonl` into the state.
+    pub fn apply_line(&mut self, line: &str) {
+        if let Ok(event) = serde_json::from_str::<ProgressEvent>(line) {
+            self.apply(&event);
+            return;
+        }
+        let Ok(value) = serde_json::from_str::<Value>(line) else {
+            self.count_unreadable("lines that are not JSON");
+            return;
+        };
+        let kind = value.get("event").and_then(Value::as_str).unwrap_or("");
+        match self.lenient_event(kind, &value) {
+            Some(event) => self.apply(&event),
+            None if kind.is_empty() => self.count_unreadable("lines without an event name"),
+            None => self.count_unreadable(&format!("`{kind}` lines (unknown to this version)")),
+        }
+    }
+
+    fn count_unreadable(&mut self, kind: &str) {
+        *self.unreadable_lines.entry(kind.to_string()).or_default() += 1;
+    }
+
+    fn note_missing(&mut self, what: &str, fields: Vec<&str>) {
+        if fields.is_empty() {
+            return;
+        }
+        let entry = self.missing_fields.entry(what.to_string()).or_default();
+        for field in fields {
+            if !entry.iter().any(|f| f == field) {
+                entry.push(field.to_string());
+            }
+        }
+    }
+
+    /// A known event from a line whose layout differs from this version's (older or newer):
+    /// missing fields take neutral values and are noted.
+    fn lenient_event(&mut self, kind: &str, value: &Value) -> Option<ProgressEvent> {
+        let mut missing = Vec::new();
+        let mut number = |key: &'static str| match value.get(key).and_then(Value::as_f64) {
+            Some(v) => v,
+            None => {
+                missing.push(key);
+                f64::NAN
+            }
+        };
+        let event = match kind {
+            "started" => {
+                let parameters = value
+                    .get("parameters")
+                    .and_then(Value::as_array)
+                    .map(|list| list.iter().map(lenient_parameter).collect())
+                    .unwrap_or_default();
+                let cases = value
+                    .get("cases")
+                    .and_then(|c| serde_json::from_value(c.clone()).ok())
+                    .unwrap_or_default();
+                let event = ProgressEvent::Started {
+                    format_version: value
+                        .get("format_version")
+                        .and_then(Value::as_u64)
+                        .unwrap_or(0) as u32,
+                    title: text(value, "title").unwrap_or_else(|| "(untitled run)".into()),
+                    seed: value.get("seed").and_then(Value::as_u64).unwrap_or(0),
+                    threads: value.get("threads").and_then(Value::as_u64).unwrap_or(0) as usize,
+                    parameters,
+                    cases,
+                    max_evaluations: value
+                        .get("max_evaluations")
+                        .and_then(Value::as_u64)
+                        .unwrap_or(0),
+                    time_budget_s: value.get("time_budget_s").and_then(Value::as_f64),
+                    resumed_from: value.get("resumed_from").and_then(Value::as_u64),
+                };
+                for key in ["parameters", "cases", "max_evaluations"] {
+                    if value.get(key).is_none() {
+                        missing.push(key);
+                    }
+                }
+                event
+            }
+            "iteration" => {
+                let event = ProgressEvent::Iteration {
+                    iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
+                    phase: text(value, "phase").unwrap_or_default(),
+                    evaluations: value
+                        .get("evaluations")
+                        .and_then(Value::as_u64)
+                        .unwrap_or(0),
+                    elapsed_s: number("elapsed_s"),
+                    best_cost: number("best_cost"),
+                    parts: value
+                        .get("parts")
+                        .and_then(|p| serde_json::from_value(p.clone()).ok())
+                        .unwrap_or_default(),
+                    best_params: value
+                        .get("best_params")
+                        .and_then(|p| serde_json::from_value(p.clone()).ok())
+                        .unwrap_or_default(),
+                };
+                for key in ["evaluations", "parts", "best_params"] {
+                    if value.get(key).is_none() {
+                        missing.push(key);
+                    }
+                }
+                event
+            }
+            "checkpoint" => ProgressEvent::Checkpoint {
+                iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
+                evaluations: value
+                    .get("evaluations")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(0),
+                elapsed_s: number("elapsed_s"),
+            },
+            "finished" => ProgressEvent::Finished {
+                reason: text(value, "reason").unwrap_or_else(|| "finished".into()),
+                best_cost: number("best_cost"),
+                evaluations: value
+                    .get("evaluations")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(0),
+                elapsed_s: number("elapsed_s"),
+            },
+            "failed" => ProgressEvent::Failed {
+                message: text(value, "message").unwrap_or_else(|| "(no message)".into()),
+            },
+            "failure" => ProgressEvent::Failure {
+                evaluations: 0,
+                message: text(value, "message").unwrap_or_default(),
+            },
+            "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
+            "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
+            _ => return None,
+        };
+        self.note_missing(&format!("`{kind}` lines"), missing);
+        Some(event)
+    }
+
+    /// Folds one event into the state.
+    pub fn apply(&mut self, event: &ProgressEvent) {
+        match event {
+            ProgressEvent::Started {
+                format_version,
+                title,
+                seed,
+                threads,
+                parameters,
+                cases,
+                max_evaluations,
+                time_budget_s,
+                resumed_from,
+            } => {
+                self.info = Some(RunInfo {
+                    title: title.clone(),
+                    format_version: *format_version,
+                    seed: *seed,
+                    threads: *threads,
+                    parameters: parameters.clone(),
+                    cases: cases.clone(),
+                    max_evaluations: *max_evaluations,
+                    time_budget_s: *time_budget_s,
+                    resumed_from: *resumed_from,
+                });
+                self.finished = None;
+                self.failed = None;
+                self.is_paused = false;
+            }
+            ProgressEvent::Iteration {
+                iter,
+                phase,
+                evaluations,
+                elapsed_s,
+                best_cost,
+                parts,
+                best_params,
+            } => {
+                self.history.push(HistoryPoint {
+                    iter: *iter,
+                    evaluations: *evaluations,
+                    elapsed_s: *elapsed_s,
+                    best_cost: *best_cost,
+                });
+                self.latest = Some(LatestIteration {
+                    iter: *iter,
+                    phase: phase.clone(),
+                    evaluations: *evaluations,
+                    elapsed_s: *elapsed_s,
+                    best_cost: *best_cost,
+                    parts: parts.clone(),
+                    best_params: best_params.clone(),
+                });
+            }
+            ProgressEvent::Failure { message, .. } => {
+                self.n_failures += 1;
+                self.last_failure = Some(message.clone());
+            }
+            ProgressEvent::Checkpoint {
+                iter,
+                evaluations,
+                elapsed_s,
+            } => self.last_checkpoint = Some((*iter, *evaluations, *elapsed_s)),
+            ProgressEvent::Paused { .. } => self.is_paused = true,
+            ProgressEvent::Resumed { .. } => self.is_paused = false,
+            ProgressEvent::Finished {
+                reason,
+                best_cost,
+                evaluations,
+                elapsed_s,
+            } => {
+                self.is_paused = false;
+                self.finished = Some(Ending {
+                    reason: reason.clone(),
+                    best_cost: *best_cost,
+                    evaluations: *evaluations,
+                    elapsed_s: *elapsed_s,
+                });
+            }
+            ProgressEvent::Failed { message } => {
+                self.is_paused = false;
+                self.failed = Some(message.clone());
+            }
+        }
+    }
+
+    /// Reads `summary.json`. A file that does not parse (half-written by a process that does
+    /// not write atomically, or damaged) keeps the last good reading and is noted.
+    pub fn set_summary_text(&mut self, text: &str) {
+        match serde_json::from_str::<SummaryView>(text) {
+            Ok(summary) => {
+                self.file_problems.remove("summary.json");
+                let mut missing = Vec::new();
+                if summary.parameters.is_none() {
+                    missing.push("parameters");
+                }
+                if summary.correlation.is_none() {
+                    missing.push("correlation");
+                }
+                if summary.parts.is_none() {
+                    missing.push("parts");
+                }
+                if summary.objective.is_none() {
+                    missing.push("objective");
+                }
+                self.missing_fields.remove("summary.json");
+                self.note_missing("summary.json", missing);
+                self.summary = Some(summary);
+            }
+            Err(err) => {
+                self.file_problems
+                    .insert("summary.json".into(), format!("does not parse ({err})"));
+            }
+        }
+    }
+
+    /// Reads one `cases/<stem>.csv`; a file without `time_s` and `measured` columns is noted
+    /// and the last good reading kept.
+    pub fn set_case_curve_text(&mut self, stem: &str, text: &str) {
+        let key = format!("cases/{stem}.csv");
+        match parse_case_curve(text) {
+            Ok((curve, missing)) => {
+                self.file_problems.remove(&key);
+                self.missing_fields.remove(&key);
+                self.note_missing(&key, missing);
+                self.curves.insert(stem.to_string(), curve);
+            }
+            Err(problem) => {
+                self.file_problems.insert(key, problem);
+            }
+        }
+    }
+
+    /// The cases and their signals: from the `started` line, else from the summary, else from
+    /// the curve files.
+    pub fn cases(&self) -> Vec<(String, Vec<String>)> {
+        if let Some(info) = self.info.as_ref().filter(|i| !i.cases.is_empty()) {
+            return info.cases.clone();
+        }
+        let mut pairs: Vec<(String, String)> = Vec::new();
+        if let Some(parts) = self.summary.as_ref().and_then(|s| s.parts.as_ref()) {
+            pairs.extend(parts.iter().map(|p| (p.case.clone(), p.signal.clone())));
+        }
+        if pairs.is_empty() {
+            pairs.extend(self.curves.keys().filter_map(|stem| {
+                stem.rsplit_once("--")
+                    .map(|(c, s)| (c.to_string(), s.to_string()))
+            }));
+        }
+        let mut cases: Vec<(String, Vec<String>)> = Vec::new();
+        for (case, signal) in pairs {
+            match cases.iter_mut().find(|(c, _)| *c == case) {
+                Some((_, signals)) => {
+                    if !signals.contains(&signal) {
+                        signals.push(signal);
+                    }
+                }
+                None => cases.push((case, vec![signal])),
+            }
+        }
+        cases
+    }
+
+    /// The curve of a case and signal, if its file has been read.
+    pub fn curve(&self, case: &str, signal: &str) -> Option<&CaseCurve> {
+        self.curves
+            .get(&curve_stem(case, signal))
+            .or_else(|| self.curves.get(&format!("{case}--{signal}")))
+    }
+
+    /// Elapsed fitting time, s.
+    pub fn elapsed_s(&self) -> Option<f64> {
+        self.finished
+            .as_ref()
+            .map(|f| f.elapsed_s)
+            .or(self.latest.as_ref().map(|l| l.elapsed_s))
+            .filter(|v| v.is_finite())
+    }
+
+    /// Whether the iteration lines carry evaluation counts (an older format may not).
+    pub fn has_evaluation_counts(&self) -> bool {
+        !self
+            .missing_fields
+            .get("`iteration` lines")
+            .is_some_and(|fields| fields.iter().any(|f| f == "evaluations"))
+    }
+
+    pub fn evaluations(&self) -> Option<u64> {
+        if !self.has_evaluation_counts() {
+            return None;
+        }
+        self.finished
+            .as_ref()
+            .map(|f| f.evaluations)
+            .or(self.latest.as_ref().map(|l| l.evaluations))
+    }
+
+    pub fn best_cost(&self) -> Option<f64> {
+        self.finished
+            .as_ref()
+            .map(|f| f.best_cost)
+            .or(self.latest.as_ref().map(|l| l.best_cost))
+            .filter(|v| v.is_finite())
+    }
+
+    /// Evaluations per second over the last (up to) ten iterations.
+    pub fn evaluations_per_s(&self) -> Option<f64> {
+        if !self.has_evaluation_counts() {
+            return None;
+        }
+        let last = self.history.last()?;
+        let first = self.history[self.history.len().saturating_sub(11)];
+        let dt = last.elapsed_s - first.elapsed_s;
+        (dt > 0.0).then(|| (last.evaluations.saturating_sub(first.evaluations)) as f64 / dt)
+    }
+
+    /// How long without a progress line makes this run stale: a minute, or five times its
+    /// slowest iteration so far when that is longer.
+    pub fn stale_after(&self) -> Duration {
+        let slowest_s = self
+            .history
+            .windows(2)
+            .map(|w| w[1].elapsed_s - w[0].elapsed_s)
+            .filter(|d| d.is_finite())
+            .fold(0.0_f64, f64::max);
+        MIN_STALE_AFTER.max(Duration::from_secs_f64((5.0 * slowest_s).clamp(0.0, 1e6)))
+    }
+
+    /// The status at `now`. `is_stop_requested` is true when this viewer asked the fit to stop.
+    pub fn status(&self, now: SystemTime, is_stop_requested: bool) -> Status {
+        if self.failed.is_some() {
+            return Status::Failed;
+        }
+        if self.finished.is_some() {
+            return Status::Finished;
+        }
+        if is_stop_requested {
+            return Status::Stopping;
+        }
+        if self.info.is_none() && self.latest.is_none() {
+            return Status::Waiting;
+        }
+        if self.is_paused {
+            return Status::Paused;
+        }
+        match self.since_progress(now) {
+            Some(quiet) if quiet > self.stale_after() => Status::Stale,
+            _ => Status::Running,
+        }
+    }
+
+    /// Time since the last progress line was written.
+    pub fn since_progress(&self, now: SystemTime) -> Option<Duration> {
+        self.progress_modified
+            .map(|t| now.duration_since(t).unwrap_or_default())
+    }
+
+    /// Time since the checkpoint was last written.
+    pub fn since_checkpoint(&self, now: SystemTime) -> Option<Duration> {
+        self.checkpoint_modified
+            .map(|t| now.duration_since(t).unwrap_or_default())
+    }
+
+    /// Whether the run has ended (finished or failed).
+    pub fn is_over(&self) -> bool {
+        self.finished.is_some() || self.failed.is_some()
+    }
+
+    /// The parameters with their best values, and once the summary is there their intervals
+    /// and warnings.
+    pub fn parameter_rows(&self) -> Vec<ParameterRow> {
+        let correlation = self.correlation();
+        if let Some(parameters) = self.summary.as_ref().and_then(|s| s.parameters.as_ref()) {
+            return parameters
+                .iter()
+                .enumerate()
+                .map(|(i, p)| {
+                    let lower = p.lower_bound.unwrap_or(f64::NAN);
+                    let upper = p.upper_bound.unwrap_or(f64::NAN);
+                    let log_scale = p.log_scale.unwrap_or(false);
+                    let interval_95 = p.lower_95.zip(p.upper_95);
+                    ParameterRow {
+                        name: p.name.clone(),
+                        unit: p.unit.clone(),
+                        value: p.value,
+                        lower,
+                        upper,
+                        log_scale,
+                        interval_95,
+                        warnings: p.warnings.clone().unwrap_or_default(),
+                        is_at_bound: p
+                            .value
+                            .is_some_and(|v| is_at_bound(v, lower, upper, log_scale)),
+                        is_strongly_correlated: correlation.as_ref().is_some_and(|c| {
+                            c.get(i).is_some_and(|row| {
+                                row.iter().enumerate().any(|(j, r)| {
+                                    j != i && r.is_some_and(|r| r.abs() >= STRONG_CORRELATION)
+                                })
+                            })
+                        }),
+                        is_poorly_determined: match interval_95 {
+                            Some((a, b)) => a <= lower && b >= upper,
+                            None => true,
+                        },
+                    }
+                })
+                .collect();
+        }
+        let Some(info) = &self.info else {
+            return Vec::new();
+        };
+        let values = self.latest.as_ref().map(|l| &l.best_params);
+        info.parameters
+            .iter()
+            .enumerate()
+            .map(|(i, p)| {
+                let value = values.and_then(|v| v.get(i).copied());
+                ParameterRow {
+                    name: p.name.clone(),
+                    unit: p.unit.clone(),
+                    value,
+                    lower: p.lower,
+                    upper: p.upper,
+                    log_scale: p.log_scale,
+                    interval_95: None,
+                    warnings: Vec::new(),
+                    is_at_bound: value
+                        .is_some_and(|v| is_at_bound(v, p.lower, p.upper, p.log_scale)),
+                    is_strongly_correlated: false,
+                    is_poorly_determined: false,
+                }
+            })
+            .collect()
+    }
+
+    /// The correlation matrix of the summary, if it has one.
+    pub fn correlation(&self) -> Option<Vec<Vec<Option<f64>>>> {
+        self.summary
+            .as_ref()
+            .and_then(|s| s.correlation.clone())
+            .filter(|c| !c.is_empty())
+    }
+
+    /// Each case's share of the data parts of the objective: final when the summary is there,
+    /// else from the latest iteration.
+    pub fn case_shares(&self) -> Vec<CaseShare> {
+        let parts: Vec<(String, f64)> = match self.summary.as_ref().and_then(|s| s.parts.as_ref()) {
+            Some(parts) => parts
+                .iter()
+                .map(|p| (p.case.clone(), p.cost.unwrap_or(f64::NAN)))
+                .collect(),
+            None => self
+                .latest
+                .as_ref()
+                .map(|l| l.parts.iter().map(|p| (p.case.clone(), p.cost)).collect())
+                .unwrap_or_default(),
+        };
+        let mut shares: Vec<CaseShare> = Vec::new();
+        for (case, cost) in parts.into_iter().filter(|(_, c)| c.is_finite()) {
+            match shares.iter_mut().find(|s| s.case == case) {
+                Some(share) => share.cost += cost,
+                None => shares.push(CaseShare {
+                    case,
+                    cost,
+                    share: 0.0,
+                }),
+            }
+        }
+        let total: f64 = shares.iter().map(|s| s.cost).sum();
+        for share in &mut shares {
+            share.share = if total > 0.0 { share.cost / total } else { 0.0 };
+        }
+        shares
+    }
+
+    /// Sentences saying what this viewer could not read or show.
+    pub fn notes(&self) -> Vec<String> {
+        let mut notes = Vec::new();
+        if let Some(info) = &self.info {
+            if info.format_version > FORMAT_VERSION {
+                notes.push(format!(
+                    "written by a newer emberfit (progress format {}, this viewer reads {FORMAT_VERSION}): some things may not show",
+                    info.format_version
+                ));
+            } else if info.format_version < FORMAT_VERSION {
+                notes.push(format!(
+                    "an older run (progress format {}): some things may not show",
+                    info.format_version
+                ));
+            }
+        }
+        for (kind, n) in &self.unreadable_lines {
+            notes.push(format!("skipped {n} {kind}"));
+        }
+        for (what, fields) in &self.missing_fields {
+            notes.push(
+                format!("{what} have no {}: not shown", fields.join(", "))
+                    .replace("summary.json have", "summary.json has"),
+            );
+        }
+        for (file, problem) in &self.file_problems {
+            notes.push(format!("{file} {problem}; showing the last good reading"));
+        }
+        notes
+    }
+}
+
+/// Where a value sits between its bounds, 0..1 (on the log of the value for a log-scale
+/// parameter); `None` when the bounds are unusable.
+pub fn position_between(value: f64, lower: f64, upper: f64, log_scale: bool) -> Option<f64> {
+    let (v, a, b) = if log_scale {
+        if value <= 0.0 || lower <= 0.0 || upper <= 0.0 {
+            return None;
+        }
+        (value.log10(), lower.log10(), upper.log10())
+    } else {
+        (value, lower, upper)
+    };
+    let range = b - a;
+    (range.is_finite() && range > 0.0 && v.is_finite()).then(|| ((v - a) / range).clamp(0.0, 1.0))
+}
+
+/// Within 1 % of the range from a bound (the rule of the fit's identifiability analysis).
+fn is_at_bound(value: f64, lower: f64, upper: f64, log_scale: bool) -> bool {
+    position_between(value, lower, upper, log_scale).is_some_and(|p| !(0.01..=0.99).contains(&p))
+}
+
+/// The file stem of a case's curve: `run` names the files by the slug of the case name.
+pub fn curve_stem(case: &str, signal: &str) -> String {
+    format!("{}--{signal}", crate::run::slug(case))
+}
+
+fn text(value: &Value, key: &str) -> Option<String> {
+    value.get(key).and_then(Value::as_str).map(str::to_string)
+}
+
+fn lenient_parameter(value: &Value) -> ParameterInfo {
+    ParameterInfo {
+        name: text(value, "name").unwrap_or_else(|| "?".into()),
+        unit: text(value, "unit").unwrap_or_default(),
+        lower: value
+            .get("lower")
+            .and_then(Value::as_f64)
+            .unwrap_or(f64::NAN),
+        upper: value
+            .get("upper")
+            .and_then(Value::as_f64)
+            .unwrap_or(f64::NAN),
+        log_scale: value
+            .get("log_scale")
+            .and_then(Value::as_bool)
+            .unwrap_or(false),
+    }
+}
+
+/// Reads a case CSV by column name; returns the curve and the optional columns it lacks.
+fn parse_case_curve(text: &str) -> Result<(CaseCurve, Vec<&'static str>), String> {
+    let mut reader = csv::ReaderBuilder::new()
+        .flexible(true)
+        .from_reader(text.as_bytes());
+    let headers = reader
+        .headers()
+        .map_err(|e| format!("has no header row ({e})"))?
+        .clone();
+    let column = |name: &str| headers.iter().position(|h| h.trim() == name);
+    let (Some(time_col), Some(measured_col)) = (column("time_s"), column("measured")) else {
+        return Err("has no `time_s` and `measured` columns".into());
+    };
+    let optional = [
+        ("sigma", column("sigma")),
+        ("model", column("model")),
+        ("residual", column("residual")),
+    ];
+    let missing = optional
+        .iter()
+        .filter(|(_, c)| c.is_none())
+        .map(|(n, _)| *n)
+        .collect();
+    let mut curve = CaseCurve::default();
+    for record in reader.records() {
+        // A damaged row is skipped; the rest of the file is still worth showing.
+        let Ok(record) = record else { continue };
+        let cell = |col: usize| {
+            record
+                .get(col)
+                .and_then(|c| c.trim().parse::<f64>().ok())
+                .unwrap_or(f64::NAN)
+        };
+        curve.time_s.push(cell(time_col));
+        curve.measured.push(cell(measured_col));
+        for (name, col) in &optional {
+            if let Some(col) = col {
+                let target = match *name {
+                    "sigma" => &mut curve.sigma,
+                    "model" => &mut curve.model,
+                    _ => &mut curve.residual,
+                };
+                target.push(cell(*col));
+            }
+        }
+    }
+    Ok((curve, missing))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn iteration(evaluations: u64, elapsed_s: f64, best_cost: f64) -> ProgressEvent {
+        ProgressEvent::Iteration {
+            iter: evaluations / 10,
+            phase: "global".into(),
+            evaluations,
+            elapsed_s,
+            best_cost,
+            parts: vec![
+                PartInfo {
+                    case: "a".into(),
+                    signal: "mlr".into(),
+                    cost: 3.0 * best_cost / 4.0,
+                },
+                PartInfo {
+                    case: "b".into(),
+                    signal: "hrr".into(),
+                    cost: best_cost / 4.0,
+                },
+            ],
+            best_params: vec![0.2],
+        }
+    }
+
+    #[test]
+    fn the_threshold_agrees_with_the_fits_warning() {
+        assert_eq!(
+            STRONG_CORRELATION,
+            crate::fit::identifiability::STRONG_CORRELATION
+        );
+    }
+
+    #[test]
+    fn the_rate_comes_from_the_recent_iterations() {
+        let mut state = ViewerState::default();
+        state.apply(&iteration(10, 1.0, 5.0));
+        state.apply(&iteration(30, 2.0, 4.0));
+        state.apply(&iteration(50, 3.0, 3.0));
+        assert_eq!(state.evaluations_per_s(), Some(20.0));
+        assert_eq!(state.best_cost(), Some(3.0));
+    }
+
+    #[test]
+    fn a_quiet_run_turns_stale_and_a_paused_one_does_not() {
+        let start = SystemTime::UNIX_EPOCH + Duration::from_secs(1_000_000);
+        let mut state = ViewerState::default();
+        state.apply(&iteration(10, 1.0, 5.0));
+        state.progress_modified = Some(start);
+        assert_eq!(
+            state.status(start + Duration::from_secs(5), false),
+            Status::Running
+        );
+        assert_eq!(
+            state.status(start + Duration::from_secs(61), false),
+            Status::Stale
+        );
+        state.apply(&ProgressEvent::Paused { elapsed_s: 0.0 });
+        assert_eq!(
+            state.status(start + Duration::from_secs(600), false),
+            Status::Paused
+        );
+        assert_eq!(state.status(start, true), Status::Stopping);
+        state.apply(&ProgressEvent::Failed {
+            message: "disk full".into(),
+        });
+        assert_eq!(state.status(start, true), Status::Failed);
+    }
+
+    #[test]
+    fn slow_iterations_wait_longer_before_stale() {
+        let mut state = ViewerState::default();
+        state.apply(&iteration(10, 0.0, 5.0));
+        state.apply(&iteration(20, 100.0, 4.0));
+        assert_eq!(state.stale_after(), Duration::from_secs(500));
+    }
+
+    #[test]
+    fn case_shares_add_the_signals_of_a_case() {
+        let mut state = ViewerState::default();
+        state.apply(&iteration(10, 1.0, 8.0));
+        let shares = state.case_shares();
+        assert_eq!(shares.len(), 2);
+        assert_eq!((shares[0].case.as_str(), shares[0].share), ("a", 0.75));
+        assert_eq!((shares[1].case.as_str(), shares[1].share), ("b", 0.25));
+    }
+
+    #[test]
+    fn unknown_events_and_garbage_are_counted_not_fatal() {
+        let mut state = ViewerState::default();
+        state.apply_line(r#"{"event":"sparkle","level":3}"#);
+        state.apply_line(r#"{"event":"sparkle","level":4}"#);
+        state.apply_line("not json at all");
+        state.apply_line(r#"{"event":"iteration","iter":2,"elapsed_s":1.5,"best_cost":0.25}"#);
+        assert_eq!(state.best_cost(), Some(0.25));
+        let notes = state.notes().join("\n");
+        assert!(notes.contains("skipped 2 `sparkle` lines"), "{notes}");
+        assert!(
+            notes.contains("skipped 1 lines that are not JSON"),
+            "{notes}"
+        );
+        assert!(
+            notes.contains("`iteration` lines have no evaluations, parts, best_params"),
+            "{notes}"
+        );
+    }
+
+    #[test]
+    fn a_summary_that_does_not_parse_keeps_the_last_good_one() {
+        let mut state = ViewerState::default();
+        state.set_summary_text(
+            r#"{"objective": 2.5, "parameters": [], "parts": [], "correlation": []}"#,
+        );
+        state.set_summary_text(r#"{"objective": 3.5, "param"#);
+        assert_eq!(state.summary.as_ref().and_then(|s| s.objective), Some(2.5));
+        assert!(state
+            .notes()
+            .join(" ")
+            .contains("summary.json does not parse"));
+        state.set_summary_text(r#"{"objective": 3.5}"#);
+        assert_eq!(state.summary.as_ref().and_then(|s| s.objective), Some(3.5));
+        let notes = state.notes().join(" ");
+        assert!(!notes.contains("does not parse"), "{notes}");
+        assert!(
+            notes.contains("summary.json has no parameters, correlation, parts"),
+            "{notes}"
+        );
+    }
+
+    #[test]
+    fn a_case_file_without_its_key_columns_is_refused() {
+        let mut state = ViewerState::default();
+        state.set_case_curve_text("a--mlr", "time_s,measured,model\n1,2,3\n2,4,5\n");
+        let curve = state.curve("a", "mlr").unwrap();
+        assert_eq!(curve.measured, vec![2.0, 4.0]);
+        assert_eq!(curve.model, vec![3.0, 5.0]);
+        assert!(curve.sigma.is_empty());
+        state.set_case_curve_text("a--mlr", "t,m\n1,2\n");
+        assert_eq!(state.curve("a", "mlr").unwrap().measured, vec![2.0, 4.0]);
+        assert!(state
+            .notes()
+            .join(" ")
+            .contains("has no `time_s` and `measured`"));
+    }
+
+    #[test]
+    fn positions_follow_the_scale() {
+        assert_eq!(position_between(5.0, 0.0, 10.0, false), Some(0.5));
+        let log = position_between(10.0, 1.0, 100.0, true).unwrap();
+        assert!((log - 0.5).abs() < 1e-12);
+        assert_eq!(position_between(1.0, 2.0, 2.0, false), None);
+        assert!(is_at_bound(0.999, 0.0, 100.0, false));
+        assert!(!is_at_bound(50.0, 0.0, 100.0, false));
+    }
+}

@@ -1,0 +1,466 @@
+//! The terminal interface end to end: the real binary in tmux (send-keys, capture-pane). A fit
+//! on the invented twin case runs in one tmux session; its views are switched, its terminal
+//! is closed (the fit must carry on), a read-only `watch` follows it from a second session,
+//! SIGINT stops it, and the run directory must be complete. Also `fit --detach`, and `q` in a
+//! foreground fit. Skipped, with a message, when tmux is not installed.
+
+use std::path::{Path, PathBuf};
+use std::process::Command;
+use std::time::{Duration, Instant};
+
+use emberfit::run::RunSummary;
+
+const BIN: &str = env!("CARGO_BIN_EXE_emberfit");
+
+/// A private tmux server for this test (its own socket), killed when dropped.
+struct Tmux {
+    socket: String,
+}
+
+impl Tmux {
+    fn start(name: &str) -> Option<Tmux> {
+        let found = Command::new("tmux")
+            .arg("-V")
+            .output()
+            .is_ok_and(|o| o.status.success());
+        if !found {
+            return None;
+        }
+        Some(Tmux {
+            socket: format!("emberfit-test-{name}-{}", std::process::id()),
+        })
+    }
+
+    fn run(&self, args: &[&str]) -> String {
+        let output = Command::new("tmux")
+            .args(["-L", &self.socket, "-f", "/dev/null"])
+            .args(args)
+            .output()
+            .expect("tmux runs");
+        String::from_utf8_lossy(&output.stdout).into_owned()
+    }
+
+    fn new_session(&self, name: &str, command: &str) {
+        self.run(&[
+            "new-session",
+            "-d",
+            "-s",
+            name,
+            "-x",
+            "100",
+            "-y",
+            "30",
+            command,
+        ]);
+    }
+
+    fn capture(&self, name: &str) -> String {
+        self.run(&["capture-pane", "-p", "-t", name])
+    }
+
+    fn keys(&self, name: &str, keys: &str) {
+        self.run(&["send-keys", "-t", name, keys]);
+    }
+
+    fn pane_pid(&self, name: &str) -> u32 {
+        self.run(&["display-message", "-p", "-t", name, "#{pane_pid}"])
+            .trim()
+            .parse()
+            .expect("a pane pid")
+    }
+
+    /// Waits until the pane shows every one of `texts`; panics with the screen after `limit`.
+    fn wait_for(&self, name: &str, texts: &[&str], limit: Duration) -> String {
+        let start = Instant::now();
+        loop {
+            let screen = self.capture(name);
+            if texts.iter().all(|t| screen.contains(t)) {
+                return screen;
+            }
+            assert!(
+                start.elapsed() < limit,
+                "`{name}` did not show {texts:?} within {limit:?}; it shows:\n{screen}"
+            );
+            std::thread::sleep(Duration::from_millis(200));
+        }
+    }
+}
+
+impl Drop for Tmux {
+    fn drop(&mut self) {
+        self.run(&["kill-server"]);
+    }
+}
+
+fn scratch(name: &str) -> PathBuf {
+    let dir = std::env::temp_dir().join(format!("emberfit-tui-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).expect("temp dir");
+    dir
+}
+
+/// The twin job with absolute paths and a budget it never reaches, so it runs until stopped.
+fn endless_job(dir: &Path) -> PathBuf {
+    let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let text = std::fs::read_to_string(manifest.join("tests/cases/twin-fit.toml"))
+        .expect("twin job")
+        .replace("../../", &format!("{}/", manifest.display()))
+        .replace("max_evaluations = 480", "max_evaluations = 10000000")
+        .replace(
+            "stagnation_generations = 10",
+            "stagnation_generations = 100000",
+        );
+    let path = dir.join("endless.toml");
+    std::fs::write(&path, text).expect("job written");
+    path
+}
+
+fn is_alive(pid: u32) -> bool {
+    // A zombie has finished: count it as gone.
+    std::fs::read_to_string(format!("/proc/{pid}/stat")).is_ok_and(|stat| {
+        stat.rsplit(')')
+            .next()
+            .is_some_and(|rest| !rest.trim_start().starts_with('Z'))
+    })
+}
+
+fn wait_until_gone(pid: u32, limit: Duration) {
+    let start = Instant::now();
+    while is_alive(pid) {
+        assert!(
+            start.elapsed() < limit,
+            "process {pid} still runs after {limit:?}"
+        );
+        std::thread::sleep(Duration::from_millis(200));
+    }
+}
+
+fn progress_lines(run: &Path) -> usize {
+    std::fs::read_to_string(run.join("progress.jsonl"))
+        .map(|t| t.lines().count())
+        .unwrap_or(0)
+}
+
+/// CPU seconds (user + system) of one thread, from /proc.
+fn thread_cpu_s(pid: u32, tid: u32) -> f64 {
+    let stat = std::fs::read_to_string(format!("/proc/{pid}/task/{tid}/stat")).unwrap_or_default();
+    let fields: Vec<&str> = stat
+        .rsplit(')')
+        .next()
+        .unwrap_or("")
+        .split_whitespace()
+        .collect();
+    let ticks: f64 = [11, 12]
+        .iter()
+        .filter_map(|i| fields.get(*i).and_then(|f| f.parse::<f64>().ok()))
+        .sum();
+    ticks / 100.0
+}
+
+fn assert_complete(run: &Path) -> RunSummary {
+    for file in [
+        "summary.json",
+        "best.toml",
+        "checkpoint.json",
+        "parameters.csv",
+        "progress.jsonl",
+    ] {
+        assert!(run.join(file).is_file(), "{} has no {file}", run.display());
+    }
+    for signal in ["mlr", "hrr"] {
+        let curve = run.join(format!("cases/50-kw-m--{signal}.csv"));
+        let text = std::fs::read_to_string(&curve).unwrap_or_default();
+        assert!(
+            text.starts_with("time_s,measured,sigma,model,residual") && text.lines().count() > 100,
+            "{}",
+            curve.display()
+        );
+    }
+    let progress = std::fs::read_to_string(run.join("progress.jsonl")).unwrap_or_default();
+    assert!(
+        progress
+            .lines()
+            .last()
+            .unwrap_or("")
+            .contains("\"event\":\"finished\""),
+        "{progress}"
+    );
+    serde_json::from_slice(&std::fs::read(run.join("summary.json")).expect("summary"))
+        .expect("summary parses")
+}
+
+#[test]
+fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_end() {
+    let Some(tmux) = Tmux::start("live") else {
+        println!("skipped: tmux is not installed (the CI script installs it)");
+        return;
+    };
+    let dir = scratch("live");
+    let job = endless_job(&dir);
+    let runs = dir.join("runs");
+    let run = runs.join("live");
+
+    // A foreground fit with the interface.
+    tmux.new_session(
+        "fit",
+        &format!(
+            "exec {BIN} fit {} --runs-dir {} --name live --threads 1",
+            job.display(),
+            runs.display()
+        ),
+    );
+    tmux.wait_for(
+        "fit",
+        &["[RUNNING]", "[1 Progress]", "evaluations/s", "q stop+exit"],
+        Duration::from_secs(60),
+    );
+    tmux.keys("fit", "2");
+    tmux.wait_for(
+        "fit",
+        &["[2 Parameters]", "component.virgin.conductivity_w_m_k", "●"],
+        Duration::from_secs(10),
+    );
+    tmux.keys("fit", "3");
+    tmux.wait_for(
+        "fit",
+        &[
+            "[3 Residuals]",
+            "share of the objective",
+            "50 kW/m²",
+            "written when the fit ends",
+        ],
+        Duration::from_secs(10),
+    );
+    tmux.keys("fit", "Tab");
+    tmux.wait_for(
+        "fit",
+        &["[4 Summary]", "appear when the fit ends"],
+        Duration::from_secs(10),
+    );
+    tmux.keys("fit", "?");
+    tmux.wait_for(
+        "fit",
+        &["Keys", "Closing the terminal does not stop the fit"],
+        Duration::from_secs(10),
+    );
+    tmux.keys("fit", "Escape");
+    let pid = tmux.pane_pid("fit");
+
+    // The terminal goes away (as when SSH drops): the fit must keep running and writing.
+    tmux.run(&["kill-session", "-t", "fit"]);
+    std::thread::sleep(Duration::from_secs(1));
+    assert!(is_alive(pid), "the fit died with its terminal");
+    let before = progress_lines(&run);
+    let cpu_before = thread_cpu_s(pid, pid);
+    let start = Instant::now();
+    while progress_lines(&run) <= before {
+        assert!(
+            start.elapsed() < Duration::from_secs(30),
+            "no progress after the terminal closed"
+        );
+        std::thread::sleep(Duration::from_millis(200));
+    }
+    std::thread::sleep(Duration::from_secs(2));
+    println!(
+        "interface thread after the terminal closed: {:.2} CPU s in {:.1} s (should be ~0: it waits on the fit)",
+        thread_cpu_s(pid, pid) - cpu_before,
+        start.elapsed().as_secs_f64()
+    );
+
+    // A read-only viewer from another terminal.
+    tmux.new_session("watch", &format!("exec {BIN} watch {}", run.display()));
+    tmux.wait_for(
+        "watch",
+        &[
+            "[RUNNING]",
+            "(read-only)",
+            "twin: three parameters",
+            "q quit",
+        ],
+        Duration::from_secs(20),
+    );
+    tmux.keys("watch", "p");
+    tmux.wait_for(
+        "watch",
+        &["read-only viewer: pause/stop the fit in its own terminal"],
+        Duration::from_secs(10),
+    );
+    tmux.keys("watch", "4");
+
+    // Stop it as Ctrl-C would: the iteration ends, the checkpoint and all outputs are written.
+    assert!(Command::new("kill")
+        .args(["-INT", &pid.to_string()])
+        .status()
+        .expect("kill")
+        .success());
+    wait_until_gone(pid, Duration::from_secs(120));
+    let summary = assert_complete(&run);
+    assert!(summary.reason.contains("stop"), "{}", summary.reason);
+    tmux.wait_for(
+        "watch",
+        &[
+            "[FINISHED]",
+            "[4 Summary]",
+            "Correlation",
+            "stopped on request",
+        ],
+        Duration::from_secs(20),
+    );
+    tmux.keys("watch", "q");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn a_detached_fit_runs_in_its_own_session_and_q_in_a_foreground_fit_stops_it_cleanly() {
+    let Some(tmux) = Tmux::start("detach") else {
+        println!("skipped: tmux is not installed (the CI script installs it)");
+        return;
+    };
+    let dir = scratch("detach");
+    let job = endless_job(&dir);
+    let runs = dir.join("runs");
+
+    let output = Command::new(BIN)
+        .args([
+            "fit",
+            &job.display().to_string(),
+            "--detach",
+            "--threads",
+            "1",
+            "--name",
+            "bg",
+        ])
+        .arg("--runs-dir")
+        .arg(&runs)
+        .output()
+        .expect("fit --detach runs");
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    assert!(
+        output.status.success(),
+        "{stdout}{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    let run = runs.join("bg");
+    assert!(
+        stdout.contains(&format!("emberfit watch {}", run.display())),
+        "{stdout}"
+    );
+    let pid: u32 = stdout
+        .split("(pid ")
+        .nth(1)
+        .and_then(|rest| rest.split(')').next())
+        .and_then(|n| n.parse().ok())
+        .expect("the pid is printed");
+    // Its own session: the session id (field 6 of /proc/PID/stat) is its pid.
+    let stat = std::fs::read_to_string(format!("/proc/{pid}/stat")).expect("the fit runs");
+    let session: u32 = stat
+        .rsplit(')')
+        .next()
+        .and_then(|r| r.split_whitespace().nth(3))
+        .and_then(|s| s.parse().ok())
+        .expect("session id");
+    assert_eq!(
+        session, pid,
+        "the detached fit shares a session with its starter"
+    );
+    tmux.new_session("watch", &format!("exec {BIN} watch {}", run.display()));
+    tmux.wait_for(
+        "watch",
+        &["[RUNNING]", "(read-only)"],
+        Duration::from_secs(60),
+    );
+    assert!(Command::new("kill")
+        .args(["-INT", &pid.to_string()])
+        .status()
+        .expect("kill")
+        .success());
+    wait_until_gone(pid, Duration::from_secs(120));
+    assert_complete(&run);
+    let log = std::fs::read_to_string(run.join("fit.log")).unwrap_or_default();
+    assert!(log.contains("finished: stopped on request"), "{log}");
+    tmux.wait_for("watch", &["[FINISHED]"], Duration::from_secs(20));
+
+    // q in a foreground fit: stop, write everything, exit with the summary table.
+    tmux.run(&["set-option", "-g", "remain-on-exit", "on"]);
+    tmux.new_session(
+        "fg",
+        &format!(
+            "exec {BIN} fit {} --runs-dir {} --name fg --threads 1",
+            job.display(),
+            runs.display()
+        ),
+    );
+    tmux.wait_for(
+        "fg",
+        &["[RUNNING]", "evaluations/s"],
+        Duration::from_secs(60),
+    );
+    tmux.keys("fg", "q");
+    let screen = tmux.wait_for(
+        "fg",
+        &["objective", "run directory:"],
+        Duration::from_secs(120),
+    );
+    assert!(screen.contains("stopped on request"), "{screen}");
+    assert_complete(&runs.join("fg"));
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn watch_refuses_a_directory_that_is_not_a_run_and_a_pipe_for_a_screen() {
+    let dir = scratch("refuse");
+    let output = Command::new(BIN)
+        .arg("watch")
+        .arg(dir.join("nothing-here"))
+        .output()
+        .expect("watch runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    // Standard output is a pipe here, so the terminal check speaks first.
+    assert!(stderr.contains("watch needs a terminal"), "{stderr}");
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/finished-run");
+    let output = Command::new(BIN)
+        .arg("watch")
+        .arg(&fixture)
+        .output()
+        .expect("watch runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(stderr.contains("emberfit report"), "{stderr}");
+    if let Some(tmux) = Tmux::start("refuse") {
+        // The pane stays a while after the viewer has refused, so its message can be read.
+        tmux.new_session(
+            "watch",
+            &format!(
+                "{BIN} watch {}; sleep 30",
+                dir.join("nothing-here").display()
+            ),
+        );
+        tmux.wait_for(
+            "watch",
+            &["error: watching the run", "is not a run directory"],
+            Duration::from_secs(10),
+        );
+    }
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+#[test]
+fn fit_detach_refuses_a_bad_job_where_the_user_sees_it() {
+    let dir = scratch("bad-job");
+    let output = Command::new(BIN)
+        .arg("fit")
+        .arg(dir.join("missing.toml"))
+        .arg("--detach")
+        .arg("--runs-dir")
+        .arg(dir.join("runs"))
+        .output()
+        .expect("fit runs");
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    assert!(stderr.contains("reading the fit job"), "{stderr}");
+    assert!(
+        !dir.join("runs").exists(),
+        "a refused job left a run directory"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
