@@ -498,8 +498,11 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
             (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),
             _ => "undetermined".into(),
         };
+        let rank = p
+            .sensitivity_rank
+            .map_or("–".to_string(), |r| r.to_string());
         out.push_str(&format!(
-            "  {:<40} {:>12} {:<10} {}\n",
+            "  {:<40} {:>12} {:<10} {:<19} {rank}\n",
             p.name,
             significant(p.value, 5),
             p.unit,
