@@ -232,6 +232,8 @@ struct Recorder<'a> {
     best_written: f64,
     io_error: Option<RunError>,
     last_best: Option<(Vec<f64>, f64)>,
+    /// Whether the `stopping` event has been written.
+    stop_announced: bool,
 }
 
 impl Recorder<'_> {
@@ -333,7 +335,12 @@ impl Observer for Recorder<'_> {
             }
             self.write_event(&ProgressEvent::Resumed { elapsed_s: 0.0 });
         }
-        self.stop.load(Ordering::SeqCst)
+        let stop = self.stop.load(Ordering::SeqCst);
+        if stop && !self.stop_announced {
+            self.stop_announced = true;
+            self.write_event(&ProgressEvent::Stopping { elapsed_s: 0.0 });
+        }
+        stop
     }
 }
 
@@ -510,6 +517,7 @@ pub fn run_fit(
         best_written: f64::INFINITY,
         io_error: None,
         last_best: None,
+        stop_announced: false,
     };
     recorder.write_event(&ProgressEvent::Started {
         format_version: FORMAT_VERSION,

@@ -71,6 +71,11 @@ pub enum ProgressEvent {
     Resumed {
         elapsed_s: f64,
     },
+    /// A stop was asked for (signal or key): the run finishes its iteration, writes its
+    /// outputs and ends with `finished`. Lets every viewer say "stopping".
+    Stopping {
+        elapsed_s: f64,
+    },
     Finished {
         reason: String,
         best_cost: f64,

@@ -182,6 +182,8 @@ pub struct ViewerState {
     pub history: Vec<HistoryPoint>,
     pub latest: Option<LatestIteration>,
     pub is_paused: bool,
+    /// The run logged that a stop was asked for (by any process).
+    pub is_stopping: bool,
     pub n_failures: u64,
     pub last_failure: Option<String>,
     /// Iteration, evaluations and elapsed seconds of the last `checkpoint` line.
@@ -347,6 +349,7 @@ impl ViewerState {
             },
             "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
             "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
+            "stopping" => ProgressEvent::Stopping { elapsed_s: 0.0 },
             _ => return None,
         };
         self.note_missing(&format!("`{kind}` lines"), missing);
@@ -381,6 +384,7 @@ impl ViewerState {
                 self.finished = None;
                 self.failed = None;
                 self.is_paused = false;
+                self.is_stopping = false;
             }
             ProgressEvent::Iteration {
                 iter,
@@ -418,6 +422,7 @@ impl ViewerState {
             } => self.last_checkpoint = Some((*iter, *evaluations, *elapsed_s)),
             ProgressEvent::Paused { .. } => self.is_paused = true,
             ProgressEvent::Resumed { .. } => self.is_paused = false,
+            ProgressEvent::Stopping { .. } => self.is_stopping = true,
             ProgressEvent::Finished {
                 reason,
                 best_cost,
@@ -589,7 +594,7 @@ impl ViewerState {
         if self.finished.is_some() {
             return Status::Finished;
         }
-        if is_stop_requested {
+        if is_stop_requested || self.is_stopping {
             return Status::Stopping;
         }
         if self.info.is_none() && self.latest.is_none() {
@@ -900,6 +905,25 @@ mod tests {
         state.apply(&iteration(50, 3.0, 3.0));
         assert_eq!(state.evaluations_per_s(), Some(20.0));
         assert_eq!(state.best_cost(), Some(3.0));
+    }
+
+    /// A `stopping` line in the log makes every viewer (a read-only `watch` too) say
+    /// STOPPING until the run's `finished` line arrives.
+    #[test]
+    fn a_logged_stop_shows_as_stopping_in_any_viewer() {
+        let now = SystemTime::UNIX_EPOCH + Duration::from_secs(1_000_000);
+        let mut state = ViewerState::default();
+        state.apply(&iteration(10, 1.0, 5.0));
+        state.progress_modified = Some(now);
+        state.apply(&ProgressEvent::Stopping { elapsed_s: 0.0 });
+        assert_eq!(state.status(now, false), Status::Stopping);
+        state.apply(&ProgressEvent::Finished {
+            reason: "stopped on request".into(),
+            best_cost: 1.0,
+            evaluations: 10,
+            elapsed_s: 5.0,
+        });
+        assert_eq!(state.status(now, false), Status::Finished);
     }
 
     #[test]
