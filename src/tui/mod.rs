@@ -182,6 +182,12 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
             }
             is_dirty = false;
             last_draw = Some(Instant::now());
+            // Test seam, in debug builds only: the end-to-end test panics the viewer here to
+            // check that the panic hook gives the terminal back.
+            #[cfg(debug_assertions)]
+            if std::env::var_os("EMBERFIT_TEST_PANIC_AFTER_DRAW").is_some() {
+                panic!("test panic after the first draw (EMBERFIT_TEST_PANIC_AFTER_DRAW)");
+            }
         }
         let until_poll =
             poll_every.saturating_sub(last_poll.map_or(Duration::ZERO, |t| t.elapsed()));

@@ -464,3 +464,44 @@ fn fit_detach_refuses_a_bad_job_where_the_user_sees_it() {
     );
     let _ = std::fs::remove_dir_all(&dir);
 }
+
+/// The terminal is given back after a panic: a `watch` of the finished fixture run panics
+/// right after its first draw (a test seam of debug builds), and afterwards the pane has left
+/// the alternate screen and the terminal is out of raw mode (`stty -a` shows `icanon` and
+/// `echo` set again), with the panic message readable on the normal screen.
+#[test]
+fn a_panic_in_the_viewer_gives_the_terminal_back() {
+    let Some(tmux) = Tmux::start("panic") else {
+        eprintln!("a_panic_in_the_viewer_gives_the_terminal_back: skipped, tmux is not installed");
+        return;
+    };
+    let dir = scratch("panic");
+    let stty = dir.join("stty.txt");
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/finished-run");
+    tmux.new_session(
+        "viewer",
+        &format!(
+            "sh -c 'EMBERFIT_TEST_PANIC_AFTER_DRAW=1 {BIN} watch {}; stty -a > {}; echo viewer-exited; sleep 30'",
+            fixture.display(),
+            stty.display()
+        ),
+    );
+    let screen = tmux.wait_for("viewer", &["viewer-exited"], Duration::from_secs(20));
+    assert!(
+        screen.contains("test panic after the first draw"),
+        "{screen}"
+    );
+    let alternate = tmux.run(&["display-message", "-p", "-t", "viewer", "#{alternate_on}"]);
+    assert_eq!(
+        alternate.trim(),
+        "0",
+        "the pane is still on the alternate screen"
+    );
+    let modes = std::fs::read_to_string(&stty).expect("stty ran after the viewer");
+    let flags: Vec<&str> = modes.split_whitespace().collect();
+    assert!(
+        flags.contains(&"icanon") && flags.contains(&"echo"),
+        "{modes}"
+    );
+    let _ = std::fs::remove_dir_all(&dir);
+}
