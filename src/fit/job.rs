@@ -101,13 +101,19 @@ enum AlignFile {
 #[derive(Debug, Deserialize)]
 #[serde(deny_unknown_fields)]
 struct SignalFile {
-    signal: SignalKind,
+    signal: Spanned<SignalKind>,
     weight: Option<Spanned<f64>>,
     window_s: Option<Spanned<[f64; 2]>>,
     /// Noise standard deviation in the signal's unit; when given it replaces the default scale.
     sigma: Option<Spanned<f64>>,
     /// For `in_depth_temperature`: the thermocouple's depth below the exposed surface, mm.
     depth_mm: Option<Spanned<f64>>,
+}
+
+impl SignalFile {
+    fn kind(&self) -> SignalKind {
+        *self.signal.get_ref()
+    }
 }
 
 /// A measured quantity the fit can match.
@@ -839,7 +845,7 @@ fn build_case(
             Some(v) => source.non_negative(v, &skey("weight"))?,
             None => 1.0,
         };
-        let depth_mm = match (&raw_signal.depth_mm, raw_signal.signal) {
+        let depth_mm = match (&raw_signal.depth_mm, raw_signal.kind()) {
             (Some(v), SignalKind::InDepthTemperature) => {
                 Some(source.non_negative(v, &skey("depth_mm"))?)
             }
@@ -864,21 +870,25 @@ fn build_case(
         };
         let what = match depth_mm {
             Some(d) => format!("in-depth temperature at {d} mm (columns.in_depth_temperature)"),
-            None => match raw_signal.signal {
+            None => match raw_signal.kind() {
                 SignalKind::SurfaceTemperature => "surface temperature column".to_string(),
                 SignalKind::BackTemperature => "back temperature column".to_string(),
                 kind => kind.name().to_string(),
             },
         };
         let missing = |what: &str| {
-            source.inconsistent(format!(
-                "case `{}` asks for signal `{}`, but its test data have no {what}",
-                raw.name,
-                raw_signal.signal.name()
-            ))
+            source.invalid(
+                &raw_signal.signal.span(),
+                &skey("signal"),
+                format!(
+                    "`{}`: the test data of case `{}` have no {what}",
+                    raw_signal.kind().name(),
+                    raw.name
+                ),
+            )
         };
         let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) =
-            match raw_signal.signal {
+            match raw_signal.kind() {
                 SignalKind::IgnitionTime => {
                     let times: Vec<f64> = reduced
                         .iter()
@@ -959,7 +969,7 @@ fn build_case(
         let mut kept_value = Vec::new();
         let mut kept_spread = Vec::new();
         for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
-            let in_window = raw_signal.signal == SignalKind::IgnitionTime
+            let in_window = raw_signal.kind() == SignalKind::IgnitionTime
                 || (t >= window_start.max(0.0) && t <= window_end);
             if in_window && v.is_finite() {
                 kept_time.push(t);
@@ -971,13 +981,13 @@ fn build_case(
             return Err(source.inconsistent(format!(
                 "case `{}`: signal `{}` has no data in its window",
                 raw.name,
-                raw_signal.signal.name()
+                raw_signal.kind().name()
             )));
         }
         // The signal's scale: its peak, or for a temperature its rise over the window (an
         // absolute temperature's peak would make every residual look small).
         let is_temperature = matches!(
-            raw_signal.signal,
+            raw_signal.kind(),
             SignalKind::SurfaceTemperature
                 | SignalKind::BackTemperature
                 | SignalKind::InDepthTemperature
@@ -1017,7 +1027,7 @@ fn build_case(
                 )
             }
             (None, false) => {
-                let scale = if raw_signal.signal == SignalKind::IgnitionTime {
+                let scale = if raw_signal.kind() == SignalKind::IgnitionTime {
                     0.1 * peak
                 } else {
                     peak
@@ -1051,7 +1061,7 @@ fn build_case(
             None => None,
         };
         signals.push(SignalData {
-            kind: raw_signal.signal,
+            kind: raw_signal.kind(),
             weight,
             time_s: kept_time,
             value: kept_value,

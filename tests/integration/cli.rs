@@ -142,7 +142,7 @@ fn broken_fit_jobs_give_errors_that_name_file_line_and_key() {
         ("start-outside.toml", "start-outside.toml:10: `parameter[0].start` 0.9 lies outside the bounds 0.1..0.5"),
         ("missing-data.toml", "missing-data.toml:13: `case[0].tests` cannot use tests/bad-input/fit/no-such-test.toml: cannot read"),
         ("depth-on-mlr.toml", "depth-on-mlr.toml:14: `case[0].signals[0].depth_mm` belongs to `in_depth_temperature` signals only, not `mlr`"),
-        ("no-temperature-data.toml", "no-temperature-data.toml: case `50 kW/m²` asks for signal `back_temperature`, but its test data have no back temperature column"),
+        ("no-temperature-data.toml", "no-temperature-data.toml:14: `case[0].signals[0].signal` `back_temperature`: the test data of case `50 kW/m²` have no back temperature column"),
     ];
     for (file, expected) in cases {
         let path = Path::new("tests/bad-input/fit").join(file);

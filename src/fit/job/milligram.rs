@@ -97,16 +97,16 @@ pub(super) fn check_cone_case(
         ));
     }
     for (signal_idx, signal) in raw.signals.iter().enumerate() {
-        if let Some(kind) = signal.signal.milligram_kind() {
+        if let Some(kind) = signal.kind().milligram_kind() {
             return Err(source.invalid(
-                &signal_span(source, raw, signal.signal),
+                &signal.signal.span(),
                 &format!("case[{idx}].signals[{signal_idx}].signal"),
                 format!(
                     "`{}` is a milligram-scale signal ({}); case `{}` is a cone case (give it \
                      `kind = \"{}\"` and a {} file, or a cone signal: mlr, hrr, mass, \
                      ignition_time, surface_temperature, back_temperature, \
                      in_depth_temperature)",
-                    signal.signal.name(),
+                    signal.kind().name(),
                     kind.name().to_uppercase(),
                     raw.name,
                     kind.name(),
@@ -116,22 +116,6 @@ pub(super) fn check_cone_case(
         }
     }
     Ok(())
-}
-
-/// Where a signal is written: the first `"<name>"` after the `[[case]]` header that holds the
-/// case's first test (signals carry no span of their own), else that test's line.
-fn signal_span(source: &Source, raw: &CaseFile, signal: SignalKind) -> std::ops::Range<usize> {
-    let Some(test) = raw.tests.first() else {
-        return 0..0;
-    };
-    let case_start = source.text[..test.span().start.min(source.text.len())]
-        .rfind("[[case]]")
-        .unwrap_or(0);
-    let quoted = format!("\"{}\"", signal.name());
-    match source.text[case_start..].find(&quoted) {
-        Some(offset) => case_start + offset..case_start + offset + quoted.len(),
-        None => test.span(),
-    }
 }
 
 /// Builds a milligram case: its file, programme, composition and signal.
@@ -276,13 +260,13 @@ pub(super) fn build_milligram_case(
     }
     for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
         let signal_key = key(&format!("signals[{signal_idx}]"));
-        if raw_signal.signal != expected {
+        if raw_signal.kind() != expected {
             return Err(source.invalid(
-                &signal_span(source, raw, raw_signal.signal),
+                &raw_signal.signal.span(),
                 &format!("{signal_key}.signal"),
                 format!(
                     "is `{}`, but {} is a {} file, whose signal is `{}`",
-                    raw_signal.signal.name(),
+                    raw_signal.kind().name(),
                     test_path.display(),
                     thermogram.kind.name().to_uppercase(),
                     expected.name()
