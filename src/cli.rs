@@ -28,8 +28,9 @@ pub enum Command {
     /// A milligram-scale scenario (one with a [programme] table: a heating programme instead of
     /// an irradiance) runs the 0-D TGA/DSC/MCC model; see docs/milligram-scale.md.
     Simulate(SimulateArgs),
-    /// Make measured-like test data from a scenario: the simulated mass and HRR as a cone
-    /// calorimeter would log them, with load-cell noise, HRR noise and a start-time offset.
+    /// Make measured-like test data from a scenario: the simulated mass, HRR and surface and
+    /// back-face temperatures as a cone calorimeter would log them, with load-cell, HRR and
+    /// thermocouple noise and a start-time offset.
     ///
     /// For demo cases and twin experiments (fit data whose true parameters are known). The
     /// same seed gives the same file on every machine.
