@@ -492,7 +492,10 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
             significant(part.cost, 5)
         ));
     }
-    out.push_str("  parameter                                   value                 95 % interval       sensitivity rank\n");
+    out.push_str(&format!(
+        "  {:<40} {:>12} {:<10} {:<19} {}\n",
+        "parameter", "value", "", "95 % interval", "rank"
+    ));
     for p in &summary.parameters {
         let interval = match (p.lower_95, p.upper_95) {
             (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),
@@ -514,6 +517,8 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
     }
     if let Some(problem) = &summary.identifiability_problem {
         out.push_str(&format!("  intervals not computed: {problem}\n"));
+    } else {
+        out.push_str("  rank: 1 = the parameter the data are most sensitive to\n");
     }
     out.push_str("  Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.\n");
     out
