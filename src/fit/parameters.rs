@@ -436,12 +436,12 @@ impl FreeParameter {
     }
 }
 
-/// Applies a full parameter vector (file units) to a material alone, in the order of
-/// [`apply_all`]; scenario targets are skipped (what a milligram-scale case simulates).
-pub fn apply_to_material_all(
+/// Every target of every parameter with its value, in the order they must be applied: direct
+/// targets first, then the Arrhenius reparametrisations that depend on E.
+fn for_each_target(
     parameters: &[FreeParameter],
     values: &[f64],
-    material: &mut Material,
+    mut apply: impl FnMut(&Target, f64),
 ) {
     for pass_derived in [false, true] {
         for (parameter, &value) in parameters.iter().zip(values) {
@@ -450,10 +450,22 @@ pub fn apply_to_material_all(
                 .iter()
                 .filter(|t| t.is_derived() == pass_derived)
             {
-                target.apply_to_material(value, material);
+                apply(target, value);
             }
         }
     }
+}
+
+/// Applies a full parameter vector (file units) to a material only, in the order of
+/// [`apply_all`]; scenario targets are skipped (what a milligram-scale case simulates).
+pub fn apply_to_material_all(
+    parameters: &[FreeParameter],
+    values: &[f64],
+    material: &mut Material,
+) {
+    for_each_target(parameters, values, |target, value| {
+        target.apply_to_material(value, material)
+    });
 }
 
 /// Applies a full parameter vector (file units) to copies of a material and a scenario:
@@ -464,17 +476,9 @@ pub fn apply_all(
     material: &mut Material,
     scenario: &mut Scenario,
 ) {
-    for pass_derived in [false, true] {
-        for (parameter, &value) in parameters.iter().zip(values) {
-            for target in parameter
-                .targets
-                .iter()
-                .filter(|t| t.is_derived() == pass_derived)
-            {
-                target.apply(value, material, scenario);
-            }
-        }
-    }
+    for_each_target(parameters, values, |target, value| {
+        target.apply(value, material, scenario)
+    });
 }
 
 #[cfg(test)]
