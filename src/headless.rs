@@ -157,7 +157,7 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         ProgressEvent::Failure { message, .. } => Some(format!("note: a candidate failed and was penalised: {message}")),
         ProgressEvent::Paused { .. } => Some("paused".into()),
         ProgressEvent::Resumed { .. } => Some("running again".into()),
-        ProgressEvent::Stopping { .. } => Some(
+        ProgressEvent::Stopping => Some(
             "stopping: finishing the iteration, then writing the checkpoint and outputs".into(),
         ),
         ProgressEvent::Finished {

@@ -60,6 +60,10 @@ pub struct Reduced {
     pub notices: Vec<Notice>,
 }
 
+/// Two thermocouple depths closer than this, mm, are the same depth (when repeats are
+/// matched, and when a fit signal names its depth).
+pub const DEPTH_MATCH_MM: f64 = 0.01;
+
 /// A temperature measured at a depth below the initial exposed surface.
 #[derive(Debug, Clone, PartialEq)]
 pub struct DepthCurve {

@@ -44,7 +44,8 @@ pub struct RepeatSet {
     /// Unexposed-face temperature across tests, K.
     pub back_temperature_k: Option<MeanCurve>,
     /// In-depth temperatures across tests, K, with their depth in mm: one per depth of the
-    /// first test, averaged over the tests that measured the same depth (within 0.01 mm).
+    /// first test, averaged over the tests that measured the same depth (within
+    /// `reduce::DEPTH_MATCH_MM`).
     pub in_depth_temperature_k: Vec<(f64, MeanCurve)>,
     /// Time shift applied to each test, s (zero when aligned at exposure start).
     pub shifts_s: Vec<f64>,
@@ -160,7 +161,7 @@ pub fn combine(tests: &[Reduced], alignment: Alignment) -> Result<RepeatSet, Dat
     fn at_depth(test: &Reduced, depth_mm: f64) -> Option<&Vec<f64>> {
         test.in_depth_temperature_k
             .iter()
-            .find(|c| (c.depth_mm - depth_mm).abs() <= 0.01)
+            .find(|c| (c.depth_mm - depth_mm).abs() <= super::reduce::DEPTH_MATCH_MM)
             .map(|c| &c.temperature_k)
     }
     let in_depth_temperature_k = tests[0]

@@ -648,6 +648,16 @@ mod tests {
         }
     }
 
+    /// The line model with both coefficients free in −10..10, starting at 5.
+    fn line_model() -> Line {
+        Line {
+            parameters: vec![
+                parameter("a", -10.0, 10.0, 5.0),
+                parameter("b", -10.0, 10.0, 5.0),
+            ],
+        }
+    }
+
     fn parameter(name: &str, lower: f64, upper: f64, start: f64) -> FreeParameter {
         FreeParameter {
             name: name.into(),
@@ -726,12 +736,7 @@ mod tests {
 
     #[test]
     fn finds_the_known_optimum_of_a_fake_model() {
-        let model = Line {
-            parameters: vec![
-                parameter("a", -10.0, 10.0, 5.0),
-                parameter("b", -10.0, 10.0, 5.0),
-            ],
-        };
+        let model = line_model();
         let cases = [line_case()];
         let objective = Objective::new(&model, &cases);
         let outcome = optimise(
@@ -783,12 +788,7 @@ mod tests {
         );
         assert_eq!(local_starts(&state, 1), vec![vec![0.50, 0.50]]);
 
-        let model = Line {
-            parameters: vec![
-                parameter("a", -10.0, 10.0, 5.0),
-                parameter("b", -10.0, 10.0, 5.0),
-            ],
-        };
+        let model = line_model();
         let cases = [line_case()];
         let objective = Objective::new(&model, &cases);
         let few_generations = EngineSettings {
@@ -813,12 +813,7 @@ mod tests {
 
     #[test]
     fn a_stopped_and_continued_run_ends_exactly_where_an_uninterrupted_one_does() {
-        let model = Line {
-            parameters: vec![
-                parameter("a", -10.0, 10.0, 5.0),
-                parameter("b", -10.0, 10.0, 5.0),
-            ],
-        };
+        let model = line_model();
         let cases = [line_case()];
         let objective = Objective::new(&model, &cases);
         let whole = optimise(

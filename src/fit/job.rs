@@ -16,8 +16,9 @@ use super::parameters::{FreeParameter, Prior, PropertyPart, Scale, Target};
 use crate::case::material::MaterialModel;
 use crate::case::source::{error_chain, Source};
 use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
-use crate::data::repeats::{combine, Alignment};
-use crate::data::{reduce, TestDescription};
+use crate::data::reduce::DEPTH_MATCH_MM;
+use crate::data::repeats::{combine, Alignment, MeanCurve, RepeatSet};
+use crate::data::{reduce, Reduced, TestDescription};
 use crate::microscale::MeasurementKind;
 use crate::physics::zero_d::{TemperatureProgramme, ZeroDSettings};
 
@@ -114,6 +115,42 @@ impl SignalFile {
     fn kind(&self) -> SignalKind {
         *self.signal.get_ref()
     }
+}
+
+/// A signal's weight (default 1) and time window `[start, end]`, s (default: all times),
+/// checked; `field` names a key of this signal for errors. Cone and milligram signals share it.
+fn weight_and_window(
+    source: &Source,
+    raw_signal: Option<&SignalFile>,
+    field: &dyn Fn(&str) -> String,
+) -> Result<(f64, (f64, f64)), CaseError> {
+    let weight = match raw_signal.and_then(|s| s.weight.as_ref()) {
+        Some(v) => source.non_negative(v, &field("weight"))?,
+        None => 1.0,
+    };
+    let window = match raw_signal.and_then(|s| s.window_s.as_ref()) {
+        Some(w) => {
+            let [a, b] = *w.get_ref();
+            if b <= a {
+                return Err(source.invalid(
+                    &w.span(),
+                    &field("window_s"),
+                    format!("must be [start, end] with end > start, got [{a}, {b}]"),
+                ));
+            }
+            (a, b)
+        }
+        None => (f64::NEG_INFINITY, f64::INFINITY),
+    };
+    Ok((weight, window))
+}
+
+/// The largest absolute value (the default scale of a signal), never zero.
+fn largest_magnitude(values: &[f64]) -> f64 {
+    values
+        .iter()
+        .fold(0.0f64, |m, v| m.max(v.abs()))
+        .max(f64::MIN_POSITIVE)
 }
 
 /// A measured quantity the fit can match.
@@ -219,9 +256,18 @@ pub struct SignalData {
     pub sigma: Vec<f64>,
     /// Where the normalisation came from (`repeats`, `sigma`, `peak`, `rise`).
     pub sigma_source: &'static str,
-    /// For an in-depth temperature: the depth, mm, and the index of the probe the case's
-    /// scenario gained for it.
-    pub probe: Option<(f64, usize)>,
+    /// For an in-depth temperature: where the model reads it.
+    pub probe: Option<SignalProbe>,
+}
+
+/// The model side of an in-depth temperature signal.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct SignalProbe {
+    /// Depth below the initial exposed surface, mm.
+    pub depth_mm: f64,
+    /// Index of the probe in the case scenario's probes (and in each sample's
+    /// `probe_temperatures_k`).
+    pub index: usize,
 }
 
 impl SignalData {
@@ -229,7 +275,7 @@ impl SignalData {
     /// (`in_depth_temperature_5mm`).
     pub fn label(&self) -> String {
         match self.probe {
-            Some((depth_mm, _)) => format!("{}_{}mm", self.kind.name(), depth_mm),
+            Some(probe) => format!("{}_{}mm", self.kind.name(), probe.depth_mm),
             None => self.kind.name().to_string(),
         }
     }
@@ -841,10 +887,8 @@ fn build_case(
     let mut latest_s: f64 = 0.0;
     for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
         let skey = |field: &str| format!("case[{idx}].signals[{signal_idx}].{field}");
-        let weight = match &raw_signal.weight {
-            Some(v) => source.non_negative(v, &skey("weight"))?,
-            None => 1.0,
-        };
+        let (weight, (window_start, window_end)) =
+            weight_and_window(source, Some(raw_signal), &skey)?;
         let depth_mm = match (&raw_signal.depth_mm, raw_signal.kind()) {
             (Some(v), SignalKind::InDepthTemperature) => {
                 Some(source.non_negative(v, &skey("depth_mm"))?)
@@ -887,83 +931,39 @@ fn build_case(
                 ),
             )
         };
-        let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) =
-            match raw_signal.kind() {
-                SignalKind::IgnitionTime => {
-                    let times: Vec<f64> = reduced
-                        .iter()
-                        .filter_map(|r| r.report.ignition_time_s)
-                        .collect();
-                    if times.is_empty() {
-                        return Err(missing("ignition time"));
-                    }
-                    let mean = times.iter().sum::<f64>() / times.len() as f64;
-                    let spread = (times.len() > 1).then(|| {
-                        let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
-                            / (times.len() - 1) as f64;
-                        vec![var.sqrt()]
-                    });
-                    (vec![mean], vec![mean], spread)
+        let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) = match raw_signal
+            .kind()
+        {
+            SignalKind::IgnitionTime => {
+                let times: Vec<f64> = reduced
+                    .iter()
+                    .filter_map(|r| r.report.ignition_time_s)
+                    .collect();
+                if times.is_empty() {
+                    return Err(missing("ignition time"));
                 }
-                kind => match &repeats {
-                    Some(set) => {
-                        let curve = match kind {
-                            SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
-                            SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
-                            SignalKind::SurfaceTemperature => set.surface_temperature_k.as_ref(),
-                            SignalKind::BackTemperature => set.back_temperature_k.as_ref(),
-                            SignalKind::InDepthTemperature => set
-                                .in_depth_temperature_k
-                                .iter()
-                                .find(|(d, _)| (d - depth_mm.unwrap_or(f64::NAN)).abs() <= 0.01)
-                                .map(|(_, c)| c),
-                            SignalKind::Mass | SignalKind::IgnitionTime => set.mass_g.as_ref(),
-                            // Refused in cone cases before this (`milligram::check_cone_case`).
-                            SignalKind::MassFraction
-                            | SignalKind::DscHeatFlow
-                            | SignalKind::MccHrr => None,
-                        }
-                        .ok_or_else(|| missing(&what))?;
-                        (
-                            set.time_s.clone(),
-                            curve.mean.clone(),
-                            Some(curve.standard_deviation.clone()),
-                        )
-                    }
-                    None => {
-                        let curve = match kind {
-                            SignalKind::Mlr => first.mlr_g_m2s.as_ref(),
-                            SignalKind::Hrr => first.hrr_kw_m2.as_ref(),
-                            SignalKind::SurfaceTemperature => first.surface_temperature_k.as_ref(),
-                            SignalKind::BackTemperature => first.back_temperature_k.as_ref(),
-                            SignalKind::InDepthTemperature => first
-                                .in_depth_temperature_k
-                                .iter()
-                                .find(|c| (c.depth_mm - depth_mm.unwrap_or(f64::NAN)).abs() <= 0.01)
-                                .map(|c| &c.temperature_k),
-                            SignalKind::Mass | SignalKind::IgnitionTime => first.mass_g.as_ref(),
-                            SignalKind::MassFraction
-                            | SignalKind::DscHeatFlow
-                            | SignalKind::MccHrr => None,
-                        }
-                        .ok_or_else(|| missing(&what))?;
-                        (first.time_s.clone(), curve.clone(), None)
-                    }
-                },
-            };
-        let (window_start, window_end) = match &raw_signal.window_s {
-            Some(w) => {
-                let [a, b] = *w.get_ref();
-                if b <= a {
-                    return Err(source.invalid(
-                        &w.span(),
-                        &skey("window_s"),
-                        format!("must be [start, end] with end > start, got [{a}, {b}]"),
-                    ));
-                }
-                (a, b)
+                let mean = times.iter().sum::<f64>() / times.len() as f64;
+                let spread = (times.len() > 1).then(|| {
+                    let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
+                        / (times.len() - 1) as f64;
+                    vec![var.sqrt()]
+                });
+                (vec![mean], vec![mean], spread)
             }
-            None => (f64::NEG_INFINITY, f64::INFINITY),
+            kind => match &repeats {
+                Some(set) => {
+                    let curve = repeat_curve(set, kind, depth_mm).ok_or_else(|| missing(&what))?;
+                    (
+                        set.time_s.clone(),
+                        curve.mean.clone(),
+                        Some(curve.standard_deviation.clone()),
+                    )
+                }
+                None => {
+                    let curve = test_curve(first, kind, depth_mm).ok_or_else(|| missing(&what))?;
+                    (first.time_s.clone(), curve.clone(), None)
+                }
+            },
         };
         let mut kept_time = Vec::new();
         let mut kept_value = Vec::new();
@@ -1000,10 +1000,7 @@ fn build_case(
                 });
             (hi - lo).max(1.0)
         } else {
-            kept_value
-                .iter()
-                .fold(0.0f64, |m, v| m.max(v.abs()))
-                .max(f64::MIN_POSITIVE)
+            largest_magnitude(&kept_value)
         };
         let (sigma, sigma_source) = match (&raw_signal.sigma, spread.is_some()) {
             (Some(v), _) => (
@@ -1056,7 +1053,7 @@ fn build_case(
                         probes.len() - 1
                     }
                 };
-                Some((depth_mm, index))
+                Some(SignalProbe { depth_mm, index })
             }
             None => None,
         };
@@ -1084,6 +1081,47 @@ fn build_case(
         signals,
         test_files,
     })
+}
+
+/// The curve of a cone signal in one reduced test (`depth_mm` picks an in-depth
+/// thermocouple); `None` when the test lacks it. The ignition time is not a curve: its entry
+/// here is the mass, never asked for.
+fn test_curve(test: &Reduced, kind: SignalKind, depth_mm: Option<f64>) -> Option<&Vec<f64>> {
+    match kind {
+        SignalKind::Mlr => test.mlr_g_m2s.as_ref(),
+        SignalKind::Hrr => test.hrr_kw_m2.as_ref(),
+        SignalKind::SurfaceTemperature => test.surface_temperature_k.as_ref(),
+        SignalKind::BackTemperature => test.back_temperature_k.as_ref(),
+        SignalKind::InDepthTemperature => test
+            .in_depth_temperature_k
+            .iter()
+            .find(|c| is_same_depth(c.depth_mm, depth_mm))
+            .map(|c| &c.temperature_k),
+        SignalKind::Mass | SignalKind::IgnitionTime => test.mass_g.as_ref(),
+        // Refused in cone cases before this (`milligram::check_cone_case`).
+        SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
+    }
+}
+
+/// The mean curve of a cone signal across repeats (as [`test_curve`] for one test).
+fn repeat_curve(set: &RepeatSet, kind: SignalKind, depth_mm: Option<f64>) -> Option<&MeanCurve> {
+    match kind {
+        SignalKind::Mlr => set.mlr_g_m2s.as_ref(),
+        SignalKind::Hrr => set.hrr_kw_m2.as_ref(),
+        SignalKind::SurfaceTemperature => set.surface_temperature_k.as_ref(),
+        SignalKind::BackTemperature => set.back_temperature_k.as_ref(),
+        SignalKind::InDepthTemperature => set
+            .in_depth_temperature_k
+            .iter()
+            .find(|(d, _)| is_same_depth(*d, depth_mm))
+            .map(|(_, c)| c),
+        SignalKind::Mass | SignalKind::IgnitionTime => set.mass_g.as_ref(),
+        SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
+    }
+}
+
+fn is_same_depth(depth_mm: f64, wanted_mm: Option<f64>) -> bool {
+    wanted_mm.is_some_and(|w| (depth_mm - w).abs() <= DEPTH_MATCH_MM)
 }
 
 /// The names of tests and the files they read, for hashing into the run record.

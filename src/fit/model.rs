@@ -62,16 +62,7 @@ impl<'a> CaseModel<'a> {
         for layer in scenario.layers.iter_mut().filter(|l| l.is_specimen) {
             layer.material = material.clone();
         }
-        // Values inside the bounds can still be unphysical together (e.g. a yield of 1 with a
-        // lighter char): the material's own check says so.
-        crate::physics::material::Material::new(
-            material.components.clone(),
-            material.reactions.clone(),
-        )
-        .map_err(|err| ModelError {
-            case: case.name.clone(),
-            message: err.to_string(),
-        })?;
+        check_material(case, &material)?;
         simulate(&scenario).map_err(|err| ModelError {
             case: case.name.clone(),
             message: err.to_string(),
@@ -92,11 +83,7 @@ impl<'a> CaseModel<'a> {
         };
         let mut material = self.job.material.material.clone();
         apply_to_material_all(&self.job.parameters, values, &mut material);
-        crate::physics::material::Material::new(
-            material.components.clone(),
-            material.reactions.clone(),
-        )
-        .map_err(|err| failed(err.to_string()))?;
+        check_material(case, &material)?;
         simulate_zero_d(
             &material,
             &setup.initial_mass_fractions,
@@ -140,6 +127,20 @@ impl<'a> CaseModel<'a> {
             }
         }
     }
+}
+
+/// Values inside their bounds can still be unphysical together (e.g. a yield of 1 with a
+/// lighter char): the material's own validation says so, as a failure of this case.
+fn check_material(
+    case: &FitCase,
+    material: &crate::physics::material::Material,
+) -> Result<(), ModelError> {
+    crate::physics::material::Material::new(material.components.clone(), material.reactions.clone())
+        .map(|_| ())
+        .map_err(|err| ModelError {
+            case: case.name.clone(),
+            message: err.to_string(),
+        })
 }
 
 impl Model for CaseModel<'_> {
@@ -202,10 +203,10 @@ pub fn model_at_data_times(
         SignalKind::SurfaceTemperature => at(&|s| s.surface_temperature_k, 1.0),
         SignalKind::BackTemperature => at(&|s| s.back_temperature_k, 1.0),
         SignalKind::InDepthTemperature => match signal.probe {
-            Some((_, index)) => at(
+            Some(probe) => at(
                 &|s| {
                     s.probe_temperatures_k
-                        .get(index)
+                        .get(probe.index)
                         .copied()
                         .unwrap_or(f64::NAN)
                 },

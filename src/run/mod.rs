@@ -338,7 +338,7 @@ impl Observer for Recorder<'_> {
         let stop = self.stop.load(Ordering::SeqCst);
         if stop && !self.stop_announced {
             self.stop_announced = true;
-            self.write_event(&ProgressEvent::Stopping { elapsed_s: 0.0 });
+            self.write_event(&ProgressEvent::Stopping);
         }
         stop
     }

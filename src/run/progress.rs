@@ -73,9 +73,7 @@ pub enum ProgressEvent {
     },
     /// A stop was asked for (signal or key): the run finishes its iteration, writes its
     /// outputs and ends with `finished`. Lets every viewer say "stopping".
-    Stopping {
-        elapsed_s: f64,
-    },
+    Stopping,
     Finished {
         reason: String,
         best_cost: f64,
@@ -219,6 +217,10 @@ mod tests {
             line,
             r#"{"event":"checkpoint","iter":3,"evaluations":120,"elapsed_s":1.5}"#
         );
+        let stopping = serde_json::to_string(&ProgressEvent::Stopping).unwrap();
+        assert_eq!(stopping, r#"{"event":"stopping"}"#);
+        let back: ProgressEvent = serde_json::from_str(&stopping).unwrap();
+        assert_eq!(back, ProgressEvent::Stopping);
     }
 
     #[test]

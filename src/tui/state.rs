@@ -349,7 +349,7 @@ impl ViewerState {
             },
             "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
             "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
-            "stopping" => ProgressEvent::Stopping { elapsed_s: 0.0 },
+            "stopping" => ProgressEvent::Stopping,
             _ => return None,
         };
         self.note_missing(&format!("`{kind}` lines"), missing);
@@ -422,7 +422,7 @@ impl ViewerState {
             } => self.last_checkpoint = Some((*iter, *evaluations, *elapsed_s)),
             ProgressEvent::Paused { .. } => self.is_paused = true,
             ProgressEvent::Resumed { .. } => self.is_paused = false,
-            ProgressEvent::Stopping { .. } => self.is_stopping = true,
+            ProgressEvent::Stopping => self.is_stopping = true,
             ProgressEvent::Finished {
                 reason,
                 best_cost,
@@ -915,7 +915,7 @@ mod tests {
         let mut state = ViewerState::default();
         state.apply(&iteration(10, 1.0, 5.0));
         state.progress_modified = Some(now);
-        state.apply(&ProgressEvent::Stopping { elapsed_s: 0.0 });
+        state.apply(&ProgressEvent::Stopping);
         assert_eq!(state.status(now, false), Status::Stopping);
         state.apply(&ProgressEvent::Finished {
             reason: "stopped on request".into(),

@@ -7,7 +7,10 @@ use std::path::Path;
 
 use toml::Spanned;
 
-use super::{CaseFile, CaseSetup, FitCase, MilligramSetup, SignalData, SignalFile, SignalKind};
+use super::{
+    largest_magnitude, weight_and_window, CaseFile, CaseSetup, FitCase, MilligramSetup, SignalData,
+    SignalFile, SignalKind,
+};
 use crate::case::source::{error_chain, Source};
 use crate::case::{CaseError, MaterialModel};
 use crate::microscale::{
@@ -309,24 +312,7 @@ fn signal_data(
     signal_key: &str,
 ) -> Result<SignalData, CaseError> {
     let field = |name: &str| format!("{signal_key}.{name}");
-    let weight = match raw_signal.and_then(|s| s.weight.as_ref()) {
-        Some(v) => source.non_negative(v, &field("weight"))?,
-        None => 1.0,
-    };
-    let (window_start, window_end) = match raw_signal.and_then(|s| s.window_s.as_ref()) {
-        Some(w) => {
-            let [a, b] = *w.get_ref();
-            if b <= a {
-                return Err(source.invalid(
-                    &w.span(),
-                    &field("window_s"),
-                    format!("must be [start, end] with end > start, got [{a}, {b}]"),
-                ));
-            }
-            (a, b)
-        }
-        None => (f64::NEG_INFINITY, f64::INFINITY),
-    };
+    let (weight, (window_start, window_end)) = weight_and_window(source, raw_signal, &field)?;
     let (mut time_s, mut value) = (Vec::new(), Vec::new());
     for (&t, &v) in thermogram.time_s.iter().zip(&thermogram.values) {
         if t >= window_start && t <= window_end && v.is_finite() {
@@ -346,13 +332,7 @@ fn signal_data(
             vec![source.positive(v, &field("sigma"))?; time_s.len()],
             "sigma",
         ),
-        None => {
-            let peak = value
-                .iter()
-                .fold(0.0f64, |m, v| m.max(v.abs()))
-                .max(f64::MIN_POSITIVE);
-            (vec![peak; time_s.len()], "peak")
-        }
+        None => (vec![largest_magnitude(&value); time_s.len()], "peak"),
     };
     Ok(SignalData {
         kind,
