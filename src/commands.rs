@@ -38,9 +38,7 @@ pub fn run(cli: Cli) -> Result<()> {
 
 fn start_threads(threads: Option<usize>) -> Result<()> {
     if let Some(threads) = threads {
-        if threads == 0 {
-            bail!("--threads must be at least 1");
-        }
+        let threads = emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
             .build_global()
@@ -245,12 +243,17 @@ fn fit(args: FitArgs) -> Result<()> {
     if args.detach {
         return fit_detached(&args);
     }
-    let threads = args
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    if threads == 0 {
-        bail!("--threads must be at least 1");
-    }
+    let name = run_name(&args);
+    emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
+    // A resumed run keeps the thread count it started with unless given another.
+    let stored_threads = args
+        .resume
+        .then(|| emberfit::run::fingerprint::stored_threads(&args.runs_dir.join(&name)))
+        .flatten();
+    let threads = args.threads.or(stored_threads).unwrap_or_else(|| {
+        std::thread::available_parallelism().map_or(1, |n| n.get().min(emberfit::limits::max_threads()))
+    });
+    let threads = emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
     rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build_global()
@@ -268,6 +271,7 @@ fn fit(args: FitArgs) -> Result<()> {
     let stop = Arc::new(AtomicBool::new(false));
     let pause = Arc::new(AtomicBool::new(false));
     let hangup = Arc::new(AtomicBool::new(false));
+    let terminated = Arc::new(AtomicBool::new(false));
     // First SIGINT/SIGTERM: stop cleanly after this generation; a second one exits at once.
     // SIGHUP (a closed terminal or a dropped SSH link) does not stop the fit: it only tells
     // the interface that the terminal is gone.
@@ -279,7 +283,8 @@ fn fit(args: FitArgs) -> Result<()> {
     }
     signal_hook::flag::register(signal_hook::consts::SIGHUP, Arc::clone(&hangup))
         .context("installing the signal handlers")?;
-    let name = run_name(&args);
+    // After the handlers above, so a first SIGTERM is not taken for a second one.
+    install_end_signals(&stop, &hangup, &terminated)?;
     let options = emberfit::run::RunOptions {
         runs_root: args.runs_dir.clone(),
         name: Some(name.clone()),
@@ -309,6 +314,16 @@ fn fit(args: FitArgs) -> Result<()> {
                 let report = join_fit(worker)?;
                 print!("{}", fit_summary_table(&report.summary));
                 println!("run directory: {}", report.directory.display());
+                return Ok(());
+            }
+            Ok(emberfit::tui::ViewerEnd::TerminalLost)
+                if terminated.load(std::sync::atomic::Ordering::SeqCst) =>
+            {
+                // SIGTERM (or SIGHUP without a terminal): the interface has left, the fit
+                // writes its outputs, and the process ends.
+                let report = join_fit(worker)?;
+                tell(&fit_summary_table(&report.summary));
+                tell(&format!("run directory: {}", report.directory.display()));
                 return Ok(());
             }
             Ok(emberfit::tui::ViewerEnd::TerminalLost) => {
@@ -375,6 +390,33 @@ fn join_fit(
     }
 }
 
+/// SIGTERM, and SIGHUP when the process has no terminal (a service manager, `kill PID`, a
+/// detached fit): stop after this iteration, write the outputs and end the process — also
+/// when the interface is shown (its loop leaves on the `hangup` flag). SIGINT/SIGTERM twice
+/// exits at once (installed with the other handlers in `fit`).
+fn install_end_signals(
+    stop: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+    hangup: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+    terminated: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+) -> Result<()> {
+    use std::io::IsTerminal;
+    use std::sync::Arc;
+    let mut ending = vec![signal_hook::consts::SIGTERM];
+    let has_terminal = std::io::stdin().is_terminal()
+        || std::io::stdout().is_terminal()
+        || std::io::stderr().is_terminal();
+    if !has_terminal {
+        ending.push(signal_hook::consts::SIGHUP);
+    }
+    for signal in ending {
+        for flag in [stop, hangup, terminated] {
+            signal_hook::flag::register(signal, Arc::clone(flag))
+                .context("installing the signal handlers")?;
+        }
+    }
+    Ok(())
+}
+
 /// `fit --detach`: the same fit, headless, in a background process with its own session (so
 /// a closed terminal or a dropped SSH link sends it no hang-up), its output in `fit.log`.
 fn fit_detached(args: &FitArgs) -> Result<()> {
@@ -384,6 +426,10 @@ fn fit_detached(args: &FitArgs) -> Result<()> {
     // Refuse a bad job here, where the user can see the message.
     emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
     let name = run_name(args);
+    emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
+    if let Some(threads) = args.threads {
+        emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
+    }
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
     if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
         bail!(
@@ -1032,7 +1078,7 @@ fn ignition(args: IgnitionArgs) -> Result<()> {
 /// Whether a single input is an ignition list (a TOML without `data_file`) rather than a test.
 fn is_ignition_list(path: &Path) -> Result<bool> {
     let text =
-        std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+        emberfit::input::read_text(path, emberfit::input::InputKind::Toml).with_context(|| format!("cannot read {}", path.display()))?;
     let table: toml::Table =
         toml::from_str(&text).with_context(|| format!("cannot parse {}", path.display()))?;
     Ok(!table.contains_key("data_file"))

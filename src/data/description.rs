@@ -435,7 +435,7 @@ pub fn saturation_vapour_pressure_pa(temperature_c: f64) -> f64 {
 impl TestDescription {
     /// Reads and validates a TEST.toml file.
     pub fn load(path: &Path) -> Result<TestDescription, DataError> {
-        let text = std::fs::read_to_string(path).map_err(|source| DataError::Read {
+        let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| DataError::Read {
             path: path.to_path_buf(),
             source,
         })?;

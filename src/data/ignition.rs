@@ -475,7 +475,7 @@ struct RawPoint {
 impl IgnitionList {
     /// Reads and validates an ignition list.
     pub fn load(path: &Path) -> Result<IgnitionList, DataError> {
-        let text = std::fs::read_to_string(path).map_err(|source| DataError::Read {
+        let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| DataError::Read {
             path: path.to_path_buf(),
             source,
         })?;
