@@ -579,6 +579,7 @@ fn synthesize(args: SynthesizeArgs) -> Result<()> {
     if let Some(duration_s) = args.duration {
         check_duration(duration_s)?;
         loaded.scenario.duration_s = duration_s;
+        check_size_after_duration(&loaded.scenario)?;
     }
     for (name, value) in [
         ("--area-m2", args.area_m2),
@@ -629,7 +630,17 @@ fn check_duration(duration_s: f64) -> Result<()> {
     if !(duration_s > 0.0 && duration_s.is_finite()) {
         bail!("--duration must be > 0 s, got {duration_s}");
     }
+    let most = emberfit::case::budget::MAX_DURATION_S;
+    if duration_s > most {
+        bail!("--duration {duration_s} s is more than {most:e} s (11.6 days), the most simulated");
+    }
     Ok(())
+}
+
+/// The size check of a scenario whose duration was set by `--duration`.
+fn check_size_after_duration(scenario: &emberfit::physics::Scenario) -> Result<()> {
+    emberfit::case::budget::check_scenario_size(scenario)
+        .map_err(|size| anyhow::anyhow!("--duration {} s: {}", scenario.duration_s, size.problem))
 }
 
 fn simulate(args: SimulateArgs) -> Result<()> {
@@ -650,6 +661,7 @@ fn simulate(args: SimulateArgs) -> Result<()> {
     if let Some(duration_s) = args.duration {
         check_duration(duration_s)?;
         loaded.scenario.duration_s = duration_s;
+        check_size_after_duration(&loaded.scenario)?;
     }
     let history = run_simulation(&loaded.scenario)
         .with_context(|| format!("simulating {}", loaded.path.display()))?;
