@@ -383,6 +383,10 @@ pub struct ReduceArgs {
     /// (odd) before the derivative.
     #[arg(long, value_name = "POINTS")]
     pub smooth: Option<usize>,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]
@@ -400,6 +404,10 @@ pub struct IgnitionArgs {
     /// Print the analysis as one JSON object instead of a table.
     #[arg(long)]
     pub json: bool,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]
@@ -435,6 +443,10 @@ pub struct FitArgs {
     /// directory's fit.log; print the run directory and how to watch and stop it.
     #[arg(long, conflicts_with = "headless")]
     pub detach: bool,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]

@@ -240,6 +240,7 @@ fn fit(args: FitArgs) -> Result<()> {
     use std::sync::atomic::AtomicBool;
     use std::sync::Arc;
 
+    check_fit_data(&args)?;
     if args.detach {
         return fit_detached(&args);
     }
@@ -388,6 +389,17 @@ fn join_fit(
             "the fit stopped unexpectedly (a worker thread panicked); the last checkpoint is kept"
         ),
     }
+}
+
+/// Prints the plausibility warnings on a job's test data before the fit starts (the
+/// interface would hide them), and refuses them with `--strict`. A job that cannot be read is
+/// left to the fit, which reports it the same way.
+fn check_fit_data(args: &FitArgs) -> Result<()> {
+    if let Ok(job) = emberfit::fit::job::load_job(&args.job) {
+        refuse_warnings_when_strict(&job.warnings, args.strict)?;
+        print_notices(&job.warnings);
+    }
+    Ok(())
 }
 
 /// SIGTERM, and SIGHUP when the process has no terminal (a service manager, `kill PID`, a
@@ -819,6 +831,7 @@ fn reduce(args: ReduceArgs) -> Result<()> {
     };
     let reduced =
         reduce_test(&test).with_context(|| format!("reducing {}", test.source.display()))?;
+    refuse_warnings_when_strict(&reduced.notices, args.strict)?;
     if let Some(out) = &args.out {
         write_atomically(out, reduced_curves_csv(&reduced).as_bytes())
             .with_context(|| format!("writing {}", out.display()))?;
@@ -826,9 +839,7 @@ fn reduce(args: ReduceArgs) -> Result<()> {
     if args.json {
         println!("{}", report_json(&reduced));
     } else {
-        for notice in &reduced.notices {
-            eprintln!("note: {notice}");
-        }
+        print_notices(&reduced.notices);
         print!("{}", report_table(&reduced));
         if let Some(out) = &args.out {
             println!(
@@ -1062,6 +1073,7 @@ fn ignition(args: IgnitionArgs) -> Result<()> {
         let (points, notices) = points_from_tests(&args.inputs).context("reducing the tests")?;
         (points, notices, IgnitionSettings::default())
     };
+    refuse_warnings_when_strict(&notices, args.strict)?;
     points.sort_by(|a, b| a.irradiance_kw_m2.total_cmp(&b.irradiance_kw_m2));
     if let Some(t_c) = args.ignition_temperature_c {
         if !(50.0..=1500.0).contains(&t_c) {
@@ -1079,10 +1091,33 @@ fn ignition(args: IgnitionArgs) -> Result<()> {
     if args.json {
         println!("{}", ignition_json(&analysis, &notices));
     } else {
-        for notice in &notices {
-            eprintln!("note: {notice}");
-        }
+        print_notices(&notices);
         print!("{}", ignition_table(&analysis));
+    }
+    Ok(())
+}
+
+/// Prints repairs as `note:` and plausibility warnings as `warning:` lines on stderr.
+fn print_notices(notices: &[Notice]) {
+    use std::io::Write;
+    let mut err = std::io::stderr();
+    for notice in notices {
+        let _ = writeln!(err, "{}: {notice}", notice.label());
+    }
+}
+
+/// `--strict`: a plausibility warning on test data is an error.
+fn refuse_warnings_when_strict(notices: &[Notice], strict: bool) -> Result<()> {
+    let warnings: Vec<&str> = notices
+        .iter()
+        .filter(|n| n.is_warning)
+        .map(|n| n.message.as_str())
+        .collect();
+    if strict && !warnings.is_empty() {
+        bail!(
+            "--strict: the test data are implausible:\n  {}",
+            warnings.join("\n  ")
+        );
     }
     Ok(())
 }

@@ -365,6 +365,8 @@ pub struct FitJob {
     pub parameters: Vec<FreeParameter>,
     pub cases: Vec<FitCase>,
     pub settings: Settings,
+    /// Plausibility warnings on the cases' test data (see `data::plausibility`).
+    pub warnings: Vec<crate::data::Notice>,
 }
 
 /// Reads a fit job, its material and scenario, and reduces every test it names.
@@ -412,6 +414,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
     }
     let settings = build_settings(&source, &file.settings)?;
     let mut cases = Vec::new();
+    let mut warnings = Vec::new();
     for (idx, raw) in file.cases.iter().enumerate() {
         if let milligram::CaseKind::Milligram(declared) = milligram::case_kind(&source, idx, raw)? {
             cases.push(milligram::build_milligram_case(
@@ -436,6 +439,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
             base,
             scenario,
             settings.output_interval_s,
+            &mut warnings,
         )?);
     }
     Ok(FitJob {
@@ -446,6 +450,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
         parameters,
         cases,
         settings,
+        warnings,
     })
 }
 
@@ -912,6 +917,7 @@ fn build_case(
     base: &Path,
     scenario: &LoadedScenario,
     output_interval_s: f64,
+    warnings: &mut Vec<crate::data::Notice>,
 ) -> Result<FitCase, CaseError> {
     let key = |field: &str| format!("case[{idx}].{field}");
     if raw.tests.is_empty() {
@@ -939,6 +945,7 @@ fn build_case(
                 ),
             )
         })?;
+        warnings.extend(result.notices.iter().filter(|n| n.is_warning).cloned());
         reduced.push(result);
         test_files.push(test_path);
         test_files.push(description.data_file.clone());
