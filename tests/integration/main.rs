@@ -3,6 +3,7 @@
 mod cli;
 mod data;
 mod fit;
+mod hostile;
 mod microscale;
 mod milligram_fit;
 mod pmma_fit;
