@@ -3,6 +3,7 @@
 mod cli;
 mod data;
 mod fit;
+mod fuzz;
 mod hostile;
 mod microscale;
 mod milligram_fit;
