@@ -176,13 +176,13 @@ fn seed_text(path: &Path) -> Vec<u8> {
     bytes
 }
 
-/// One input: arbitrary bytes (1 in 16), or a seed with 1–4 mutations.
-pub fn make_input(rng: &mut ChaCha8Rng, seeds: &[Vec<u8>]) -> Vec<u8> {
+/// One input: arbitrary bytes (1 in 16), or seed `base` with 1–4 mutations.
+pub fn make_input(rng: &mut ChaCha8Rng, seeds: &[Vec<u8>], base: usize) -> Vec<u8> {
     if seeds.is_empty() || rng.gen_range(0..16) == 0 {
         let n = rng.gen_range(0..512);
         return (0..n).map(|_| rng.gen()).collect();
     }
-    let mut data = seeds[rng.gen_range(0..seeds.len())].clone();
+    let mut data = seeds[base % seeds.len()].clone();
     for _ in 0..rng.gen_range(1..=4) {
         mutate(rng, &mut data, seeds);
     }
@@ -340,9 +340,10 @@ pub fn fuzz_reader(reader: &Reader, n: u64, seed: u64, limit: Duration, scratch:
     let mut counts = Counts::default();
     let (mut jobs, mut outcomes) = start_worker(reader.read);
     for index in 0..n {
-        let input = make_input(&mut rng, &seeds);
-        // Where the input stands: beside a seed (so its relative paths resolve) or anywhere.
-        let folder = match reader.seeds.get(rng.gen_range(0..reader.seeds.len().max(1))) {
+        let base = rng.gen_range(0..reader.seeds.len().max(1));
+        let input = make_input(&mut rng, &seeds, base);
+        // Where the input stands: beside its seed, so its relative paths resolve.
+        let folder = match reader.seeds.get(base) {
             Some(seed) => scratch.join(seed.parent().unwrap_or(Path::new(""))),
             None => scratch.to_path_buf(),
         };

@@ -569,3 +569,68 @@ fn a_time_budget_in_the_global_stage_ends_with_a_summary() {
     assert!(stderr.contains("has no run.toml"), "{stderr}");
     std::fs::remove_dir_all(&runs).ok();
 }
+
+/// SIGTERM to a fit that shows the terminal interface (in tmux): the fit writes its outputs
+/// and the process ends by itself (it waited for `q` for ever). Skipped without tmux.
+#[test]
+fn sigterm_ends_a_fit_that_shows_the_interface() {
+    let found = Command::new("tmux")
+        .arg("-V")
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !found {
+        println!("skipped: tmux is not installed (the CI script installs it)");
+        return;
+    }
+    let runs = scratch("tui-sigterm");
+    let socket = format!("emberfit-hostile-{}", std::process::id());
+    let tmux = |args: &[&str]| -> String {
+        let output = Command::new("tmux")
+            .args(["-L", &socket, "-f", "/dev/null"])
+            .args(args)
+            .output()
+            .expect("tmux runs");
+        String::from_utf8_lossy(&output.stdout).into_owned()
+    };
+    let command = format!(
+        "exec {} fit {}/demo-cases/ridgeline-panel/fit.toml --threads 1 --max-evals 100000 \
+         --name shown --runs-dir {}",
+        env!("CARGO_BIN_EXE_emberfit"),
+        manifest().display(),
+        runs.display()
+    );
+    tmux(&["new-session", "-d", "-s", "fit", "-x", "100", "-y", "30", &command]);
+    let pid: u32 = tmux(&["display-message", "-p", "-t", "fit", "#{pane_pid}"])
+        .trim()
+        .parse()
+        .expect("a pane pid");
+    let run_dir = runs.join("shown");
+    let shown = wait_for(&run_dir.join("checkpoint.json"), Duration::from_secs(60));
+    let screen = tmux(&["capture-pane", "-p", "-t", "fit"]);
+    // SAFETY: signalling the fit this test started.
+    unsafe {
+        libc::kill(pid as libc::pid_t, libc::SIGTERM);
+    }
+    let started = Instant::now();
+    let mut ended = false;
+    while started.elapsed() < Duration::from_secs(120) {
+        // A zombie has finished too.
+        let alive = std::fs::read_to_string(format!("/proc/{pid}/stat")).is_ok_and(|stat| {
+            stat.rsplit(')')
+                .next()
+                .is_some_and(|rest| !rest.trim_start().starts_with('Z'))
+        });
+        if !alive {
+            ended = true;
+            break;
+        }
+        std::thread::sleep(Duration::from_millis(200));
+    }
+    tmux(&["kill-server"]);
+    assert!(shown, "the fit wrote no checkpoint; screen:\n{screen}");
+    assert!(ended, "the fit with its interface did not end after SIGTERM");
+    assert!(run_dir.join("summary.json").is_file(), "no summary.json");
+    assert!(run_dir.join("best.toml").is_file(), "no best.toml");
+    assert!(!run_dir.join("run.lock").exists(), "the lock is left behind");
+    std::fs::remove_dir_all(&runs).ok();
+}
