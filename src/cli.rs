@@ -241,7 +241,12 @@ pub struct ReportArgs {
     #[arg(long, value_name = "N", default_value_t = 100)]
     pub samples: usize,
     /// Central probability of the bands, percent.
-    #[arg(allow_negative_numbers = true, long, value_name = "PERCENT", default_value_t = 95.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "PERCENT",
+        default_value_t = 95.0
+    )]
     pub band: f64,
     /// Worker threads (default: all cores).
     #[arg(long, value_name = "N")]
@@ -262,16 +267,36 @@ pub struct SynthesizeArgs {
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// Exposed specimen area, m².
-    #[arg(allow_negative_numbers = true, long, value_name = "M2", default_value_t = 0.01)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "M2",
+        default_value_t = 0.01
+    )]
     pub area_m2: f64,
     /// Load-cell noise (standard deviation), g.
-    #[arg(allow_negative_numbers = true, long, value_name = "G", default_value_t = 0.05)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "G",
+        default_value_t = 0.05
+    )]
     pub mass_noise_g: f64,
     /// HRR noise (standard deviation), kW/m², on top of 3 % of the signal.
-    #[arg(allow_negative_numbers = true, long, value_name = "KW_M2", default_value_t = 2.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "KW_M2",
+        default_value_t = 2.0
+    )]
     pub hrr_noise_kw_m2: f64,
     /// Largest start-time offset of the logged clock, s (uniform in ±this).
-    #[arg(allow_negative_numbers = true, long, value_name = "S", default_value_t = 3.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "S",
+        default_value_t = 3.0
+    )]
     pub time_jitter_s: f64,
     /// Output CSV (`time_s,mass_g,hrr_kw_m2,surface_temperature_k,back_temperature_k`).
     #[arg(long, value_name = "FILE.csv")]
@@ -284,16 +309,36 @@ pub struct IsoconversionalArgs {
     #[arg(required = true, num_args = 2.., value_name = "FILE.csv")]
     pub files: Vec<PathBuf>,
     /// First conversion analysed, 0..1.
-    #[arg(allow_negative_numbers = true, long, default_value_t = 0.1, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.1,
+        value_name = "ALPHA"
+    )]
     pub from: f64,
     /// Last conversion analysed, 0..1.
-    #[arg(allow_negative_numbers = true, long, default_value_t = 0.9, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.9,
+        value_name = "ALPHA"
+    )]
     pub to: f64,
     /// Step between analysed conversions.
-    #[arg(allow_negative_numbers = true, long, default_value_t = 0.05, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.05,
+        value_name = "ALPHA"
+    )]
     pub step: f64,
     /// Warn when (max E − min E)/mean E exceeds this, percent (ICTAC: 10–20 % is significant).
-    #[arg(allow_negative_numbers = true, long, default_value_t = 20.0, value_name = "PERCENT")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 20.0,
+        value_name = "PERCENT"
+    )]
     pub max_spread: f64,
     /// Also fit one n-th order reaction (A, E, n) to all runs, starting from Kissinger's E and A.
     #[arg(long)]

@@ -252,7 +252,8 @@ fn fit(args: FitArgs) -> Result<()> {
         .then(|| emberfit::run::fingerprint::stored_threads(&args.runs_dir.join(&name)))
         .flatten();
     let threads = args.threads.or(stored_threads).unwrap_or_else(|| {
-        std::thread::available_parallelism().map_or(1, |n| n.get().min(emberfit::limits::max_threads()))
+        std::thread::available_parallelism()
+            .map_or(1, |n| n.get().min(emberfit::limits::max_threads()))
     });
     let threads = emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
     rayon::ThreadPoolBuilder::new()
@@ -1124,8 +1125,8 @@ fn refuse_warnings_when_strict(notices: &[Notice], strict: bool) -> Result<()> {
 
 /// Whether a single input is an ignition list (a TOML without `data_file`) rather than a test.
 fn is_ignition_list(path: &Path) -> Result<bool> {
-    let text =
-        emberfit::input::read_text(path, emberfit::input::InputKind::Toml).with_context(|| format!("cannot read {}", path.display()))?;
+    let text = emberfit::input::read_text(path, emberfit::input::InputKind::Toml)
+        .with_context(|| format!("cannot read {}", path.display()))?;
     let table: toml::Table =
         toml::from_str(&text).with_context(|| format!("cannot parse {}", path.display()))?;
     Ok(!table.contains_key("data_file"))

@@ -99,7 +99,12 @@ pub fn check_cone_signals(
     }
     if let Some(hrr) = &hrr {
         outliers(path, hrr, &mut notices);
-        let finite: Vec<f64> = hrr.values.iter().copied().filter(|v| v.is_finite()).collect();
+        let finite: Vec<f64> = hrr
+            .values
+            .iter()
+            .copied()
+            .filter(|v| v.is_finite())
+            .collect();
         let has_negative = finite.iter().any(|v| *v < 0.0);
         if has_negative && finite.iter().all(|v| *v <= 0.0) {
             notices.push(Notice::warning(format!(

@@ -103,10 +103,13 @@ pub struct Table {
 /// A cell that holds text where a number belongs is an error naming file, line and column; a
 /// blank cell becomes NaN and is counted in a notice.
 pub fn read_table(path: &Path, requests: &[ColumnRequest]) -> Result<Table, DataError> {
-    let bytes = crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| DataError::Read {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let bytes =
+        crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
+            DataError::Read {
+                path: path.to_path_buf(),
+                source,
+            }
+        })?;
     match String::from_utf8(bytes) {
         Ok(text) => parse_table(path, &text, requests),
         Err(err) => {
@@ -162,7 +165,11 @@ pub fn parse_table(
                     found.line_offset + 1
                 )));
             }
-            (&text[found.byte_offset..], found.line_offset, found.delimiter)
+            (
+                &text[found.byte_offset..],
+                found.line_offset,
+                found.delimiter,
+            )
         }
         None => {
             let first_line = text
@@ -600,7 +607,11 @@ fn find_header(text: &str, requests: &[ColumnRequest]) -> Option<HeaderRow> {
     }
     let need_all = requests.iter().any(|r| r.is_required);
     let mut byte_offset = 0;
-    for (index, line) in text.split_inclusive('\n').take(HEADER_SEARCH_LINES).enumerate() {
+    for (index, line) in text
+        .split_inclusive('\n')
+        .take(HEADER_SEARCH_LINES)
+        .enumerate()
+    {
         let delimiter = delimiter_of(line);
         let cells: Vec<String> = line
             .split(char::from(delimiter))

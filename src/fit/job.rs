@@ -871,25 +871,38 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
     };
     // Values that would end a run before it starts, or leave differential evolution without
     // the four distinct members one trial vector needs.
-    let at_least = |value: &Option<Spanned<i64>>, field: &str, least: i64, why: &str| {
-        match value {
-            Some(v) if *v.get_ref() < least => Err(source.invalid(
-                &v.span(),
-                &format!("settings.{field}"),
-                format!("must be at least {least} ({why}), got {}", v.get_ref()),
-            )),
-            _ => Ok(()),
-        }
+    let at_least = |value: &Option<Spanned<i64>>, field: &str, least: i64, why: &str| match value {
+        Some(v) if *v.get_ref() < least => Err(source.invalid(
+            &v.span(),
+            &format!("settings.{field}"),
+            format!("must be at least {least} ({why}), got {}", v.get_ref()),
+        )),
+        _ => Ok(()),
     };
-    at_least(&raw.max_evaluations, "max_evaluations", 1, "0 would stop before any simulation")?;
-    at_least(&raw.population, "population", 4, "each trial mixes four distinct members")?;
+    at_least(
+        &raw.max_evaluations,
+        "max_evaluations",
+        1,
+        "0 would stop before any simulation",
+    )?;
+    at_least(
+        &raw.population,
+        "population",
+        4,
+        "each trial mixes four distinct members",
+    )?;
     at_least(
         &raw.stagnation_generations,
         "stagnation_generations",
         1,
         "0 would stop after the first generation",
     )?;
-    at_least(&raw.local_starts, "local_starts", 1, "set `local_refinement = false` for none")?;
+    at_least(
+        &raw.local_starts,
+        "local_starts",
+        1,
+        "set `local_refinement = false` for none",
+    )?;
     Ok(Settings {
         max_evaluations: count(&raw.max_evaluations, "max_evaluations", 5000)?,
         time_budget,

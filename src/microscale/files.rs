@@ -152,10 +152,13 @@ fn kind_from_name(name: &str) -> Option<MeasurementKind> {
 /// further columns (error bands, other signals) are ignored. Rows with a blank cell in one of
 /// the three columns are skipped, and a notice says how many.
 pub fn read_thermogram(path: &Path) -> Result<Thermogram, MicroscaleError> {
-    let bytes = crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| MicroscaleError::Read {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let bytes =
+        crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
+            MicroscaleError::Read {
+                path: path.to_path_buf(),
+                source,
+            }
+        })?;
     parse_thermogram(path, &String::from_utf8_lossy(&bytes))
 }
 

@@ -160,7 +160,8 @@ pub fn is_milligram_scenario_text(text: &str) -> bool {
 /// Whether the file at `path` is a milligram-scale scenario (see
 /// [`is_milligram_scenario_text`]); false when it cannot be read.
 pub fn is_milligram_scenario(path: &Path) -> bool {
-    crate::input::read_text(path, crate::input::InputKind::Toml).is_ok_and(|text| is_milligram_scenario_text(&text))
+    crate::input::read_text(path, crate::input::InputKind::Toml)
+        .is_ok_and(|text| is_milligram_scenario_text(&text))
 }
 
 /// Runs the scenario's 0-D model.
@@ -194,9 +195,11 @@ pub fn zero_d_csv(history: &ZeroDHistory) -> Result<Vec<u8>, csv::Error> {
 
 /// Reads a milligram-scale scenario and its material file, and validates both.
 pub fn load_milligram_scenario(path: &Path) -> Result<MilligramScenario, MicroscaleError> {
-    let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| MicroscaleError::Read {
-        path: path.to_path_buf(),
-        source,
+    let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
+        MicroscaleError::Read {
+            path: path.to_path_buf(),
+            source,
+        }
     })?;
     milligram_scenario_from_str(path, &text)
 }

@@ -57,11 +57,8 @@ impl Overrides {
 
 /// The `--threads` a run was started with, from its run.toml (for `--resume` without one).
 pub fn stored_threads(run_dir: &std::path::Path) -> Option<usize> {
-    let text = crate::input::read_text(
-        &run_dir.join("run.toml"),
-        crate::input::InputKind::RunFile,
-    )
-    .ok()?;
+    let text = crate::input::read_text(&run_dir.join("run.toml"), crate::input::InputKind::RunFile)
+        .ok()?;
     let record: super::RunRecord = toml::from_str(&text).ok()?;
     record.overrides.threads
 }

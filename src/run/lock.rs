@@ -21,7 +21,11 @@ pub enum LockError {
          stop it first (kill -INT {pid}) or watch it (emberfit watch {})",
         dir.display(), lock.display(), dir.display()
     )]
-    Held { dir: PathBuf, lock: PathBuf, pid: u32 },
+    Held {
+        dir: PathBuf,
+        lock: PathBuf,
+        pid: u32,
+    },
     #[error("cannot take the lock {}", path.display())]
     Io {
         path: PathBuf,
@@ -98,39 +102,37 @@ pub fn acquire(run_dir: &Path) -> Result<(RunLock, Option<String>), LockError> {
                     .map_err(io_error)?;
                 return Ok((RunLock { path }, note));
             }
-            Err(err) if err.kind() == std::io::ErrorKind::AlreadyExists => {
-                match read_pid(&path) {
-                    Some(pid) if pid != std::process::id() && is_alive(pid) => {
-                        return Err(LockError::Held {
-                            dir: run_dir.to_path_buf(),
-                            lock: path,
-                            pid,
-                        });
-                    }
-                    holder => {
-                        note = Some(match holder {
-                            Some(pid) => format!(
-                                "took over the stale lock {} of pid {pid}, which is no longer \
-                                 running",
-                                path.display()
-                            ),
-                            None => format!(
-                                "took over the unreadable lock {} (no pid on its first line)",
-                                path.display()
-                            ),
-                        });
-                        std::fs::remove_file(&path)
-                            .or_else(|e| {
-                                if e.kind() == std::io::ErrorKind::NotFound {
-                                    Ok(())
-                                } else {
-                                    Err(e)
-                                }
-                            })
-                            .map_err(io_error)?;
-                    }
+            Err(err) if err.kind() == std::io::ErrorKind::AlreadyExists => match read_pid(&path) {
+                Some(pid) if pid != std::process::id() && is_alive(pid) => {
+                    return Err(LockError::Held {
+                        dir: run_dir.to_path_buf(),
+                        lock: path,
+                        pid,
+                    });
                 }
-            }
+                holder => {
+                    note = Some(match holder {
+                        Some(pid) => format!(
+                            "took over the stale lock {} of pid {pid}, which is no longer \
+                                 running",
+                            path.display()
+                        ),
+                        None => format!(
+                            "took over the unreadable lock {} (no pid on its first line)",
+                            path.display()
+                        ),
+                    });
+                    std::fs::remove_file(&path)
+                        .or_else(|e| {
+                            if e.kind() == std::io::ErrorKind::NotFound {
+                                Ok(())
+                            } else {
+                                Err(e)
+                            }
+                        })
+                        .map_err(io_error)?;
+                }
+            },
             Err(err) => return Err(io_error(err)),
         }
     }
@@ -157,7 +159,10 @@ mod tests {
         assert!(note.is_none());
         assert_eq!(holder_pid(&dir), Some(std::process::id()));
         let first = std::fs::read_to_string(lock_path(&dir)).unwrap();
-        assert_eq!(first.lines().next(), Some(std::process::id().to_string().as_str()));
+        assert_eq!(
+            first.lines().next(),
+            Some(std::process::id().to_string().as_str())
+        );
         drop(lock);
         assert!(!lock_path(&dir).exists());
         assert_eq!(holder_pid(&dir), None);

@@ -197,7 +197,8 @@ pub struct SummaryParameter {
 
 /// Reads a run's `summary.json` (e.g. for `prior_from` in a later job).
 pub fn read_summary(path: &Path) -> Result<RunSummary, RunError> {
-    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile).map_err(io("cannot read", path))?;
+    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
+        .map_err(io("cannot read", path))?;
     serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
         path: path.to_path_buf(),
         problem: e.to_string(),
@@ -218,7 +219,8 @@ pub struct RunOptions {
 
 /// SHA-256 of a file, as lower-case hex.
 pub fn sha256_hex(path: &Path) -> Result<String, RunError> {
-    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile).map_err(io("cannot read", path))?;
+    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
+        .map_err(io("cannot read", path))?;
     Ok(Sha256::digest(&bytes)
         .iter()
         .map(|b| format!("{b:02x}"))
@@ -458,7 +460,8 @@ pub fn run_fit(
     if let Some(seed) = options.seed {
         job.settings.seed = seed;
     }
-    let job_text = crate::input::read_text(job_path, crate::input::InputKind::Toml).map_err(io("cannot read", job_path))?;
+    let job_text = crate::input::read_text(job_path, crate::input::InputKind::Toml)
+        .map_err(io("cannot read", job_path))?;
     let start_text = crate::input::read_text(&job.material_path, crate::input::InputKind::Toml)
         .map_err(io("cannot read", &job.material_path))?;
     let mut hashes = std::collections::BTreeMap::new();

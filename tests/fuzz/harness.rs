@@ -137,7 +137,9 @@ pub fn readers() -> Vec<Reader> {
         },
         Reader {
             name: "TGA/DSC/MCC CSV (microscale::files)",
-            seeds: seeds(&["demo-cases"], ".csv", |t| t.contains('K') || t.contains("°C")),
+            seeds: seeds(&["demo-cases"], ".csv", |t| {
+                t.contains('K') || t.contains("°C")
+            }),
             writes_file: false,
             read: |path, text| emberfit::microscale::files::parse_thermogram(path, text).is_ok(),
         },
@@ -236,10 +238,16 @@ fn mutate(rng: &mut ChaCha8Rng, data: &mut Vec<u8>, seeds: &[Vec<u8>]) {
             // Splice a line from another seed (or this one) in at a line start.
             let donor = &seeds[rng.gen_range(0..seeds.len())];
             let starts = line_starts(donor);
-            if let (false, Some(&from)) = (starts.is_empty(), starts.get(rng.gen_range(0..starts.len().max(1)))) {
+            if let (false, Some(&from)) = (
+                starts.is_empty(),
+                starts.get(rng.gen_range(0..starts.len().max(1))),
+            ) {
                 let line = line_at(donor, from).to_vec();
                 let here = line_starts(data);
-                let at = here.get(rng.gen_range(0..here.len().max(1))).copied().unwrap_or(0);
+                let at = here
+                    .get(rng.gen_range(0..here.len().max(1)))
+                    .copied()
+                    .unwrap_or(0);
                 data.splice(at..at, line);
             }
         }
@@ -321,14 +329,14 @@ fn start_worker(read: fn(&Path, &str) -> bool) -> (mpsc::Sender<Job>, mpsc::Rece
     let spawned = std::thread::Builder::new()
         .name(WORKER_NAME.into())
         .spawn(move || {
-        for (path, bytes) in job_rx {
-            let text = String::from_utf8_lossy(&bytes).into_owned();
-            let outcome = std::panic::catch_unwind(AssertUnwindSafe(|| read(&path, &text)));
-            if out_tx.send(outcome).is_err() {
-                break;
+            for (path, bytes) in job_rx {
+                let text = String::from_utf8_lossy(&bytes).into_owned();
+                let outcome = std::panic::catch_unwind(AssertUnwindSafe(|| read(&path, &text)));
+                if out_tx.send(outcome).is_err() {
+                    break;
+                }
             }
-        }
-    });
+        });
     drop(spawned);
     (job_tx, out_rx)
 }

@@ -25,8 +25,14 @@ fn the_readers_survive_a_short_fuzz_run() {
             counts.hangs.len(),
             counts.slowest
         );
-        assert!(counts.inputs >= per_reader * 9 / 10, "{name}: too few inputs ran");
-        assert!(counts.refused > 0, "{name}: no input was refused: the mutator does nothing");
+        assert!(
+            counts.inputs >= per_reader * 9 / 10,
+            "{name}: too few inputs ran"
+        );
+        assert!(
+            counts.refused > 0,
+            "{name}: no input was refused: the mutator does nothing"
+        );
         problems.extend(counts.panics.iter().map(|p| format!("{name}: PANIC {p}")));
         problems.extend(counts.hangs.iter().map(|h| format!("{name}: HANG {h}")));
     }

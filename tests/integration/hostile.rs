@@ -29,12 +29,14 @@ fn emberfit() -> Command {
 }
 
 fn run(args: &[&str]) -> Output {
-    emberfit().args(args).output().expect("the emberfit binary runs")
+    emberfit()
+        .args(args)
+        .output()
+        .expect("the emberfit binary runs")
 }
 
 fn scratch(name: &str) -> PathBuf {
-    let dir =
-        std::env::temp_dir().join(format!("emberfit-hostile-{name}-{}", std::process::id()));
+    let dir = std::env::temp_dir().join(format!("emberfit-hostile-{name}-{}", std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).expect("temp dir");
     dir
@@ -132,7 +134,10 @@ fn every_bad_input_fixture_is_run_and_gives_its_stated_message() {
         };
         run_count += 1;
         claimed_by_runs.push_str(&std::fs::read_to_string(path).unwrap_or_default());
-        let output = emberfit().args(&expect.args).output().expect("emberfit runs");
+        let output = emberfit()
+            .args(&expect.args)
+            .output()
+            .expect("emberfit runs");
         let all = format!(
             "{}{}",
             String::from_utf8_lossy(&output.stdout),
@@ -195,7 +200,10 @@ fn every_bad_input_fixture_is_run_and_gives_its_stated_message() {
         "fixtures no test runs (give each a `# expect:` header): {unclaimed:?}"
     );
     assert!(failures.is_empty(), "{}", failures.join("\n\n"));
-    assert!(run_count >= 25, "only {run_count} fixtures carry expectations");
+    assert!(
+        run_count >= 25,
+        "only {run_count} fixtures carry expectations"
+    );
     // A fixture that was refused left no run behind.
     assert_eq!(std::fs::read_dir(&runs).map(|d| d.count()).unwrap_or(0), 0);
     std::fs::remove_dir_all(&runs).ok();
@@ -241,10 +249,7 @@ fn a_fifo_a_device_and_a_directory_are_refused_at_once() {
             vec!["simulate", "/dev/zero"],
             "cannot read /dev/zero: it is a character device",
         ),
-        (
-            vec!["reduce", "/dev/zero"],
-            "it is a character device",
-        ),
+        (vec!["reduce", "/dev/zero"], "it is a character device"),
         (vec!["simulate", "tests"], "it is a directory"),
     ];
     for (args, expected) in cases {
@@ -252,9 +257,15 @@ fn a_fifo_a_device_and_a_directory_are_refused_at_once() {
         let output = run(&args);
         let stderr = String::from_utf8_lossy(&output.stderr);
         assert_eq!(output.status.code(), Some(1), "{args:?}: {stderr}");
-        assert!(stderr.contains(expected), "{args:?}: expected `{expected}` in {stderr}");
+        assert!(
+            stderr.contains(expected),
+            "{args:?}: expected `{expected}` in {stderr}"
+        );
         assert!(!stderr.contains("panicked"), "{stderr}");
-        assert!(started.elapsed() < Duration::from_secs(20), "{args:?} took too long");
+        assert!(
+            started.elapsed() < Duration::from_secs(20),
+            "{args:?} took too long"
+        );
     }
     std::fs::remove_dir_all(&dir).ok();
 }
@@ -268,35 +279,91 @@ fn command_line_values_are_bounded_and_named() {
     let job = "demo-cases/ridgeline-panel/fit.toml";
     let cases: [(Vec<&str>, &str); 8] = [
         (
-            vec!["fit", job, "--headless", "--threads", "10000", "--runs-dir", runs_arg],
+            vec![
+                "fit",
+                job,
+                "--headless",
+                "--threads",
+                "10000",
+                "--runs-dir",
+                runs_arg,
+            ],
             "--threads 10000 is more than",
         ),
         (
-            vec!["fit", job, "--headless", "--name", "../x", "--runs-dir", runs_arg],
+            vec![
+                "fit",
+                job,
+                "--headless",
+                "--name",
+                "../x",
+                "--runs-dir",
+                runs_arg,
+            ],
             "run name `../x` contains a path separator",
         ),
         (
-            vec!["fit", job, "--headless", "--name", "/tmp/x", "--runs-dir", runs_arg],
+            vec![
+                "fit",
+                job,
+                "--headless",
+                "--name",
+                "/tmp/x",
+                "--runs-dir",
+                runs_arg,
+            ],
             "run name `/tmp/x` contains a path separator",
         ),
         (
-            vec!["fit", job, "--headless", "--name", "a/b/c", "--runs-dir", runs_arg],
+            vec![
+                "fit",
+                job,
+                "--headless",
+                "--name",
+                "a/b/c",
+                "--runs-dir",
+                runs_arg,
+            ],
             "contains a path separator",
         ),
         (
-            vec!["fit", job, "--headless", "--name", "", "--runs-dir", runs_arg],
+            vec![
+                "fit",
+                job,
+                "--headless",
+                "--name",
+                "",
+                "--runs-dir",
+                runs_arg,
+            ],
             "run name `` is empty",
         ),
         (
-            vec!["simulate", "demo-cases/ridgeline-panel/scenario.toml", "--flux", "-5"],
+            vec![
+                "simulate",
+                "demo-cases/ridgeline-panel/scenario.toml",
+                "--flux",
+                "-5",
+            ],
             "--flux must be within 0..500 kW/m², got -5",
         ),
         (
-            vec!["simulate", "demo-cases/ridgeline-panel/scenario.toml", "--duration", "1e12"],
+            vec![
+                "simulate",
+                "demo-cases/ridgeline-panel/scenario.toml",
+                "--duration",
+                "1e12",
+            ],
             "--duration 1000000000000 s is more than 1e6 s",
         ),
         (
-            vec!["predict", "models/thermoplastic.toml", "demo-cases/ridgeline-panel/scenario.toml", "--threads", "100000"],
+            vec![
+                "predict",
+                "models/thermoplastic.toml",
+                "demo-cases/ridgeline-panel/scenario.toml",
+                "--threads",
+                "100000",
+            ],
             "--threads 100000 is more than",
         ),
     ];
@@ -304,7 +371,10 @@ fn command_line_values_are_bounded_and_named() {
         let output = run(&args);
         let stderr = String::from_utf8_lossy(&output.stderr);
         assert_eq!(output.status.code(), Some(1), "{args:?}: {stderr}");
-        assert!(stderr.contains(expected), "{args:?}: expected `{expected}` in {stderr}");
+        assert!(
+            stderr.contains(expected),
+            "{args:?}: expected `{expected}` in {stderr}"
+        );
         assert!(!stderr.contains("panicked"), "{stderr}");
     }
     assert_eq!(std::fs::read_dir(&runs).map(|d| d.count()).unwrap_or(0), 0);
@@ -315,7 +385,12 @@ fn command_line_values_are_bounded_and_named() {
 #[test]
 fn a_closed_pipe_is_a_quiet_exit() {
     for args in [
-        vec!["simulate", "demo-cases/ridgeline-panel/scenario.toml", "--duration", "60"],
+        vec![
+            "simulate",
+            "demo-cases/ridgeline-panel/scenario.toml",
+            "--duration",
+            "60",
+        ],
         vec!["reduce", "demo-cases/ridgeline-panel/harbour-lab-50kw.toml"],
         vec!["--help"],
     ] {
@@ -372,7 +447,10 @@ fn a_fit_into_a_closed_pipe_still_writes_its_outputs() {
     for file in ["summary.json", "best.toml", "parameters.csv"] {
         assert!(runs.join("piped").join(file).is_file(), "{file} missing");
     }
-    assert!(!runs.join("piped/run.lock").exists(), "the lock is left behind");
+    assert!(
+        !runs.join("piped/run.lock").exists(),
+        "the lock is left behind"
+    );
     std::fs::remove_dir_all(&runs).ok();
 }
 
@@ -473,7 +551,12 @@ fn sigterm_lock_and_fingerprint_keep_the_run() {
     let mut resumed = start_fit(&runs, "held", &["--resume", "--time", "2s"]);
     let status = resumed.wait().unwrap();
     let mut err = String::new();
-    resumed.stderr.take().unwrap().read_to_string(&mut err).unwrap();
+    resumed
+        .stderr
+        .take()
+        .unwrap()
+        .read_to_string(&mut err)
+        .unwrap();
     assert_eq!(status.code(), Some(0), "{err}");
     let log = std::fs::read_to_string(dir.join("fit.log")).unwrap_or_default();
     assert!(log.contains("took over the stale lock"), "{log}");
@@ -483,20 +566,32 @@ fn sigterm_lock_and_fingerprint_keep_the_run() {
         .filter(|l| l.contains("\"started\""))
         .last()
         .unwrap();
-    assert!(last_start.contains("\"max_evaluations\":100000"), "{last_start}");
+    assert!(
+        last_start.contains("\"max_evaluations\":100000"),
+        "{last_start}"
+    );
 
     // Another job file on the same run is refused, naming both.
     let other = runs.join("other-job.toml");
     let text = std::fs::read_to_string(manifest().join("demo-cases/ridgeline-panel/fit.toml"))
         .unwrap()
-        .replace("../../models/", &format!("{}/models/", manifest().display()))
+        .replace(
+            "../../models/",
+            &format!("{}/models/", manifest().display()),
+        )
         .replace(
             "harbour-lab-",
-            &format!("{}/demo-cases/ridgeline-panel/harbour-lab-", manifest().display()),
+            &format!(
+                "{}/demo-cases/ridgeline-panel/harbour-lab-",
+                manifest().display()
+            ),
         )
         .replace(
             "scenario.toml",
-            &format!("{}/demo-cases/ridgeline-panel/scenario.toml", manifest().display()),
+            &format!(
+                "{}/demo-cases/ridgeline-panel/scenario.toml",
+                manifest().display()
+            ),
         );
     std::fs::write(&other, format!("{text}\n# changed\n")).unwrap();
     let refused = run(&[
@@ -599,7 +694,17 @@ fn sigterm_ends_a_fit_that_shows_the_interface() {
         manifest().display(),
         runs.display()
     );
-    tmux(&["new-session", "-d", "-s", "fit", "-x", "100", "-y", "30", &command]);
+    tmux(&[
+        "new-session",
+        "-d",
+        "-s",
+        "fit",
+        "-x",
+        "100",
+        "-y",
+        "30",
+        &command,
+    ]);
     let pid: u32 = tmux(&["display-message", "-p", "-t", "fit", "#{pane_pid}"])
         .trim()
         .parse()
@@ -628,9 +733,15 @@ fn sigterm_ends_a_fit_that_shows_the_interface() {
     }
     tmux(&["kill-server"]);
     assert!(shown, "the fit wrote no checkpoint; screen:\n{screen}");
-    assert!(ended, "the fit with its interface did not end after SIGTERM");
+    assert!(
+        ended,
+        "the fit with its interface did not end after SIGTERM"
+    );
     assert!(run_dir.join("summary.json").is_file(), "no summary.json");
     assert!(run_dir.join("best.toml").is_file(), "no best.toml");
-    assert!(!run_dir.join("run.lock").exists(), "the lock is left behind");
+    assert!(
+        !run_dir.join("run.lock").exists(),
+        "the lock is left behind"
+    );
     std::fs::remove_dir_all(&runs).ok();
 }
