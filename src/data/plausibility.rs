@@ -42,7 +42,7 @@ fn outliers(path: &Path, column: &ColumnView<'_>, notices: &mut Vec<Notice>) {
     let floor = median.max(1e-9) * OUTLIER_FACTOR;
     let values = column.values;
     for (i, &value) in values.iter().enumerate() {
-        if !(value.abs() > floor) {
+        if value.is_nan() || value.abs() <= floor {
             continue;
         }
         let neighbour = [i.checked_sub(1), Some(i + 1)]

@@ -55,15 +55,9 @@ pub enum RunError {
     Name(String),
     #[error(transparent)]
     Lock(#[from] lock::LockError),
-    #[error("run {} was started with the job {started} (its copy is {}), and --resume was given {given}, whose content differs (SHA-256 {given_hash:.12}… against {started_hash:.12}…); resume with the job it started with, or start a new run", dir.display(), copy.display())]
-    OtherJob {
-        dir: PathBuf,
-        copy: PathBuf,
-        started: String,
-        started_hash: String,
-        given: String,
-        given_hash: String,
-    },
+    /// `--resume` was given another job than the run started with (both named).
+    #[error("{0}")]
+    OtherJob(String),
     #[error("{} changed since the run started (its SHA-256 differs); start a new run instead of resuming", .0)]
     Changed(String),
     #[error("cannot read {}: {problem}", path.display())]
@@ -676,14 +670,17 @@ fn resumed_options(
         None => sha256_hex(&dir.job())?,
     };
     if given_hash != started_hash {
-        return Err(RunError::OtherJob {
-            dir: dir.root.clone(),
-            copy: dir.job(),
-            started: record.job_path.clone(),
-            started_hash,
-            given: job_path.display().to_string(),
+        return Err(RunError::OtherJob(format!(
+            "run {} was started with the job {} (its copy is {}), and --resume was given {}, \
+             whose content differs (SHA-256 {:.12}… against {:.12}…); resume with the job it \
+             started with, or start a new run",
+            dir.root.display(),
+            record.job_path,
+            dir.job().display(),
+            job_path.display(),
             given_hash,
-        });
+            started_hash
+        )));
     }
     let given = fingerprint::Overrides {
         max_evaluations: options.max_evaluations,

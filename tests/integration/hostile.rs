@@ -563,8 +563,7 @@ fn sigterm_lock_and_fingerprint_keep_the_run() {
     let progress = std::fs::read_to_string(dir.join("progress.jsonl")).unwrap();
     let last_start = progress
         .lines()
-        .filter(|l| l.contains("\"started\""))
-        .last()
+        .rfind(|l| l.contains("\"started\""))
         .unwrap();
     assert!(
         last_start.contains("\"max_evaluations\":100000"),
