@@ -468,6 +468,7 @@ fn start_fit(runs: &Path, name: &str, extra: &[&str]) -> std::process::Child {
         ])
         .arg(runs)
         .args(extra)
+        .stdin(Stdio::null())
         .stdout(Stdio::piped())
         .stderr(Stdio::piped())
         .spawn()
@@ -742,5 +743,37 @@ fn sigterm_ends_a_fit_that_shows_the_interface() {
         !run_dir.join("run.lock").exists(),
         "the lock is left behind"
     );
+    std::fs::remove_dir_all(&runs).ok();
+}
+
+/// SIGHUP to a fit without a terminal (stdin, stdout and stderr are pipes, as under a service
+/// manager) ends it after it writes its outputs, like SIGTERM.
+#[test]
+fn sighup_without_a_terminal_ends_the_fit_with_its_outputs() {
+    let runs = scratch("sighup-runs");
+    let dir = runs.join("hup");
+    let mut fit = start_fit(&runs, "hup", &["--max-evals", "100000"]);
+    assert!(
+        wait_for(&dir.join("checkpoint.json"), Duration::from_secs(60)),
+        "the fit wrote no checkpoint"
+    );
+    // SAFETY: signalling our own child.
+    unsafe {
+        libc::kill(fit.id() as libc::pid_t, libc::SIGHUP);
+    }
+    let started = Instant::now();
+    let status = loop {
+        if let Some(status) = fit.try_wait().unwrap() {
+            break status;
+        }
+        assert!(
+            started.elapsed() < Duration::from_secs(120),
+            "the fit did not exit after SIGHUP"
+        );
+        std::thread::sleep(Duration::from_millis(100));
+    };
+    assert_eq!(status.code(), Some(0));
+    assert!(dir.join("summary.json").is_file());
+    assert!(!dir.join("run.lock").exists());
     std::fs::remove_dir_all(&runs).ok();
 }
