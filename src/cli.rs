@@ -187,16 +187,16 @@ pub struct PredictArgs {
     /// Scenario file (TOML) whose specimen layers take the calibrated material.
     pub scenario: PathBuf,
     /// Constant irradiance, kW/m² (default: the scenario's).
-    #[arg(long, value_name = "KW_M2")]
+    #[arg(allow_negative_numbers = true, long, value_name = "KW_M2")]
     pub flux: Option<f64>,
     /// Thickness of the exposed specimen layer, mm (default: the scenario's).
-    #[arg(long, value_name = "MM")]
+    #[arg(allow_negative_numbers = true, long, value_name = "MM")]
     pub thickness_mm: Option<f64>,
     /// Simulated duration, s (default: the scenario's).
-    #[arg(long, value_name = "S")]
+    #[arg(allow_negative_numbers = true, long, value_name = "S")]
     pub duration: Option<f64>,
     /// Central probability of the uncertainty band, percent (e.g. 95); none: best fit only.
-    #[arg(long, value_name = "PERCENT")]
+    #[arg(allow_negative_numbers = true, long, value_name = "PERCENT")]
     pub band: Option<f64>,
     /// Parameter sets drawn for the band.
     #[arg(long, value_name = "N", default_value_t = 200)]
@@ -241,7 +241,12 @@ pub struct ReportArgs {
     #[arg(long, value_name = "N", default_value_t = 100)]
     pub samples: usize,
     /// Central probability of the bands, percent.
-    #[arg(long, value_name = "PERCENT", default_value_t = 95.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "PERCENT",
+        default_value_t = 95.0
+    )]
     pub band: f64,
     /// Worker threads (default: all cores).
     #[arg(long, value_name = "N")]
@@ -253,25 +258,45 @@ pub struct SynthesizeArgs {
     /// Scenario file (TOML) whose material plays the real specimen.
     pub scenario: PathBuf,
     /// Irradiance, kW/m² (default: the scenario's).
-    #[arg(long, value_name = "KW_M2")]
+    #[arg(allow_negative_numbers = true, long, value_name = "KW_M2")]
     pub flux: Option<f64>,
     /// Simulated duration, s (default: the scenario's).
-    #[arg(long, value_name = "S")]
+    #[arg(allow_negative_numbers = true, long, value_name = "S")]
     pub duration: Option<f64>,
     /// Seed of the noise generator.
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// Exposed specimen area, m².
-    #[arg(long, value_name = "M2", default_value_t = 0.01)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "M2",
+        default_value_t = 0.01
+    )]
     pub area_m2: f64,
     /// Load-cell noise (standard deviation), g.
-    #[arg(long, value_name = "G", default_value_t = 0.05)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "G",
+        default_value_t = 0.05
+    )]
     pub mass_noise_g: f64,
     /// HRR noise (standard deviation), kW/m², on top of 3 % of the signal.
-    #[arg(long, value_name = "KW_M2", default_value_t = 2.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "KW_M2",
+        default_value_t = 2.0
+    )]
     pub hrr_noise_kw_m2: f64,
     /// Largest start-time offset of the logged clock, s (uniform in ±this).
-    #[arg(long, value_name = "S", default_value_t = 3.0)]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        value_name = "S",
+        default_value_t = 3.0
+    )]
     pub time_jitter_s: f64,
     /// Output CSV (`time_s,mass_g,hrr_kw_m2,surface_temperature_k,back_temperature_k`).
     #[arg(long, value_name = "FILE.csv")]
@@ -284,16 +309,36 @@ pub struct IsoconversionalArgs {
     #[arg(required = true, num_args = 2.., value_name = "FILE.csv")]
     pub files: Vec<PathBuf>,
     /// First conversion analysed, 0..1.
-    #[arg(long, default_value_t = 0.1, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.1,
+        value_name = "ALPHA"
+    )]
     pub from: f64,
     /// Last conversion analysed, 0..1.
-    #[arg(long, default_value_t = 0.9, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.9,
+        value_name = "ALPHA"
+    )]
     pub to: f64,
     /// Step between analysed conversions.
-    #[arg(long, default_value_t = 0.05, value_name = "ALPHA")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 0.05,
+        value_name = "ALPHA"
+    )]
     pub step: f64,
     /// Warn when (max E − min E)/mean E exceeds this, percent (ICTAC: 10–20 % is significant).
-    #[arg(long, default_value_t = 20.0, value_name = "PERCENT")]
+    #[arg(
+        allow_negative_numbers = true,
+        long,
+        default_value_t = 20.0,
+        value_name = "PERCENT"
+    )]
     pub max_spread: f64,
     /// Also fit one n-th order reaction (A, E, n) to all runs, starting from Kissinger's E and A.
     #[arg(long)]
@@ -312,10 +357,10 @@ pub struct SimulateArgs {
     /// Scenario file (TOML): layers, exposure, ignition, back face; see docs/file-formats.md.
     pub scenario: PathBuf,
     /// Override the scenario's irradiance with a constant value, kW/m².
-    #[arg(long, value_name = "KW_M2")]
+    #[arg(allow_negative_numbers = true, long, value_name = "KW_M2")]
     pub flux: Option<f64>,
     /// Override the simulated duration, s.
-    #[arg(long, value_name = "S")]
+    #[arg(allow_negative_numbers = true, long, value_name = "S")]
     pub duration: Option<f64>,
     /// Use this material model (e.g. a fit's best.toml) for the specimen layers.
     #[arg(long, value_name = "MATERIAL.toml")]
@@ -340,10 +385,10 @@ pub struct ReduceArgs {
     pub out: Option<PathBuf>,
     /// CSV input only: exposed specimen area, m² (0.01 for a 100 mm square, 0.0088 with the
     /// ISO 5660-1 retainer frame).
-    #[arg(long, value_name = "M2")]
+    #[arg(allow_negative_numbers = true, long, value_name = "M2")]
     pub area_m2: Option<f64>,
     /// CSV input only: irradiance set on the heater, kW/m².
-    #[arg(long, value_name = "KW_M2")]
+    #[arg(allow_negative_numbers = true, long, value_name = "KW_M2")]
     pub flux_kw_m2: Option<f64>,
     /// CSV input only: name of the time column (default `time`, case ignored).
     #[arg(long, value_name = "NAME")]
@@ -364,7 +409,7 @@ pub struct ReduceArgs {
     #[arg(long, value_name = "UNIT")]
     pub hrr_unit: Option<String>,
     /// CSV input only: observed time to sustained ignition, s (default: detected from HRR).
-    #[arg(long, value_name = "S")]
+    #[arg(allow_negative_numbers = true, long, value_name = "S")]
     pub ignition_time_s: Option<f64>,
     /// CSV input only: added to the file's times so that 0 is the start of exposure, s.
     #[arg(long, value_name = "S", allow_hyphen_values = true)]
@@ -374,15 +419,19 @@ pub struct ReduceArgs {
     #[arg(long)]
     pub not_tared: bool,
     /// CSV input only: heat of combustion for the mass-loss estimate of HRR, MJ/kg.
-    #[arg(long, value_name = "MJ_KG")]
+    #[arg(allow_negative_numbers = true, long, value_name = "MJ_KG")]
     pub heat_of_combustion_mj_kg: Option<f64>,
     /// CSV input only: combustion efficiency for that estimate, 0–1 (default 1).
-    #[arg(long, value_name = "FRACTION")]
+    #[arg(allow_negative_numbers = true, long, value_name = "FRACTION")]
     pub combustion_efficiency: Option<f64>,
     /// CSV input only: smooth the mass (Savitzky–Golay, quadratic) over this many points
     /// (odd) before the derivative.
     #[arg(long, value_name = "POINTS")]
     pub smooth: Option<usize>,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]
@@ -400,6 +449,10 @@ pub struct IgnitionArgs {
     /// Print the analysis as one JSON object instead of a table.
     #[arg(long)]
     pub json: bool,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]
@@ -435,6 +488,10 @@ pub struct FitArgs {
     /// directory's fit.log; print the run directory and how to watch and stop it.
     #[arg(long, conflicts_with = "headless")]
     pub detach: bool,
+    /// Treat plausibility warnings on the test data (a mass far above `initial_mass_g`, an
+    /// HRR negative on every row, a single absurd cell) as errors.
+    #[arg(long)]
+    pub strict: bool,
 }
 
 #[derive(Debug, clap::Args)]

@@ -38,9 +38,7 @@ pub fn run(cli: Cli) -> Result<()> {
 
 fn start_threads(threads: Option<usize>) -> Result<()> {
     if let Some(threads) = threads {
-        if threads == 0 {
-            bail!("--threads must be at least 1");
-        }
+        let threads = emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
         rayon::ThreadPoolBuilder::new()
             .num_threads(threads)
             .build_global()
@@ -242,15 +240,22 @@ fn fit(args: FitArgs) -> Result<()> {
     use std::sync::atomic::AtomicBool;
     use std::sync::Arc;
 
+    check_fit_data(&args)?;
     if args.detach {
         return fit_detached(&args);
     }
-    let threads = args
-        .threads
-        .unwrap_or_else(|| std::thread::available_parallelism().map_or(1, |n| n.get()));
-    if threads == 0 {
-        bail!("--threads must be at least 1");
-    }
+    let name = run_name(&args);
+    emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
+    // A resumed run keeps the thread count it started with unless given another.
+    let stored_threads = args
+        .resume
+        .then(|| emberfit::run::fingerprint::stored_threads(&args.runs_dir.join(&name)))
+        .flatten();
+    let threads = args.threads.or(stored_threads).unwrap_or_else(|| {
+        std::thread::available_parallelism()
+            .map_or(1, |n| n.get().min(emberfit::limits::max_threads()))
+    });
+    let threads = emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
     rayon::ThreadPoolBuilder::new()
         .num_threads(threads)
         .build_global()
@@ -268,6 +273,7 @@ fn fit(args: FitArgs) -> Result<()> {
     let stop = Arc::new(AtomicBool::new(false));
     let pause = Arc::new(AtomicBool::new(false));
     let hangup = Arc::new(AtomicBool::new(false));
+    let terminated = Arc::new(AtomicBool::new(false));
     // First SIGINT/SIGTERM: stop cleanly after this generation; a second one exits at once.
     // SIGHUP (a closed terminal or a dropped SSH link) does not stop the fit: it only tells
     // the interface that the terminal is gone.
@@ -279,7 +285,8 @@ fn fit(args: FitArgs) -> Result<()> {
     }
     signal_hook::flag::register(signal_hook::consts::SIGHUP, Arc::clone(&hangup))
         .context("installing the signal handlers")?;
-    let name = run_name(&args);
+    // After the handlers above, so a first SIGTERM is not taken for a second one.
+    install_end_signals(&stop, &hangup, &terminated)?;
     let options = emberfit::run::RunOptions {
         runs_root: args.runs_dir.clone(),
         name: Some(name.clone()),
@@ -309,6 +316,16 @@ fn fit(args: FitArgs) -> Result<()> {
                 let report = join_fit(worker)?;
                 print!("{}", fit_summary_table(&report.summary));
                 println!("run directory: {}", report.directory.display());
+                return Ok(());
+            }
+            Ok(emberfit::tui::ViewerEnd::TerminalLost)
+                if terminated.load(std::sync::atomic::Ordering::SeqCst) =>
+            {
+                // SIGTERM (or SIGHUP without a terminal): the interface has left, the fit
+                // writes its outputs, and the process ends.
+                let report = join_fit(worker)?;
+                tell(&fit_summary_table(&report.summary));
+                tell(&format!("run directory: {}", report.directory.display()));
                 return Ok(());
             }
             Ok(emberfit::tui::ViewerEnd::TerminalLost) => {
@@ -375,6 +392,44 @@ fn join_fit(
     }
 }
 
+/// Prints the plausibility warnings on a job's test data before the fit starts (the
+/// interface would hide them), and refuses them with `--strict`. A job that cannot be read is
+/// left to the fit, which reports it the same way.
+fn check_fit_data(args: &FitArgs) -> Result<()> {
+    if let Ok(job) = emberfit::fit::job::load_job(&args.job) {
+        refuse_warnings_when_strict(&job.warnings, args.strict)?;
+        print_notices(&job.warnings);
+    }
+    Ok(())
+}
+
+/// SIGTERM, and SIGHUP when the process has no terminal (a service manager, `kill PID`, a
+/// detached fit): stop after this iteration, write the outputs and end the process — also
+/// when the interface is shown (its loop leaves on the `hangup` flag). SIGINT/SIGTERM twice
+/// exits at once (installed with the other handlers in `fit`).
+fn install_end_signals(
+    stop: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+    hangup: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+    terminated: &std::sync::Arc<std::sync::atomic::AtomicBool>,
+) -> Result<()> {
+    use std::io::IsTerminal;
+    use std::sync::Arc;
+    let mut ending = vec![signal_hook::consts::SIGTERM];
+    let has_terminal = std::io::stdin().is_terminal()
+        || std::io::stdout().is_terminal()
+        || std::io::stderr().is_terminal();
+    if !has_terminal {
+        ending.push(signal_hook::consts::SIGHUP);
+    }
+    for signal in ending {
+        for flag in [stop, hangup, terminated] {
+            signal_hook::flag::register(signal, Arc::clone(flag))
+                .context("installing the signal handlers")?;
+        }
+    }
+    Ok(())
+}
+
 /// `fit --detach`: the same fit, headless, in a background process with its own session (so
 /// a closed terminal or a dropped SSH link sends it no hang-up), its output in `fit.log`.
 fn fit_detached(args: &FitArgs) -> Result<()> {
@@ -384,6 +439,10 @@ fn fit_detached(args: &FitArgs) -> Result<()> {
     // Refuse a bad job here, where the user can see the message.
     emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
     let name = run_name(args);
+    emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
+    if let Some(threads) = args.threads {
+        emberfit::limits::check_threads(threads).map_err(anyhow::Error::msg)?;
+    }
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
     if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
         bail!(
@@ -533,6 +592,7 @@ fn synthesize(args: SynthesizeArgs) -> Result<()> {
     if let Some(duration_s) = args.duration {
         check_duration(duration_s)?;
         loaded.scenario.duration_s = duration_s;
+        check_size_after_duration(&loaded.scenario)?;
     }
     for (name, value) in [
         ("--area-m2", args.area_m2),
@@ -583,7 +643,17 @@ fn check_duration(duration_s: f64) -> Result<()> {
     if !(duration_s > 0.0 && duration_s.is_finite()) {
         bail!("--duration must be > 0 s, got {duration_s}");
     }
+    let most = emberfit::case::budget::MAX_DURATION_S;
+    if duration_s > most {
+        bail!("--duration {duration_s} s is more than {most:e} s (11.6 days), the most simulated");
+    }
     Ok(())
+}
+
+/// The size check of a scenario whose duration was set by `--duration`.
+fn check_size_after_duration(scenario: &emberfit::physics::Scenario) -> Result<()> {
+    emberfit::case::budget::check_scenario_size(scenario)
+        .map_err(|size| anyhow::anyhow!("--duration {} s: {}", scenario.duration_s, size.problem))
 }
 
 fn simulate(args: SimulateArgs) -> Result<()> {
@@ -604,6 +674,7 @@ fn simulate(args: SimulateArgs) -> Result<()> {
     if let Some(duration_s) = args.duration {
         check_duration(duration_s)?;
         loaded.scenario.duration_s = duration_s;
+        check_size_after_duration(&loaded.scenario)?;
     }
     let history = run_simulation(&loaded.scenario)
         .with_context(|| format!("simulating {}", loaded.path.display()))?;
@@ -761,6 +832,7 @@ fn reduce(args: ReduceArgs) -> Result<()> {
     };
     let reduced =
         reduce_test(&test).with_context(|| format!("reducing {}", test.source.display()))?;
+    refuse_warnings_when_strict(&reduced.notices, args.strict)?;
     if let Some(out) = &args.out {
         write_atomically(out, reduced_curves_csv(&reduced).as_bytes())
             .with_context(|| format!("writing {}", out.display()))?;
@@ -768,9 +840,7 @@ fn reduce(args: ReduceArgs) -> Result<()> {
     if args.json {
         println!("{}", report_json(&reduced));
     } else {
-        for notice in &reduced.notices {
-            eprintln!("note: {notice}");
-        }
+        print_notices(&reduced.notices);
         print!("{}", report_table(&reduced));
         if let Some(out) = &args.out {
             println!(
@@ -1004,6 +1074,7 @@ fn ignition(args: IgnitionArgs) -> Result<()> {
         let (points, notices) = points_from_tests(&args.inputs).context("reducing the tests")?;
         (points, notices, IgnitionSettings::default())
     };
+    refuse_warnings_when_strict(&notices, args.strict)?;
     points.sort_by(|a, b| a.irradiance_kw_m2.total_cmp(&b.irradiance_kw_m2));
     if let Some(t_c) = args.ignition_temperature_c {
         if !(50.0..=1500.0).contains(&t_c) {
@@ -1021,18 +1092,41 @@ fn ignition(args: IgnitionArgs) -> Result<()> {
     if args.json {
         println!("{}", ignition_json(&analysis, &notices));
     } else {
-        for notice in &notices {
-            eprintln!("note: {notice}");
-        }
+        print_notices(&notices);
         print!("{}", ignition_table(&analysis));
+    }
+    Ok(())
+}
+
+/// Prints repairs as `note:` and plausibility warnings as `warning:` lines on stderr.
+fn print_notices(notices: &[Notice]) {
+    use std::io::Write;
+    let mut err = std::io::stderr();
+    for notice in notices {
+        let _ = writeln!(err, "{}: {notice}", notice.label());
+    }
+}
+
+/// `--strict`: a plausibility warning on test data is an error.
+fn refuse_warnings_when_strict(notices: &[Notice], strict: bool) -> Result<()> {
+    let warnings: Vec<&str> = notices
+        .iter()
+        .filter(|n| n.is_warning)
+        .map(|n| n.message.as_str())
+        .collect();
+    if strict && !warnings.is_empty() {
+        bail!(
+            "--strict: the test data are implausible:\n  {}",
+            warnings.join("\n  ")
+        );
     }
     Ok(())
 }
 
 /// Whether a single input is an ignition list (a TOML without `data_file`) rather than a test.
 fn is_ignition_list(path: &Path) -> Result<bool> {
-    let text =
-        std::fs::read_to_string(path).with_context(|| format!("cannot read {}", path.display()))?;
+    let text = emberfit::input::read_text(path, emberfit::input::InputKind::Toml)
+        .with_context(|| format!("cannot read {}", path.display()))?;
     let table: toml::Table =
         toml::from_str(&text).with_context(|| format!("cannot parse {}", path.display()))?;
     Ok(!table.contains_key("data_file"))

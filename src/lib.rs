@@ -6,6 +6,8 @@ pub mod data;
 pub mod export;
 pub mod fit;
 pub mod headless;
+pub mod input;
+pub mod limits;
 pub mod microscale;
 pub mod physics;
 pub mod predict;

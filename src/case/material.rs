@@ -227,6 +227,19 @@ pub(crate) fn build_material(source: &Source, file: &MaterialFile) -> Result<Mat
         let key = |field: &str| format!("reaction[{idx}].{field}");
         let reactant = find(&raw.from, &key("from"))?;
         let product = raw.to.as_ref().map(|to| find(to, &key("to"))).transpose()?;
+        if let (Some(product), Some(to)) = (product, &raw.to) {
+            if product == reactant {
+                return Err(source.invalid(
+                    &to.span(),
+                    &key("to"),
+                    format!(
+                        "`{}` is the reaction's own reactant (`from`); a product must be \
+                         another component",
+                        to.get_ref()
+                    ),
+                ));
+            }
+        }
         let product_yield = match (&product, &raw.product_yield) {
             (Some(_), Some(value)) => source.fraction(value, &key("yield"))?,
             (Some(_), None) => {
@@ -291,7 +304,87 @@ pub(crate) fn build_material(source: &Source, file: &MaterialFile) -> Result<Mat
             },
         });
     }
+    check_no_cycle(source, file, &reactions)?;
     Material::new(components, reactions).map_err(|err| source.inconsistent(err.to_string()))
+}
+
+/// A chain of reactions that leads back to its first reactant (a → b → a) cannot be advanced
+/// once per step: refused, naming the components in order and the line of each reaction.
+fn check_no_cycle(
+    source: &Source,
+    file: &MaterialFile,
+    reactions: &[Reaction],
+) -> Result<(), CaseError> {
+    // Depth-first search over components along reactant → product edges (one per reaction);
+    // `stack` holds the reactions on the current path.
+    fn visit(
+        component: usize,
+        reactions: &[Reaction],
+        state: &mut [u8],
+        stack: &mut Vec<usize>,
+    ) -> Option<Vec<usize>> {
+        state[component] = 1;
+        for (r, reaction) in reactions.iter().enumerate() {
+            let (true, Some(product)) = (reaction.reactant == component, reaction.product) else {
+                continue;
+            };
+            stack.push(r);
+            if state[product] == 1 {
+                // The cycle is the part of the path from the reaction leaving `product`.
+                let begin = stack
+                    .iter()
+                    .position(|&s| reactions[s].reactant == product)
+                    .unwrap_or(0);
+                return Some(stack[begin..].to_vec());
+            }
+            if state[product] == 0 {
+                if let Some(cycle) = visit(product, reactions, state, stack) {
+                    return Some(cycle);
+                }
+            }
+            stack.pop();
+        }
+        state[component] = 2;
+        None
+    }
+    let n_components = reactions
+        .iter()
+        .flat_map(|r| [Some(r.reactant), r.product])
+        .flatten()
+        .max()
+        .map_or(0, |m| m + 1);
+    let mut state = vec![0u8; n_components];
+    for component in 0..n_components {
+        if state[component] != 0 {
+            continue;
+        }
+        let mut stack = Vec::new();
+        if let Some(cycle) = visit(component, reactions, &mut state, &mut stack) {
+            let chain: Vec<String> = cycle
+                .iter()
+                .map(|&r| {
+                    let raw = &file.reactions[r];
+                    format!(
+                        "reaction[{r}] (line {}) `{}` → `{}`",
+                        source.line(&raw.from.span()),
+                        raw.from.get_ref(),
+                        raw.to.as_ref().map_or("", |t| t.get_ref().as_str())
+                    )
+                })
+                .collect();
+            let first = cycle[0];
+            return Err(source.invalid(
+                &file.reactions[first].from.span(),
+                &format!("reaction[{first}].from"),
+                format!(
+                    "starts a cycle of reactions: {}; a component cannot be, through its \
+                     products, its own reactant",
+                    chain.join(", ")
+                ),
+            ));
+        }
+    }
+    Ok(())
 }
 
 fn property(

@@ -3,6 +3,7 @@
 //! key; validation then builds the SI types of `physics`. The file formats are documented key
 //! by key in docs/file-formats.md.
 
+pub mod budget;
 mod error;
 pub mod material;
 pub mod scenario;

@@ -624,6 +624,27 @@ fn build_scenario(
     {
         apply_calibration(&mut scenario, &calibration.scenario);
     }
+    if let Err(size) = super::budget::check_scenario_size(&scenario) {
+        use super::budget::Culprit;
+        let duration_span = file.duration_s.span();
+        let (span, key) = match size.culprit {
+            Culprit::Duration => (duration_span, "duration_s"),
+            Culprit::OutputInterval => (
+                file.output_interval_s
+                    .as_ref()
+                    .map_or(duration_span, |v| v.span()),
+                "output_interval_s",
+            ),
+            Culprit::MaxStep => (
+                file.numerics
+                    .max_step_s
+                    .as_ref()
+                    .map_or(duration_span, |v| v.span()),
+                "numerics.max_step_s",
+            ),
+        };
+        return Err(source.invalid(&span, key, size.problem));
+    }
     scenario
         .check()
         .map_err(|err| source.inconsistent(err.to_string()))?;

@@ -15,10 +15,13 @@ pub(crate) struct Source {
 
 impl Source {
     pub fn read(path: &Path) -> Result<Self, CaseError> {
-        let text = std::fs::read_to_string(path).map_err(|source| CaseError::Read {
-            path: path.to_path_buf(),
-            source,
-        })?;
+        let text =
+            crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
+                CaseError::Read {
+                    path: path.to_path_buf(),
+                    source,
+                }
+            })?;
         Ok(Source {
             path: path.to_path_buf(),
             text,

@@ -240,7 +240,7 @@ struct RawDescription {
     thickness_mm: Option<Spanned<f64>>,
     #[serde(default)]
     layers: Vec<RawLayer>,
-    time_offset_s: Option<f64>,
+    time_offset_s: Option<Spanned<f64>>,
     ignition_time_s: Option<Spanned<f64>>,
     mass_is_tared: Option<bool>,
     #[serde(default)]
@@ -435,10 +435,13 @@ pub fn saturation_vapour_pressure_pa(temperature_c: f64) -> f64 {
 impl TestDescription {
     /// Reads and validates a TEST.toml file.
     pub fn load(path: &Path) -> Result<TestDescription, DataError> {
-        let text = std::fs::read_to_string(path).map_err(|source| DataError::Read {
-            path: path.to_path_buf(),
-            source,
-        })?;
+        let text =
+            crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
+                DataError::Read {
+                    path: path.to_path_buf(),
+                    source,
+                }
+            })?;
         Self::parse(path, &text)
     }
 
@@ -768,7 +771,12 @@ impl TestDescription {
             initial_mass_g,
             thickness_mm,
             layers,
-            time_offset_s: raw.time_offset_s.unwrap_or(0.0),
+            // A test lasts hours at most: an offset past 1e6 s (11.6 days) is a typo, and it
+            // would ask the fit for a simulation of that length.
+            time_offset_s: match &raw.time_offset_s {
+                Some(v) => check.within(v, "time_offset_s", -1e6, 1e6)?,
+                None => 0.0,
+            },
             ignition_time_s,
             is_mass_tared: raw.mass_is_tared.unwrap_or(true),
             ambient,

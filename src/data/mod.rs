@@ -12,6 +12,7 @@ pub mod derivative;
 pub mod description;
 pub mod ignition;
 pub mod oxygen;
+pub mod plausibility;
 pub mod reduce;
 pub mod repeats;
 pub mod report;
@@ -29,6 +30,9 @@ pub use reduce::{reduce, Reduced};
 pub struct Notice {
     /// What was done and why, in one lower-case sentence that names the file or column.
     pub message: String,
+    /// A plausibility warning (a value a real test cannot have; see `plausibility`) rather
+    /// than a repair: printed as `warning:`, an error with `--strict`.
+    pub is_warning: bool,
 }
 
 impl Notice {
@@ -36,6 +40,24 @@ impl Notice {
     pub fn new(message: impl Into<String>) -> Self {
         Notice {
             message: message.into(),
+            is_warning: false,
+        }
+    }
+
+    /// Makes a plausibility warning.
+    pub fn warning(message: impl Into<String>) -> Self {
+        Notice {
+            message: message.into(),
+            is_warning: true,
+        }
+    }
+
+    /// `warning` or `note`, the word a command prints before the message.
+    pub fn label(&self) -> &'static str {
+        if self.is_warning {
+            "warning"
+        } else {
+            "note"
         }
     }
 }

@@ -252,6 +252,27 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
                 .to_string(),
         });
     }
+    let kept_lines = &row_lines[first..=last];
+    fn view<'a>(
+        signal: &'a Option<(Vec<f64>, String, String)>,
+        lines: &'a [usize],
+    ) -> Option<super::plausibility::ColumnView<'a>> {
+        signal
+            .as_ref()
+            .map(|(values, unit, header)| super::plausibility::ColumnView {
+                header: header.as_str(),
+                unit: unit.as_str(),
+                values: values.as_slice(),
+                lines,
+            })
+    }
+    notices.extend(super::plausibility::check_cone_signals(
+        &path,
+        &test.source,
+        view(&signals[0], kept_lines),
+        view(&signals[1], kept_lines),
+        test.initial_mass_g,
+    ));
     let mut signals = signals.into_iter();
     let mut next = || signals.next().flatten();
     let mass = next();

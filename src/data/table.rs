@@ -103,10 +103,13 @@ pub struct Table {
 /// A cell that holds text where a number belongs is an error naming file, line and column; a
 /// blank cell becomes NaN and is counted in a notice.
 pub fn read_table(path: &Path, requests: &[ColumnRequest]) -> Result<Table, DataError> {
-    let bytes = std::fs::read(path).map_err(|source| DataError::Read {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let bytes =
+        crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
+            DataError::Read {
+                path: path.to_path_buf(),
+                source,
+            }
+        })?;
     match String::from_utf8(bytes) {
         Ok(text) => parse_table(path, &text, requests),
         Err(err) => {
@@ -147,19 +150,36 @@ pub fn parse_table(
         }
         None => text,
     };
-    let first_line = text
-        .lines()
-        .find(|line| !line.trim().is_empty())
-        .unwrap_or("");
-    let (delimiter, has_decimal_comma) = if first_line.contains(',') {
-        (b',', false)
-    } else if first_line.contains(';') {
-        (b';', true)
-    } else if first_line.contains('\t') {
-        (b'\t', true)
-    } else {
-        (b',', false)
+    // The header row is the first row that holds every requested column; lines before it
+    // (comments, a title block of the lab software) are skipped, and a notice says so.
+    let (text, line_offset, delimiter) = match find_header(text, requests) {
+        Some(found) => {
+            let skipped = text[..found.byte_offset]
+                .lines()
+                .filter(|line| !line.trim().is_empty())
+                .count();
+            if skipped > 0 {
+                notices.push(Notice::new(format!(
+                    "{}: skipped {skipped} line(s) before the header row at line {}",
+                    path.display(),
+                    found.line_offset + 1
+                )));
+            }
+            (
+                &text[found.byte_offset..],
+                found.line_offset,
+                found.delimiter,
+            )
+        }
+        None => {
+            let first_line = text
+                .lines()
+                .find(|line| !line.trim().is_empty())
+                .unwrap_or("");
+            (text, 0, delimiter_of(first_line))
+        }
     };
+    let has_decimal_comma = delimiter != b',';
 
     let mut reader = csv::ReaderBuilder::new()
         .has_headers(false)
@@ -169,13 +189,26 @@ pub fn parse_table(
     let mut rows: Vec<(usize, Vec<String>)> = Vec::new();
     for record in reader.records() {
         let record = record.map_err(|err| {
-            let line = err.position().map(|p| p.line() as usize).unwrap_or(0);
+            let line = err.position().map(|p| p.line() as usize).unwrap_or(0) + line_offset;
             file_error(format!("line {line}: not readable as CSV: {err}"))
         })?;
-        let line = record.position().map(|p| p.line() as usize).unwrap_or(0);
+        let line = record.position().map(|p| p.line() as usize).unwrap_or(0) + line_offset;
+        if record.len() > crate::input::MAX_TABLE_COLUMNS {
+            return Err(file_error(format!(
+                "line {line}: {} cells; at most {} columns are read",
+                record.len(),
+                crate::input::MAX_TABLE_COLUMNS
+            )));
+        }
         let cells: Vec<String> = record.iter().map(|c| c.trim().to_string()).collect();
         if cells.iter().all(|c| c.is_empty()) {
             continue;
+        }
+        if rows.len() >= crate::input::MAX_TABLE_ROWS {
+            return Err(file_error(format!(
+                "line {line}: more than {} rows; at most that many are read",
+                crate::input::MAX_TABLE_ROWS
+            )));
         }
         rows.push((line, cells));
     }
@@ -214,6 +247,26 @@ pub fn parse_table(
                     .iter()
                     .position(|full| normalise_name(full) == wanted)
             });
+        if let Some(idx) = found {
+            let same: Vec<usize> = names
+                .iter()
+                .enumerate()
+                .filter(|(_, (name, _))| normalise_name(name) == normalise_name(&names[idx].0))
+                .map(|(i, _)| i + 1)
+                .collect();
+            if same.len() > 1 {
+                return Err(file_error(format!(
+                    "line {header_line}: {} columns are named `{}` (columns {}); \
+                     rename all but one",
+                    same.len(),
+                    names[idx].0,
+                    same.iter()
+                        .map(|i| i.to_string())
+                        .collect::<Vec<_>>()
+                        .join(", ")
+                )));
+            }
+        }
         match found {
             Some(idx) => positions.push(Some(idx)),
             None if request.is_required => {
@@ -292,6 +345,22 @@ pub fn parse_table(
     let mut n_blank = vec![0usize; requests.len()];
     let mut n_clock = vec![0usize; requests.len()];
     for (line, cells) in rows {
+        if let Some(extra) = cells.iter().skip(header.len()).position(|c| !c.is_empty()) {
+            let hint = if delimiter == b',' {
+                " (decimal commas in a comma-separated file? Use `.` for decimals or `;` between \
+                 cells)"
+            } else {
+                ""
+            };
+            return Err(DataError::File {
+                path: path.to_path_buf(),
+                problem: format!(
+                    "line {line}: cell {} is beyond the header's {} columns{hint}",
+                    header.len() + extra + 1,
+                    header.len()
+                ),
+            });
+        }
         // Skip rows in which every requested cell is blank (e.g. a trailing comma-only line).
         let is_empty = positions
             .iter()
@@ -498,6 +567,78 @@ fn quantity_words(quantity: Quantity) -> &'static str {
 }
 
 /// Splits `mass [g]` or `mass (g)` into name and unit.
+/// Where the header row is: the first of the file's first lines that holds every required
+/// requested column (or, with none required, any requested one).
+struct HeaderRow {
+    byte_offset: usize,
+    /// Lines before the header row.
+    line_offset: usize,
+    delimiter: u8,
+}
+
+/// Lines searched for the header row.
+const HEADER_SEARCH_LINES: usize = 200;
+
+fn delimiter_of(line: &str) -> u8 {
+    if line.contains(',') {
+        b','
+    } else if line.contains(';') {
+        b';'
+    } else if line.contains('\t') {
+        b'\t'
+    } else {
+        b','
+    }
+}
+
+fn find_header(text: &str, requests: &[ColumnRequest]) -> Option<HeaderRow> {
+    let required: Vec<String> = requests
+        .iter()
+        .filter(|r| r.is_required)
+        .map(|r| normalise_name(&r.name))
+        .collect();
+    let wanted: Vec<String> = if required.is_empty() {
+        requests.iter().map(|r| normalise_name(&r.name)).collect()
+    } else {
+        required
+    };
+    if wanted.is_empty() {
+        return None;
+    }
+    let need_all = requests.iter().any(|r| r.is_required);
+    let mut byte_offset = 0;
+    for (index, line) in text
+        .split_inclusive('\n')
+        .take(HEADER_SEARCH_LINES)
+        .enumerate()
+    {
+        let delimiter = delimiter_of(line);
+        let cells: Vec<String> = line
+            .split(char::from(delimiter))
+            .map(|cell| cell.trim().trim_matches('"').trim().to_string())
+            .collect();
+        let holds = |name: &String| {
+            cells.iter().any(|cell| {
+                normalise_name(&split_name_unit(cell).0) == *name || normalise_name(cell) == *name
+            })
+        };
+        let found = if need_all {
+            wanted.iter().all(holds)
+        } else {
+            wanted.iter().any(holds)
+        };
+        if found {
+            return Some(HeaderRow {
+                byte_offset,
+                line_offset: index,
+                delimiter,
+            });
+        }
+        byte_offset += line.len();
+    }
+    None
+}
+
 fn split_name_unit(header: &str) -> (String, Option<String>) {
     let header = header.trim();
     for (open, close) in [('[', ']'), ('(', ')')] {

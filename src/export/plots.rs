@@ -18,7 +18,7 @@ pub const FIGURE_SIZE: (u32, u32) = (1000, 640);
 /// Errors drawing or writing a figure.
 #[derive(Debug, thiserror::Error)]
 pub enum PlotError {
-    #[error("drawing {what}: {message} (plots need a sans-serif font, e.g. the fonts-dejavu-core package)")]
+    #[error("drawing {what}: {message}")]
     Draw { what: String, message: String },
     #[error("encoding {what} as PNG: {message}")]
     Encode { what: String, message: String },
@@ -382,6 +382,7 @@ fn write_figure(
     draw_png: impl Fn(&DrawingArea<BitMapBackend<'_>, Shift>) -> Result<(), String>,
     draw_svg: impl Fn(&DrawingArea<SVGBackend<'_>, Shift>) -> Result<(), String>,
 ) -> Result<[PathBuf; 2], PlotError> {
+    register_fonts()?;
     let (w, h) = FIGURE_SIZE;
     let draw_error = |message: String| PlotError::Draw {
         what: what.to_string(),
@@ -422,6 +423,27 @@ fn write_figure(
         })?;
     }
     Ok([png_path, svg_path])
+}
+
+/// The font of every figure's text: DejaVu Sans, shipped in assets/fonts/ (Bitstream Vera
+/// licence, beside it) and compiled into the program, so plots need no system font library.
+const SANS_SERIF: &[u8] = include_bytes!("../../assets/fonts/DejaVuSans.ttf");
+
+/// Registers the shipped font as plotters' `sans-serif`, once per process.
+pub fn register_fonts() -> Result<(), PlotError> {
+    static REGISTERED: std::sync::OnceLock<bool> = std::sync::OnceLock::new();
+    let ok = *REGISTERED.get_or_init(|| {
+        plotters::style::register_font("sans-serif", plotters::style::FontStyle::Normal, SANS_SERIF)
+            .is_ok()
+    });
+    if ok {
+        Ok(())
+    } else {
+        Err(PlotError::Draw {
+            what: "the figure text".into(),
+            message: "the shipped font assets/fonts/DejaVuSans.ttf could not be read".into(),
+        })
+    }
 }
 
 /// Writes `stem.png` and `stem.svg` of a chart; returns their paths.

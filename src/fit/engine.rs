@@ -453,10 +453,15 @@ impl<M: Model> CostFunction for LocalProblem<'_, '_, '_, '_, M> {
             .time_budget_s
             .is_some_and(|b| self.elapsed.elapsed_s() >= b);
         let requested = tracker.observer.should_stop();
-        if tracker.evaluations >= self.budget || out_of_time || requested {
-            tracker.stop = true;
-            tracker.stopped_by_request = requested;
-            return Err(argmin::core::Error::msg("local refinement budget reached"));
+        if tracker.stop || tracker.evaluations >= self.budget || out_of_time || requested {
+            // Never an error: argmin's Nelder–Mead unwraps the costs of its first simplex, so
+            // an error there would be a panic. Past the budget every point costs the same
+            // without a simulation, the simplex collapses and the run ends at once.
+            if !tracker.stop {
+                tracker.stop = true;
+                tracker.stopped_by_request = requested;
+            }
+            return Ok(f64::MAX);
         }
         let clamped: Vec<f64> = unit.iter().map(|u| u.clamp(0.0, 1.0)).collect();
         // Leaving the box costs in proportion to how far, so the simplex turns back.

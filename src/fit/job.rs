@@ -365,6 +365,8 @@ pub struct FitJob {
     pub parameters: Vec<FreeParameter>,
     pub cases: Vec<FitCase>,
     pub settings: Settings,
+    /// Plausibility warnings on the cases' test data (see `data::plausibility`).
+    pub warnings: Vec<crate::data::Notice>,
 }
 
 /// Reads a fit job, its material and scenario, and reduces every test it names.
@@ -394,6 +396,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
     if file.parameters.is_empty() {
         return Err(source.inconsistent("a fit needs at least one [[parameter]]"));
     }
+    check_unique_case_names(&source, &file)?;
     let mut parameters = Vec::new();
     for (idx, raw) in file.parameters.iter().enumerate() {
         parameters.push(build_parameter(
@@ -405,11 +408,13 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
             scenario.as_ref(),
         )?);
     }
+    check_unique_targets(&source, &file, &parameters)?;
     if file.cases.is_empty() {
         return Err(source.inconsistent("a fit needs at least one [[case]]"));
     }
     let settings = build_settings(&source, &file.settings)?;
     let mut cases = Vec::new();
+    let mut warnings = Vec::new();
     for (idx, raw) in file.cases.iter().enumerate() {
         if let milligram::CaseKind::Milligram(declared) = milligram::case_kind(&source, idx, raw)? {
             cases.push(milligram::build_milligram_case(
@@ -434,6 +439,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
             base,
             scenario,
             settings.output_interval_s,
+            &mut warnings,
         )?);
     }
     Ok(FitJob {
@@ -444,7 +450,76 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
         parameters,
         cases,
         settings,
+        warnings,
     })
+}
+
+/// Two cases whose names give the same curve file name (`cases/<slug>--<signal>.csv`) would
+/// overwrite each other's outputs: refused, naming the line of the second `[[case]]`.
+fn check_unique_case_names(source: &Source, file: &JobFile) -> Result<(), CaseError> {
+    let case_lines: Vec<usize> = source
+        .text
+        .lines()
+        .enumerate()
+        .filter(|(_, line)| line.trim_start().starts_with("[[case]]"))
+        .map(|(i, _)| i + 1)
+        .collect();
+    for (idx, case) in file.cases.iter().enumerate() {
+        let slug = crate::run::slug(&case.name);
+        if let Some(first) = file.cases[..idx]
+            .iter()
+            .position(|other| crate::run::slug(&other.name) == slug)
+        {
+            return Err(CaseError::Invalid {
+                path: source.path.clone(),
+                line: case_lines.get(idx).copied().unwrap_or(1),
+                field: format!("case[{idx}].name"),
+                problem: format!(
+                    "`{}` gives the same output file names as case[{first}] `{}` \
+                     (cases/{slug}--SIGNAL.csv); give each case its own name",
+                    case.name, file.cases[first].name
+                ),
+            });
+        }
+    }
+    Ok(())
+}
+
+/// A value set by two parameters (the same path twice, or a tie onto another parameter's
+/// path) would be fitted twice, the last one winning: refused.
+fn check_unique_targets(
+    source: &Source,
+    file: &JobFile,
+    parameters: &[FreeParameter],
+) -> Result<(), CaseError> {
+    for (idx, parameter) in parameters.iter().enumerate() {
+        for target in &parameter.targets {
+            let earlier = parameters[..idx]
+                .iter()
+                .position(|other| other.targets.contains(target));
+            let twice_here = parameter.targets.iter().filter(|t| *t == target).count() > 1;
+            if let Some(first) = earlier {
+                return Err(source.invalid(
+                    &file.parameters[idx].path.span(),
+                    &format!("parameter[{idx}].path"),
+                    format!(
+                        "`{}` sets a value that parameter[{first}] (`{}`) sets already; \
+                         each value can be fitted once",
+                        file.parameters[idx].path.get_ref(),
+                        file.parameters[first].path.get_ref()
+                    ),
+                ));
+            }
+            if twice_here {
+                return Err(source.invalid(
+                    &file.parameters[idx].path.span(),
+                    &format!("parameter[{idx}].tie"),
+                    "names the same value twice".to_string(),
+                ));
+            }
+        }
+    }
+    Ok(())
 }
 
 /// Reads the job's cone scenario; its specimen layers take the job's (starting) material.
@@ -794,6 +869,40 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
             )
         })?),
     };
+    // Values that would end a run before it starts, or leave differential evolution without
+    // the four distinct members one trial vector needs.
+    let at_least = |value: &Option<Spanned<i64>>, field: &str, least: i64, why: &str| match value {
+        Some(v) if *v.get_ref() < least => Err(source.invalid(
+            &v.span(),
+            &format!("settings.{field}"),
+            format!("must be at least {least} ({why}), got {}", v.get_ref()),
+        )),
+        _ => Ok(()),
+    };
+    at_least(
+        &raw.max_evaluations,
+        "max_evaluations",
+        1,
+        "0 would stop before any simulation",
+    )?;
+    at_least(
+        &raw.population,
+        "population",
+        4,
+        "each trial mixes four distinct members",
+    )?;
+    at_least(
+        &raw.stagnation_generations,
+        "stagnation_generations",
+        1,
+        "0 would stop after the first generation",
+    )?;
+    at_least(
+        &raw.local_starts,
+        "local_starts",
+        1,
+        "set `local_refinement = false` for none",
+    )?;
     Ok(Settings {
         max_evaluations: count(&raw.max_evaluations, "max_evaluations", 5000)?,
         time_budget,
@@ -821,6 +930,7 @@ fn build_case(
     base: &Path,
     scenario: &LoadedScenario,
     output_interval_s: f64,
+    warnings: &mut Vec<crate::data::Notice>,
 ) -> Result<FitCase, CaseError> {
     let key = |field: &str| format!("case[{idx}].{field}");
     if raw.tests.is_empty() {
@@ -848,6 +958,7 @@ fn build_case(
                 ),
             )
         })?;
+        warnings.extend(result.notices.iter().filter(|n| n.is_warning).cloned());
         reduced.push(result);
         test_files.push(test_path);
         test_files.push(description.data_file.clone());
@@ -1074,6 +1185,23 @@ fn build_case(
         Some(v) => source.positive(v, &key("duration_s"))?,
         None => latest_s.max(1.0),
     };
+    if let Err(size) = crate::case::budget::check_scenario_size(&case_scenario.scenario) {
+        // Named by the key that set the duration (or, without one, the tests whose last time
+        // set it), or the job's output interval.
+        let (span, field) = match (size.culprit, &raw.duration_s, raw.tests.first()) {
+            (crate::case::budget::Culprit::OutputInterval, _, Some(test)) => {
+                (test.span(), "settings.output_interval_s".to_string())
+            }
+            (_, Some(duration), _) => (duration.span(), key("duration_s")),
+            (_, None, Some(test)) => (test.span(), key("tests")),
+            (_, None, None) => (0..0, key("duration_s")),
+        };
+        return Err(source.invalid(
+            &span,
+            &field,
+            format!("case `{}`: {}", raw.name, size.problem),
+        ));
+    }
     Ok(FitCase {
         name: raw.name.clone(),
         setup: CaseSetup::Cone(Box::new(case_scenario)),

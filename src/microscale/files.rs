@@ -152,10 +152,13 @@ fn kind_from_name(name: &str) -> Option<MeasurementKind> {
 /// further columns (error bands, other signals) are ignored. Rows with a blank cell in one of
 /// the three columns are skipped, and a notice says how many.
 pub fn read_thermogram(path: &Path) -> Result<Thermogram, MicroscaleError> {
-    let bytes = std::fs::read(path).map_err(|source| MicroscaleError::Read {
-        path: path.to_path_buf(),
-        source,
-    })?;
+    let bytes =
+        crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
+            MicroscaleError::Read {
+                path: path.to_path_buf(),
+                source,
+            }
+        })?;
     parse_thermogram(path, &String::from_utf8_lossy(&bytes))
 }
 
@@ -172,13 +175,35 @@ fn header_units(
         problem,
     };
     let text = text.strip_prefix('\u{feff}').unwrap_or(text);
-    let mut rows = text
+    let rows: Vec<(usize, &str)> = text
         .lines()
         .enumerate()
-        .filter(|(_, line)| !line.trim().is_empty());
-    let (names_idx, names_line) = rows
-        .next()
-        .ok_or_else(|| format_error(1, "is empty: expected a row of column names".into()))?;
+        .filter(|(_, line)| !line.trim().is_empty())
+        .take(200)
+        .collect();
+    if rows.is_empty() {
+        return Err(format_error(
+            1,
+            "is empty: expected a row of column names".into(),
+        ));
+    }
+    // The header is the first row (with the units row under it) that names a time, a
+    // temperature and a signal column; comment or title lines before it are skipped.
+    let candidates = (0..rows.len()).map(|start| header_at(&rows, start));
+    let first = header_at(&rows, 0);
+    Ok(candidates
+        .into_iter()
+        .find(|(_, _, units)| {
+            units.iter().any(|u| time_factor_s(u).is_some())
+                && units.iter().any(|u| temperature_offset_k(u).is_some())
+                && units.iter().any(|u| signal_of(u).is_some())
+        })
+        .unwrap_or(first))
+}
+
+/// Names and units of the header starting at the non-blank row `start`.
+fn header_at(rows: &[(usize, &str)], start: usize) -> (usize, Vec<String>, Vec<String>) {
+    let (names_idx, names_line) = rows[start];
     let delimiter = [',', ';', '\t']
         .into_iter()
         .find(|d| names_line.contains(*d))
@@ -199,7 +224,7 @@ fn header_units(
         )
         .collect();
     let mut units_line = names_idx + 1;
-    if let Some((idx, line)) = rows.next() {
+    if let Some(&(idx, line)) = rows.get(start + 1) {
         let cells = split(line);
         let is_units_row = cells
             .iter()
@@ -213,7 +238,7 @@ fn header_units(
             }
         }
     }
-    Ok((units_line, names, units))
+    (units_line, names, units)
 }
 
 /// Parses the text of a milligram-scale file; `path` is used in messages only. Column

@@ -160,7 +160,8 @@ pub fn is_milligram_scenario_text(text: &str) -> bool {
 /// Whether the file at `path` is a milligram-scale scenario (see
 /// [`is_milligram_scenario_text`]); false when it cannot be read.
 pub fn is_milligram_scenario(path: &Path) -> bool {
-    std::fs::read_to_string(path).is_ok_and(|text| is_milligram_scenario_text(&text))
+    crate::input::read_text(path, crate::input::InputKind::Toml)
+        .is_ok_and(|text| is_milligram_scenario_text(&text))
 }
 
 /// Runs the scenario's 0-D model.
@@ -194,9 +195,11 @@ pub fn zero_d_csv(history: &ZeroDHistory) -> Result<Vec<u8>, csv::Error> {
 
 /// Reads a milligram-scale scenario and its material file, and validates both.
 pub fn load_milligram_scenario(path: &Path) -> Result<MilligramScenario, MicroscaleError> {
-    let text = std::fs::read_to_string(path).map_err(|source| MicroscaleError::Read {
-        path: path.to_path_buf(),
-        source,
+    let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
+        MicroscaleError::Read {
+            path: path.to_path_buf(),
+            source,
+        }
     })?;
     milligram_scenario_from_str(path, &text)
 }
@@ -265,6 +268,7 @@ pub fn milligram_scenario_from_str(
     if let Some(interval) = &file.output_interval_s {
         settings.output_interval_s = checker.positive(interval, "output_interval_s")?;
     }
+    check_programme_size(&checker, &file, &programme, settings.output_interval_s)?;
     if let Some(include) = file.dsc_includes_sensible_heat {
         settings.include_sensible_heat = include;
     }
@@ -337,6 +341,28 @@ fn build_programme(
                         ),
                     ));
                 }
+                if rate_k_min > MAX_RAMP_K_MIN {
+                    return Err(checker.invalid(
+                        &rate.span(),
+                        &key("ramp_k_min"),
+                        format!(
+                            "is {rate_k_min} K/min; at most {MAX_RAMP_K_MIN} K/min (above any \
+                             TGA, DSC or MCC run) is simulated"
+                        ),
+                    ));
+                }
+                let ramp_duration_s = (to_k - temperature_k).abs() / (rate_k_min / 60.0);
+                if ramp_duration_s > crate::case::budget::MAX_DURATION_S {
+                    return Err(checker.invalid(
+                        &rate.span(),
+                        &key("ramp_k_min"),
+                        format!(
+                            "takes {ramp_duration_s:.3e} s to reach {to_k} K; at most {:e} s \
+                             is simulated",
+                            crate::case::budget::MAX_DURATION_S
+                        ),
+                    ));
+                }
                 // The one place K/min from the file becomes K/s; cooling ramps are allowed.
                 let heating_rate_k_s = if rises { rate_k_min } else { -rate_k_min } / 60.0;
                 temperature_k = to_k;
@@ -345,9 +371,20 @@ fn build_programme(
                     end_temperature_k: to_k,
                 }
             }
-            (None, None, Some(hold)) => ProgrammeSegment::Hold {
-                duration_s: checker.positive(hold, &key("hold_s"))?,
-            },
+            (None, None, Some(hold)) => {
+                let duration_s = checker.positive(hold, &key("hold_s"))?;
+                if duration_s > crate::case::budget::MAX_DURATION_S {
+                    return Err(checker.invalid(
+                        &hold.span(),
+                        &key("hold_s"),
+                        format!(
+                            "is {duration_s:e} s; at most {:e} s (11.6 days) is simulated",
+                            crate::case::budget::MAX_DURATION_S
+                        ),
+                    ));
+                }
+                ProgrammeSegment::Hold { duration_s }
+            }
             _ => {
                 return Err(checker.invalid(
                     &span,
@@ -361,6 +398,60 @@ fn build_programme(
     }
     TemperatureProgramme::new(start_k, segments)
         .map_err(|err| checker.invalid(&raw.start_k.span(), "programme", err.to_string()))
+}
+
+/// Fastest ramp simulated, K/min.
+pub const MAX_RAMP_K_MIN: f64 = 1000.0;
+/// Largest temperature rise between two output rows, K. The DSC and MCC integrals are taken
+/// over the output rows: at 10 K per row they are exact to 1e-8 (900 J/g of the template at
+/// 300 K/min every 2 s), at 33 K per row 0.4 % low, at 83 K per row 30 % low
+/// (docs/input-limits.md).
+pub const MAX_RISE_PER_ROW_K: f64 = 10.0;
+
+/// The programme's rows and memory, and the temperature rise between rows.
+fn check_programme_size(
+    checker: &Checker<'_>,
+    file: &MilligramScenarioFile,
+    programme: &TemperatureProgramme,
+    output_interval_s: f64,
+) -> Result<(), MicroscaleError> {
+    let span = file
+        .output_interval_s
+        .as_ref()
+        .map_or(file.programme.start_k.span(), |v| v.span());
+    let row_bytes = (8 * 8) as f64;
+    if let Err(size) = crate::case::budget::check_run_size(
+        programme.duration_s(),
+        output_interval_s,
+        row_bytes,
+        None,
+    ) {
+        return Err(checker.invalid(&span, "output_interval_s", size.problem));
+    }
+    let fastest_k_s = programme
+        .segments()
+        .iter()
+        .filter_map(|segment| match segment {
+            ProgrammeSegment::Ramp {
+                heating_rate_k_s, ..
+            } => Some(heating_rate_k_s.abs()),
+            ProgrammeSegment::Hold { .. } => None,
+        })
+        .fold(0.0, f64::max);
+    let rise_k = fastest_k_s * output_interval_s;
+    if rise_k > MAX_RISE_PER_ROW_K {
+        return Err(checker.invalid(
+            &span,
+            "output_interval_s",
+            format!(
+                "lets the temperature rise {rise_k:.1} K between rows at {:.0} K/min; the DSC \
+                 and MCC integrals need at most {MAX_RISE_PER_ROW_K} K: make it at most {:.3} s",
+                fastest_k_s * 60.0,
+                MAX_RISE_PER_ROW_K / fastest_k_s
+            ),
+        ));
+    }
+    Ok(())
 }
 
 /// Turns spans into line numbers and bad values into errors for one file.

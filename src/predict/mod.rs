@@ -143,9 +143,10 @@ impl CalibratedModel {
         }
         let p = parameters.len();
         let summary_path = path.parent().unwrap_or(Path::new(".")).join("summary.json");
-        let summary: Option<RunSummary> = std::fs::read(&summary_path)
-            .ok()
-            .and_then(|bytes| serde_json::from_slice(&bytes).ok());
+        let summary: Option<RunSummary> =
+            crate::input::read_bytes(&summary_path, crate::input::InputKind::RunFile)
+                .ok()
+                .and_then(|bytes| serde_json::from_slice(&bytes).ok());
         let covariance_from_summary = summary.as_ref().and_then(|s| {
             let names_match = s.parameters.len() == p
                 && s.parameters

@@ -10,6 +10,8 @@
 //! This module is the only one that knows these formats. Every file but the append-only log is
 //! replaced atomically, so a run killed at any moment resumes from its last checkpoint.
 
+pub mod fingerprint;
+pub mod lock;
 pub mod progress;
 
 use std::path::{Path, PathBuf};
@@ -47,6 +49,15 @@ pub enum RunError {
     Exists(PathBuf),
     #[error("run directory {} has no checkpoint to resume from", .0.display())]
     NoCheckpoint(PathBuf),
+    #[error("run directory {} has no run.toml (the record of how the run started), so it cannot be resumed; start a new run", .0.display())]
+    NoRecord(PathBuf),
+    #[error("{0}")]
+    Name(String),
+    #[error(transparent)]
+    Lock(#[from] lock::LockError),
+    /// `--resume` was given another job than the run started with (both named).
+    #[error("{0}")]
+    OtherJob(String),
     #[error("{} changed since the run started (its SHA-256 differs); start a new run instead of resuming", .0)]
     Changed(String),
     #[error("cannot read {}: {problem}", path.display())]
@@ -130,6 +141,12 @@ pub struct RunRecord {
     pub seed: u64,
     pub threads: usize,
     pub data_sha256: std::collections::BTreeMap<String, String>,
+    /// SHA-256 of the job file as started (absent in runs made before it was stored).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub job_sha256: Option<String>,
+    /// The command-line overrides the run started with; `--resume` reuses them.
+    #[serde(default)]
+    pub overrides: fingerprint::Overrides,
 }
 
 /// `summary.json`: the final figures.
@@ -174,7 +191,8 @@ pub struct SummaryParameter {
 
 /// Reads a run's `summary.json` (e.g. for `prior_from` in a later job).
 pub fn read_summary(path: &Path) -> Result<RunSummary, RunError> {
-    let bytes = std::fs::read(path).map_err(io("cannot read", path))?;
+    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
+        .map_err(io("cannot read", path))?;
     serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
         path: path.to_path_buf(),
         problem: e.to_string(),
@@ -195,7 +213,8 @@ pub struct RunOptions {
 
 /// SHA-256 of a file, as lower-case hex.
 pub fn sha256_hex(path: &Path) -> Result<String, RunError> {
-    let bytes = std::fs::read(path).map_err(io("cannot read", path))?;
+    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
+        .map_err(io("cannot read", path))?;
     Ok(Sha256::digest(&bytes)
         .iter()
         .map(|b| format!("{b:02x}"))
@@ -413,19 +432,31 @@ pub fn run_fit(
     stop: Arc<AtomicBool>,
     pause: Arc<AtomicBool>,
 ) -> Result<FitReport, RunError> {
-    let mut job = load_job(job_path)?;
-    if let Some(seed) = options.seed {
-        job.settings.seed = seed;
-    }
     let name = options.name.clone().unwrap_or_else(|| {
         job_path
             .file_stem()
             .map(|s| slug(&s.to_string_lossy()))
             .unwrap_or_else(|| "fit".into())
     });
+    fingerprint::check_run_name(&name).map_err(RunError::Name)?;
     let dir = RunDirectory::new(&options.runs_root.join(&name));
-    let job_text = std::fs::read_to_string(job_path).map_err(io("cannot read", job_path))?;
-    let start_text = std::fs::read_to_string(&job.material_path)
+    // On resume: the same job, the overrides it started with (unless given again), and no
+    // other process on the same directory.
+    let mut _lock = None;
+    let options = &if options.resume {
+        let taken = take_lock(&dir)?;
+        _lock = Some(taken);
+        resumed_options(&dir, job_path, options)?
+    } else {
+        options.clone()
+    };
+    let mut job = load_job(job_path)?;
+    if let Some(seed) = options.seed {
+        job.settings.seed = seed;
+    }
+    let job_text = crate::input::read_text(job_path, crate::input::InputKind::Toml)
+        .map_err(io("cannot read", job_path))?;
+    let start_text = crate::input::read_text(&job.material_path, crate::input::InputKind::Toml)
         .map_err(io("cannot read", &job.material_path))?;
     let mut hashes = std::collections::BTreeMap::new();
     hashes.insert(job_path.display().to_string(), sha256_hex(job_path)?);
@@ -448,8 +479,8 @@ pub fn run_fit(
         local_starts: job.settings.local_starts,
     };
     let (state, resumed_from) = if options.resume {
-        let record_text = std::fs::read_to_string(dir.record())
-            .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
+        let record_text = crate::input::read_text(&dir.record(), crate::input::InputKind::RunFile)
+            .map_err(|_| RunError::NoRecord(dir.root.clone()))?;
         let record: RunRecord = toml::from_str(&record_text).map_err(|e| RunError::Corrupt {
             path: dir.record(),
             problem: e.to_string(),
@@ -460,7 +491,7 @@ pub fn run_fit(
             }
         }
         job.settings.seed = record.seed;
-        let bytes = std::fs::read(dir.checkpoint())
+        let bytes = crate::input::read_bytes(&dir.checkpoint(), crate::input::InputKind::RunFile)
             .map_err(|_| RunError::NoCheckpoint(dir.root.clone()))?;
         let state: EngineState = serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
             path: dir.checkpoint(),
@@ -474,6 +505,7 @@ pub fn run_fit(
             return Err(RunError::Exists(dir.root.clone()));
         }
         std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.root))?;
+        _lock = Some(take_lock(&dir)?);
         write_atomically(&dir.job(), job_text.as_bytes())
             .map_err(io("cannot write", &dir.job()))?;
         let record = RunRecord {
@@ -485,6 +517,13 @@ pub fn run_fit(
             seed: job.settings.seed,
             threads: options.threads,
             data_sha256: hashes.clone(),
+            job_sha256: hashes.get(&job_path.display().to_string()).cloned(),
+            overrides: fingerprint::Overrides {
+                max_evaluations: options.max_evaluations,
+                time_budget_s: options.time_budget_s,
+                threads: Some(options.threads),
+                seed: options.seed,
+            },
         };
         let text = toml::to_string(&record).map_err(|e| RunError::Corrupt {
             path: dir.record(),
@@ -585,6 +624,75 @@ pub fn run_fit(
     Ok(FitReport {
         directory: dir.root.clone(),
         summary,
+    })
+}
+
+/// Takes the run directory's lock; a note on a stale lock taken over goes to the log.
+fn take_lock(dir: &RunDirectory) -> Result<lock::RunLock, RunError> {
+    let (taken, note) = lock::acquire(&dir.root)?;
+    if let Some(note) = note {
+        // Written to the terminal only when no interface owns it: the lock note is for
+        // whoever looks at the log later.
+        use std::io::Write;
+        let log = std::fs::OpenOptions::new()
+            .create(true)
+            .append(true)
+            .open(dir.log());
+        if let Ok(mut log) = log {
+            let _ = writeln!(log, "note: {note}");
+        }
+    }
+    Ok(taken)
+}
+
+/// The options of a resumed run: the job must be the one the run started with (its copy in
+/// the run directory), and every override not given again is the one stored in run.toml.
+fn resumed_options(
+    dir: &RunDirectory,
+    job_path: &Path,
+    options: &RunOptions,
+) -> Result<RunOptions, RunError> {
+    let record_text = crate::input::read_text(&dir.record(), crate::input::InputKind::RunFile)
+        .map_err(|_| {
+            if dir.root.is_dir() {
+                RunError::NoRecord(dir.root.clone())
+            } else {
+                RunError::NoCheckpoint(dir.root.clone())
+            }
+        })?;
+    let record: RunRecord = toml::from_str(&record_text).map_err(|e| RunError::Corrupt {
+        path: dir.record(),
+        problem: e.to_string(),
+    })?;
+    let given_hash = sha256_hex(job_path)?;
+    let started_hash = match &record.job_sha256 {
+        Some(hash) => hash.clone(),
+        None => sha256_hex(&dir.job())?,
+    };
+    if given_hash != started_hash {
+        return Err(RunError::OtherJob(format!(
+            "run {} was started with the job {} (its copy is {}), and --resume was given {}, \
+             whose content differs (SHA-256 {:.12}… against {:.12}…); resume with the job it \
+             started with, or start a new run",
+            dir.root.display(),
+            record.job_path,
+            dir.job().display(),
+            job_path.display(),
+            given_hash,
+            started_hash
+        )));
+    }
+    let given = fingerprint::Overrides {
+        max_evaluations: options.max_evaluations,
+        time_budget_s: options.time_budget_s,
+        threads: None,
+        seed: None,
+    };
+    let merged = given.merged_over(&record.overrides);
+    Ok(RunOptions {
+        max_evaluations: merged.max_evaluations,
+        time_budget_s: merged.time_budget_s,
+        ..options.clone()
     })
 }
 

@@ -3,6 +3,8 @@
 mod cli;
 mod data;
 mod fit;
+mod fuzz;
+mod hostile;
 mod microscale;
 mod milligram_fit;
 mod pmma_fit;
