@@ -352,8 +352,9 @@ fn fit(args: FitArgs) -> Result<()> {
     tell(&format!("run directory: {}", directory.root.display()));
     if cluster.size() > 1 {
         tell(&format!(
-            "MPI job: {} ranks × {threads} threads",
-            cluster.size()
+            "MPI job: {} ranks × {threads} threads each; stop cleanly with kill -INT {}",
+            cluster.size(),
+            std::process::id()
         ));
     }
     let mut ticker = emberfit::headless::Ticker::new(std::time::Duration::from_secs(3));

@@ -144,11 +144,8 @@ fn rank_pid(marker: &str, rank: usize) -> Option<u32> {
         };
         let cmdline = std::fs::read(entry.path().join("cmdline")).unwrap_or_default();
         let environ = std::fs::read(entry.path().join("environ")).unwrap_or_default();
-        let has = |bytes: &[u8], text: &str| {
-            bytes
-                .split(|b| *b == 0)
-                .any(|part| part == text.as_bytes())
-        };
+        let has =
+            |bytes: &[u8], text: &str| bytes.split(|b| *b == 0).any(|part| part == text.as_bytes());
         let is_emberfit = cmdline
             .split(|b| *b == 0)
             .next()
@@ -193,7 +190,10 @@ fn a_killed_rank_ends_the_job_and_the_fit_resumes_on_another_number_of_ranks() {
             started.elapsed() < Duration::from_secs(60),
             "no checkpoints from the MPI fit"
         );
-        assert!(child.try_wait().expect("wait").is_none(), "the fit ended early");
+        assert!(
+            child.try_wait().expect("wait").is_none(),
+            "the fit ended early"
+        );
         std::thread::sleep(Duration::from_millis(10));
     }
     let worker = rank_pid(&runs_text, 1).expect("rank 1 of the job is running");
@@ -219,7 +219,10 @@ fn a_killed_rank_ends_the_job_and_the_fit_resumes_on_another_number_of_ranks() {
     )
     .expect("the checkpoint is whole");
     assert!(checkpoint["iteration"].as_u64().is_some_and(|i| i >= 2));
-    assert_eq!(checkpoint["phase"], "global", "killed during the generations");
+    assert_eq!(
+        checkpoint["phase"], "global",
+        "killed during the generations"
+    );
 
     let mut resume = fit_args(&runs_text, "killed", "2", budget);
     resume.push("--resume");
