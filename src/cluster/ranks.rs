@@ -30,8 +30,10 @@ use crate::fit::objective::Objective;
 /// Message tags: rank 0 → worker, worker → rank 0.
 const REQUEST: i32 = 1;
 const REPLY: i32 = 2;
-/// The longest sleep between two polls for a message.
-const LONGEST_POLL: Duration = Duration::from_millis(2);
+/// Polls that only yield the core before the waits start to sleep (a reply that comes within
+/// microseconds is taken at once), and the longest sleep between two polls after that.
+const YIELDING_POLLS: u32 = 200;
+const LONGEST_POLL: Duration = Duration::from_millis(1);
 
 /// What rank 0 sends a worker.
 #[derive(Debug, Serialize, Deserialize)]
@@ -242,6 +244,7 @@ fn wait_for(
     job_ending: impl Fn() -> bool,
 ) -> Vec<u8> {
     let mut pause = Duration::from_micros(20);
+    let mut polls = 0;
     loop {
         if let Some(found) = source.immediate_matched_probe_with_tag(tag) {
             let (bytes, _status) = found.matched_receive_vec::<u8>();
@@ -256,8 +259,13 @@ fn wait_for(
             );
             std::process::exit(1);
         }
-        std::thread::sleep(pause);
-        pause = (pause * 2).min(LONGEST_POLL);
+        polls += 1;
+        if polls < YIELDING_POLLS {
+            std::thread::yield_now();
+        } else {
+            std::thread::sleep(pause);
+            pause = (pause * 2).min(LONGEST_POLL);
+        }
     }
 }
 
