@@ -286,3 +286,23 @@ fn band_draws_on_ranks_match_one_process() {
     }
     let _ = std::fs::remove_dir_all(&runs);
 }
+
+/// The fixed partition of a batch: the shares cover 0..n once, in rank order, and differ in
+/// size by one at most, for any n and N.
+#[test]
+fn shares_cover_the_batch_in_order() {
+    use emberfit::cluster::ranks::share;
+    for size in 1..6 {
+        for n in 0..40 {
+            let ranges: Vec<_> = (0..size).map(|r| share(r, size, n)).collect();
+            assert_eq!(ranges[0].start, 0);
+            assert_eq!(ranges[size - 1].end, n);
+            for pair in ranges.windows(2) {
+                assert_eq!(pair[0].end, pair[1].start);
+            }
+            let longest = ranges.iter().map(|r| r.len()).max().unwrap_or(0);
+            let shortest = ranges.iter().map(|r| r.len()).min().unwrap_or(0);
+            assert!(longest - shortest <= 1, "n {n}, N {size}: {ranges:?}");
+        }
+    }
+}

@@ -253,8 +253,8 @@ fn wait_for(
         if job_ending() {
             eprintln!(
                 "emberfit: the MPI job is being ended while rank {} evaluates its share (a rank \
-                 died, or the job was cancelled). The run directory keeps the checkpoint of the \
-                 last whole generation: continue it on any number of ranks with `--resume`.",
+                 died, or the job was cancelled). A fit's run directory keeps the checkpoint of \
+                 its last whole generation: continue it on any number of ranks with `--resume`.",
                 source.rank()
             );
             std::process::exit(1);
@@ -290,27 +290,4 @@ fn install_worker_panic_hook(rank: usize) {
         );
         SimpleCommunicator::world().abort(1);
     }));
-}
-
-#[cfg(test)]
-mod tests {
-    use super::share;
-
-    /// The shares cover 0..n once, in rank order, for any n and N.
-    #[test]
-    fn shares_cover_the_batch_in_order() {
-        for size in 1..6 {
-            for n in 0..40 {
-                let ranges: Vec<_> = (0..size).map(|r| share(r, size, n)).collect();
-                assert_eq!(ranges[0].start, 0);
-                assert_eq!(ranges[size - 1].end, n);
-                for pair in ranges.windows(2) {
-                    assert_eq!(pair[0].end, pair[1].start);
-                }
-                let longest = ranges.iter().map(|r| r.len()).max().unwrap_or(0);
-                let shortest = ranges.iter().map(|r| r.len()).min().unwrap_or(0);
-                assert!(longest - shortest <= 1, "n {n}, N {size}: {ranges:?}");
-            }
-        }
-    }
 }
