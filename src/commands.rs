@@ -49,9 +49,10 @@ fn start_threads(threads: Option<usize>) -> Result<()> {
 
 fn predict(args: PredictArgs) -> Result<()> {
     use emberfit::predict::{
-        load_prepared_scenario, predict as run_prediction, prediction_csv, quantities_csv,
+        load_prepared_scenario, predict_on, prediction_csv, quantities_csv, BandDraw,
         CalibratedModel, Conditions, PredictionSettings,
     };
+    let cluster = emberfit::cluster::Cluster::join().context("joining the MPI job")?;
     start_threads(args.threads)?;
     let calibrated =
         CalibratedModel::load(&args.calibrated).context("reading the calibrated model")?;
@@ -67,7 +68,12 @@ fn predict(args: PredictArgs) -> Result<()> {
         n_samples: args.samples,
         seed: args.seed,
     };
-    let prediction = run_prediction(&calibrated, &scenario, &settings).context("predicting")?;
+    if cluster.is_worker() {
+        let band = BandDraw::new(&calibrated, &scenario);
+        return Ok(cluster.serve_band(band.as_ref())?);
+    }
+    let prediction = predict_on(&calibrated, &scenario, &settings, &cluster.evaluator())
+        .context("predicting")?;
     if let Some(out) = &args.out {
         write_atomically(out, prediction_csv(&prediction).as_bytes())
             .with_context(|| format!("writing {}", out.display()))?;
@@ -241,6 +247,13 @@ fn fit(args: FitArgs) -> Result<()> {
     use std::sync::Arc;
 
     check_fit_data(&args)?;
+    // Under an MPI launcher (docs/cluster.md): the other ranks serve rank 0's batches.
+    let cluster = emberfit::cluster::Cluster::join().context("joining the MPI job")?;
+    if cluster.size() > 1 && args.detach {
+        bail!(
+            "--detach is for a lone process; an MPI job runs in the background under its launcher"
+        );
+    }
     if args.detach {
         return fit_detached(&args);
     }
@@ -260,6 +273,9 @@ fn fit(args: FitArgs) -> Result<()> {
         .num_threads(threads)
         .build_global()
         .context("starting the worker threads")?;
+    if cluster.is_worker() {
+        return Ok(cluster.serve_fit(&args.job)?);
+    }
     let time_budget_s = match &args.time {
         Some(text) => Some(
             humantime::parse_duration(text)
@@ -299,8 +315,9 @@ fn fit(args: FitArgs) -> Result<()> {
     let job = args.job.clone();
     let worker_stop = Arc::clone(&stop);
     let worker_pause = Arc::clone(&pause);
+    let evaluator = cluster.evaluator();
     let worker = std::thread::spawn(move || {
-        emberfit::run::run_fit(&job, &options, worker_stop, worker_pause)
+        emberfit::run::run_fit_on(&job, &options, worker_stop, worker_pause, &evaluator)
     });
     let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(&name));
     if !args.headless && std::io::stdout().is_terminal() {
@@ -350,6 +367,13 @@ fn fit(args: FitArgs) -> Result<()> {
         let _ = follower.poll();
     }
     tell(&format!("run directory: {}", directory.root.display()));
+    if cluster.size() > 1 {
+        tell(&format!(
+            "MPI job: {} ranks × {threads} threads each; stop cleanly with kill -INT {}",
+            cluster.size(),
+            std::process::id()
+        ));
+    }
     let mut ticker = emberfit::headless::Ticker::new(std::time::Duration::from_secs(3));
     let mut print_events = |follower: &mut emberfit::run::progress::ProgressFollower,
                             is_last: bool| {

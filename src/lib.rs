@@ -2,6 +2,7 @@
 //! model and predicts untested conditions. The architecture is described in DEVELOPERS.md.
 
 pub mod case;
+pub mod cluster;
 pub mod data;
 pub mod export;
 pub mod fit;

@@ -3,9 +3,10 @@
 //! member. Works in the unit cube of the free parameters (linear or log per parameter).
 //!
 //! Determinism: every generation draws from a ChaCha8 generator seeded by (seed, generation),
-//! and rayon's ordered `collect` keeps results in population order, so thread timing never
-//! picks the winner and a run resumed from a checkpoint continues exactly as an uninterrupted
-//! one would. The engine writes nothing itself: it reports to an `Observer`.
+//! and the evaluator (`super::evaluator`: this process's threads, or the ranks of an MPI job)
+//! returns results in population order, so neither thread nor rank timing ever picks the
+//! winner and a run resumed from a checkpoint continues exactly as an uninterrupted one would.
+//! The engine writes nothing itself: it reports to an `Observer`.
 //! Why DE and not argmin's particle swarm: see docs/fit-jobs.md, "Choice of optimiser".
 
 use std::sync::Mutex;
@@ -15,9 +16,9 @@ use argmin::core::{CostFunction, Executor};
 use argmin::solver::neldermead::NelderMead;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use rayon::prelude::*;
 use serde::{Deserialize, Serialize};
 
+use super::evaluator::{Costs, Evaluator, Local};
 use super::model::Model;
 use super::objective::{Evaluation, Objective};
 use super::parameters::FreeParameter;
@@ -178,9 +179,20 @@ impl Clock {
     }
 }
 
-/// Runs (or continues) the optimisation from `state`.
+/// Runs (or continues) the optimisation from `state`, evaluating on this process's threads.
 pub fn optimise<M: Model>(
     objective: &Objective<'_, M>,
+    settings: &EngineSettings,
+    state: EngineState,
+    observer: &mut dyn Observer,
+) -> Outcome {
+    optimise_on(objective, &Local, settings, state, observer)
+}
+
+/// `optimise` with each generation's population evaluated by `evaluator`.
+pub fn optimise_on<M: Model, E: Evaluator>(
+    objective: &Objective<'_, M>,
+    evaluator: &E,
     settings: &EngineSettings,
     mut state: EngineState,
     observer: &mut dyn Observer,
@@ -194,10 +206,8 @@ pub fn optimise<M: Model>(
         state.stop_reason = None;
     }
     let evaluate_all = |members: &[Vec<f64>]| -> Vec<Evaluation> {
-        members
-            .par_iter()
-            .map(|unit| objective.evaluate(&values_of(parameters, unit)))
-            .collect()
+        let values: Vec<Vec<f64>> = members.iter().map(|u| values_of(parameters, u)).collect();
+        evaluator.evaluate(&Costs(objective), &values)
     };
     if state.phase == Phase::Global && state.costs.is_empty() {
         let evaluations = evaluate_all(&state.population);

@@ -4,8 +4,8 @@
 //! Watts, Nonlinear Regression Analysis, 1988), 95 % intervals, correlations and warnings.
 
 use nalgebra::{DMatrix, DVector};
-use rayon::prelude::*;
 
+use super::evaluator::{Evaluator, Local, Residuals};
 use super::model::Model;
 use super::objective::Objective;
 use super::parameters::{FreeParameter, Scale};
@@ -99,9 +99,18 @@ fn with_fit_coordinate(
     shifted
 }
 
-/// Analyses the fit at `values` (file units).
+/// Analyses the fit at `values` (file units), evaluating on this process's threads.
 pub fn analyse<M: Model>(
     objective: &Objective<'_, M>,
+    values: &[f64],
+) -> Result<Identifiability, IdentifiabilityError> {
+    analyse_on(objective, &Local, values)
+}
+
+/// `analyse` with the Jacobian's evaluations done by `evaluator`.
+pub fn analyse_on<M: Model, E: Evaluator>(
+    objective: &Objective<'_, M>,
+    evaluator: &E,
     values: &[f64],
 ) -> Result<Identifiability, IdentifiabilityError> {
     let parameters = objective.parameters();
@@ -114,26 +123,46 @@ pub fn analyse<M: Model>(
         return Err(IdentifiabilityError::TooFewResiduals { n, p });
     }
     // Central differences with a step of 1e-3 of each parameter's range in fit space, kept
-    // inside the bounds (one-sided at a bound).
-    let columns: Vec<Result<Vec<f64>, String>> = (0..p)
-        .into_par_iter()
-        .map(|j| {
-            let parameter = &parameters[j];
-            let x = parameter.to_fit_space(values[j]);
+    // inside the bounds (one-sided at a bound). All shifted points go out as one batch.
+    let stencils: Vec<(f64, f64, f64)> = parameters
+        .iter()
+        .zip(values)
+        .map(|(parameter, &value)| {
+            let x = parameter.to_fit_space(value);
             let step = 1e-3 * parameter.fit_space_range();
             let lower = parameter.to_fit_space(parameter.lower);
             let upper = parameter.to_fit_space(parameter.upper);
-            let (a, b) = ((x - step).max(lower), (x + step).min(upper));
-            let ra = if a < x {
-                objective.residuals(&with_fit_coordinate(parameters, values, j, a))?
-            } else {
-                base.clone()
-            };
-            let rb = if b > x {
-                objective.residuals(&with_fit_coordinate(parameters, values, j, b))?
-            } else {
-                base.clone()
-            };
+            (x, (x - step).max(lower), (x + step).min(upper))
+        })
+        .collect();
+    let mut shifted = Vec::new();
+    for (j, &(x, a, b)) in stencils.iter().enumerate() {
+        if a < x {
+            shifted.push(with_fit_coordinate(parameters, values, j, a));
+        }
+        if b > x {
+            shifted.push(with_fit_coordinate(parameters, values, j, b));
+        }
+    }
+    let mut results = evaluator
+        .evaluate(&Residuals(objective), &shifted)
+        .into_iter();
+    // The residuals at one side of a stencil: the next result when that side was shifted.
+    let mut next = |shifted: bool| -> Result<Vec<f64>, String> {
+        if shifted {
+            results
+                .next()
+                .unwrap_or_else(|| Err("the evaluator returned too few results".into()))
+        } else {
+            Ok(base.clone())
+        }
+    };
+    let columns: Vec<Result<Vec<f64>, String>> = stencils
+        .iter()
+        .map(|&(x, a, b)| {
+            // Both sides are taken before either error is returned, so the order holds.
+            let (ra, rb) = (next(a < x), next(b > x));
+            let (ra, rb) = (ra?, rb?);
             Ok(ra
                 .iter()
                 .zip(&rb)

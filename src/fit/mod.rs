@@ -4,6 +4,7 @@
 //! module does, through the `engine::Observer` it is given).
 
 pub mod engine;
+pub mod evaluator;
 pub mod identifiability;
 pub mod job;
 pub mod model;

@@ -2,6 +2,8 @@
 //! stated noise level or the signal's peak (docs/fit-jobs.md), summed over signals and cases,
 //! plus the priors. Every part is kept, not only the sum.
 
+use serde::{Deserialize, Serialize};
+
 use super::job::FitCase;
 use super::model::{Model, SignalCurve};
 use super::parameters::FreeParameter;
@@ -11,7 +13,7 @@ use super::parameters::FreeParameter;
 pub const FAILED_SIMULATION_PENALTY: f64 = 1e12;
 
 /// The cost of one signal of one case.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct PartCost {
     pub case: String,
     pub signal: String,
@@ -19,8 +21,8 @@ pub struct PartCost {
     pub cost: f64,
 }
 
-/// One evaluated candidate.
-#[derive(Debug, Clone, PartialEq)]
+/// One evaluated candidate (serialisable, so another process of an MPI job can send it).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Evaluation {
     pub cost: f64,
     pub parts: Vec<PartCost>,

@@ -1,8 +1,11 @@
 //! What a simulation returns: sampled curves at the output interval, the summary, and the
 //! energy and mass budgets that show the run conserved both (physics.md §1 "Outputs").
+//! Serialisable, so that a rank of an MPI job can send a simulated band draw back.
+
+use serde::{Deserialize, Serialize};
 
 /// The state of the specimen at one output time, SI units.
-#[derive(Debug, Clone, Default, PartialEq)]
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
 pub struct Sample {
     pub time_s: f64,
     /// Remaining mass of the specimen layers (backing excluded), kg/m².
@@ -60,7 +63,7 @@ impl Sample {
 }
 
 /// Energy terms summed over the run, J/m² (physics.md §1 "Numerical requirements").
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
 pub struct EnergyBudget {
     pub absorbed_j_m2: f64,
     pub reradiated_j_m2: f64,
@@ -103,7 +106,7 @@ impl EnergyBudget {
 }
 
 /// Condensed mass of the whole stack, kg/m².
-#[derive(Debug, Clone, Copy, Default, PartialEq)]
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
 pub struct MassBudget {
     pub initial_kg_m2: f64,
     pub remaining_kg_m2: f64,
@@ -119,7 +122,7 @@ impl MassBudget {
 }
 
 /// Figures of the whole run.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct Summary {
     pub ignition_time_s: Option<f64>,
     pub flameout_time_s: Option<f64>,
@@ -144,7 +147,7 @@ pub struct Summary {
 }
 
 /// One cell of the stack at the end of the run.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct CellSnapshot {
     /// Index of the cell's layer in the scenario.
     pub layer_idx: usize,
@@ -157,7 +160,7 @@ pub struct CellSnapshot {
 }
 
 /// Curves at the output interval (first row at t = 0), the summary, and the final profile.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub struct History {
     pub probe_names: Vec<String>,
     pub samples: Vec<Sample>,

@@ -12,10 +12,9 @@ pub mod sampling;
 
 use std::path::{Path, PathBuf};
 
-use rayon::prelude::*;
-
 use crate::case::material::MaterialModel;
 use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
+use crate::fit::evaluator::{Evaluator, Local, Task, TaskKind};
 use crate::fit::job::{load_job, parse_path, FitJob};
 use crate::fit::parameters::{FreeParameter, PropertyPart, Scale, Target};
 use crate::physics::material::Material;
@@ -511,6 +510,38 @@ const QUANTITY_NAMES: [(&str, &str); 4] = [
     ("total heat release", "MJ/m²"),
 ];
 
+/// One drawn parameter set (fit-space coordinates) of a band, simulated in the prepared
+/// scenario: the unit of work that an evaluator hands out.
+pub struct BandDraw<'a> {
+    uncertainty: &'a Uncertainty,
+    scenario: &'a Scenario,
+}
+
+impl<'a> BandDraw<'a> {
+    /// The draws of `calibrated` in `scenario`; `None` when the model has no uncertainty.
+    pub fn new(calibrated: &'a CalibratedModel, scenario: &'a Scenario) -> Option<Self> {
+        calibrated.uncertainty.as_ref().map(|uncertainty| BandDraw {
+            uncertainty,
+            scenario,
+        })
+    }
+}
+
+impl Task for BandDraw<'_> {
+    type Output = Result<History, String>;
+    const KIND: TaskKind = TaskKind::BandDraw;
+    fn run(&self, point: &[f64]) -> Result<History, String> {
+        let drawn: Vec<f64> = self
+            .uncertainty
+            .parameters
+            .iter()
+            .zip(point)
+            .map(|(p, &x)| p.from_fit_space(x))
+            .collect();
+        simulate_draw(self.uncertainty, self.scenario, &drawn)
+    }
+}
+
 /// Predicts the prepared scenario (see [`prepare_scenario`]) with the calibrated model; with
 /// a band, draws `n_samples` parameter sets from the fit's uncertainty and simulates them in
 /// parallel.
@@ -518,6 +549,16 @@ pub fn predict(
     calibrated: &CalibratedModel,
     scenario: &Scenario,
     settings: &PredictionSettings,
+) -> Result<Prediction, PredictError> {
+    predict_on(calibrated, scenario, settings, &Local)
+}
+
+/// `predict` with the band's drawn sets simulated by `evaluator`.
+pub fn predict_on<E: Evaluator>(
+    calibrated: &CalibratedModel,
+    scenario: &Scenario,
+    settings: &PredictionSettings,
+    evaluator: &E,
 ) -> Result<Prediction, PredictError> {
     let best = simulate(scenario).map_err(|e| PredictError::Simulation(e.to_string()))?;
     let interval = scenario.output_interval_s.max(1e-3);
@@ -596,19 +637,11 @@ pub fn predict(
     };
     let draws = draw(&normal, settings.n_samples, settings.seed)?;
     let n_rejected = draws.n_drawn - draws.points.len();
-    let results: Vec<Result<History, String>> = draws
-        .points
-        .par_iter()
-        .map(|point| {
-            let drawn: Vec<f64> = uncertainty
-                .parameters
-                .iter()
-                .zip(point)
-                .map(|(p, &x)| p.from_fit_space(x))
-                .collect();
-            simulate_draw(uncertainty, scenario, &drawn)
-        })
-        .collect();
+    let task = BandDraw {
+        uncertainty,
+        scenario,
+    };
+    let results: Vec<Result<History, String>> = evaluator.evaluate(&task, &draws.points);
     let mut histories = Vec::new();
     let mut first_failure = None;
     for result in results {

@@ -24,9 +24,11 @@ use sha2::{Digest, Sha256};
 use crate::export::material::{calibrated_material_toml, FittedValue, Provenance};
 use crate::export::write_atomically;
 use crate::fit::engine::{
-    initial_state, optimise, EngineSettings, EngineState, IterationReport, Observer, Outcome, Phase,
+    initial_state, optimise_on, EngineSettings, EngineState, IterationReport, Observer, Outcome,
+    Phase,
 };
-use crate::fit::identifiability::{analyse, Identifiability};
+use crate::fit::evaluator::{Evaluator, Local};
+use crate::fit::identifiability::{analyse_on, Identifiability};
 use crate::fit::job::{data_files, load_job, FitJob};
 use crate::fit::model::CaseModel;
 use crate::fit::objective::Objective;
@@ -432,6 +434,17 @@ pub fn run_fit(
     stop: Arc<AtomicBool>,
     pause: Arc<AtomicBool>,
 ) -> Result<FitReport, RunError> {
+    run_fit_on(job_path, options, stop, pause, &Local)
+}
+
+/// `run_fit` with the batches of evaluations (population, Jacobian) done by `evaluator`.
+pub fn run_fit_on<E: Evaluator>(
+    job_path: &Path,
+    options: &RunOptions,
+    stop: Arc<AtomicBool>,
+    pause: Arc<AtomicBool>,
+    evaluator: &E,
+) -> Result<FitReport, RunError> {
     let name = options.name.clone().unwrap_or_else(|| {
         job_path
             .file_stem()
@@ -590,7 +603,7 @@ pub fn run_fit(
     });
     let model = CaseModel::new(&job);
     let objective = Objective::new(&model, &job.cases);
-    let outcome = optimise(&objective, &settings, state, &mut recorder);
+    let outcome = optimise_on(&objective, evaluator, &settings, state, &mut recorder);
     if let Some(err) = recorder.io_error.take() {
         recorder.write_event(&ProgressEvent::Failed {
             message: err.to_string(),
@@ -601,7 +614,7 @@ pub fn run_fit(
         &dir,
         &job,
         &start_text,
-        &objective,
+        (&objective, evaluator),
         &model,
         &outcome,
         &provenance,
@@ -717,16 +730,16 @@ fn trim_progress(dir: &RunDirectory, iteration: u64) -> Result<(), RunError> {
     write_atomically(&path, kept.as_bytes()).map_err(io("cannot rewrite", &path))
 }
 
-fn finish(
+fn finish<E: Evaluator>(
     dir: &RunDirectory,
     job: &FitJob,
     start_text: &str,
-    objective: &Objective<'_, CaseModel<'_>>,
+    (objective, evaluator): (&Objective<'_, CaseModel<'_>>, &E),
     model: &CaseModel<'_>,
     outcome: &Outcome,
     provenance: &Provenance,
 ) -> Result<RunSummary, RunError> {
-    let analysis = analyse(objective, &outcome.best_values);
+    let analysis = analyse_on(objective, evaluator, &outcome.best_values);
     let (analysis, problem) = match analysis {
         Ok(a) => (Some(a), None),
         Err(e) => (None, Some(e.to_string())),
