@@ -6,6 +6,7 @@
 pub mod engine;
 pub mod identifiability;
 pub mod job;
+pub mod label;
 pub mod model;
 pub mod objective;
 pub mod parameters;

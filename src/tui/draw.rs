@@ -14,7 +14,7 @@ use ratatui::text::{Line, Span};
 use ratatui::widgets::{Axis, Block, Chart, Clear, Dataset, GraphType, Paragraph, Wrap};
 use ratatui::Frame;
 
-use crate::headless::significant;
+use crate::headless::{duration_words, interval_text, significant};
 
 use super::input::{footer_keys, help_lines, Mode, Screen, View};
 use super::state::{position_between, ParameterRow, Status, ViewerState, STRONG_CORRELATION};
@@ -137,8 +137,13 @@ fn header_line<'a>(scene: &Scene) -> Line<'a> {
         Mode::Attached => "",
         Mode::ReadOnly => "(read-only) ",
     };
+    let time_left = match (status, state.time_left_s()) {
+        (Status::Running, Some(left)) => format!("≈ {} to go  ", duration_text(left)),
+        _ => String::new(),
+    };
     Line::from(vec![
         Span::styled(format!(" [{}] ", status.label()), scene.look.status(status)),
+        Span::styled(time_left, scene.look.strong()),
         Span::styled(mode, scene.look.dim()),
         Span::styled(title, Style::default().add_modifier(Modifier::BOLD)),
     ])
@@ -175,15 +180,7 @@ fn footer_line<'a>(scene: &Scene) -> Line<'a> {
 
 /// A duration in words: 45 s, 12 min 05 s, 3 h 07 min.
 pub fn duration_text(seconds: f64) -> String {
-    if !seconds.is_finite() || seconds < 0.0 {
-        return "-".into();
-    }
-    let total = seconds.round() as u64;
-    match total {
-        0..=59 => format!("{seconds:.1} s"),
-        60..=3599 => format!("{} min {:02} s", total / 60, total % 60),
-        _ => format!("{} h {:02} min", total / 3600, (total % 3600) / 60),
-    }
+    duration_words(seconds)
 }
 
 fn label_value<'a>(label: &str, value: String, look: Look) -> Line<'a> {
@@ -264,6 +261,29 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
             },
             look,
         ));
+        lines.push(label_value(
+            "time left",
+            state.time_left_s().map_or_else(
+                || "-".into(),
+                |left| {
+                    format!(
+                        "≈ {} at the current rate (then local refinement, if any)",
+                        duration_text(left)
+                    )
+                },
+            ),
+            look,
+        ));
+        if scene.screen.mode == Mode::ReadOnly {
+            lines.push(label_value(
+                "stop it",
+                match state.holder_pid {
+                    Some(pid) => format!("kill -INT {pid}   (or s, then y)"),
+                    None => "from its own terminal (no run.lock names its pid)".into(),
+                },
+                look,
+            ));
+        }
     }
     lines.push(label_value(
         "checkpoint",
@@ -476,6 +496,130 @@ pub fn bound_bar(row: &ParameterRow, width: usize) -> String {
     format!("[{}]", cells.into_iter().collect::<String>())
 }
 
+/// Words for a signal's name in the run directory (`mlr` → `mass loss rate`); an unknown
+/// name is shown as it is.
+pub fn signal_title(signal: &str) -> String {
+    if let Some(depth) = signal
+        .strip_prefix("in_depth_temperature_")
+        .and_then(|d| d.strip_suffix("mm"))
+    {
+        return format!("temperature {depth} mm deep");
+    }
+    match signal {
+        "mlr" => "mass loss rate",
+        "hrr" => "heat release rate",
+        "mass" => "specimen mass",
+        "ignition_time" => "time to ignition",
+        "surface_temperature" => "surface temperature",
+        "back_temperature" => "back-face temperature",
+        "mass_fraction" => "TGA mass fraction",
+        "dsc_heat_flow" => "DSC heat flow",
+        "mcc_hrr" => "MCC heat release rate",
+        other => other,
+    }
+    .to_string()
+}
+
+/// What a σ source means, for the chart's legend.
+fn sigma_words(source: &str) -> &'static str {
+    match source {
+        "repeats" => "± σ of the repeat tests",
+        "sigma" => "± the job's stated noise σ",
+        "peak" => "σ here is the peak scale of a single test, not a measured spread: no band",
+        "rise" => "σ here is the rise of a single test, not a measured spread: no band",
+        _ => "σ of unknown origin: no band",
+    }
+}
+
+/// Splits `text` into lines of at most `width` characters at spaces (a word longer than the
+/// width is cut).
+pub fn wrap_words(text: &str, width: usize) -> Vec<String> {
+    let width = width.max(8);
+    let mut lines = Vec::new();
+    let mut line = String::new();
+    for word in text.split(' ') {
+        let mut word = word.to_string();
+        while word.chars().count() > width {
+            if !line.is_empty() {
+                lines.push(std::mem::take(&mut line));
+            }
+            let head: String = word.chars().take(width).collect();
+            word = word.chars().skip(width).collect();
+            lines.push(head);
+        }
+        let needed = line.chars().count() + usize::from(!line.is_empty()) + word.chars().count();
+        if needed > width && !line.is_empty() {
+            lines.push(std::mem::take(&mut line));
+        }
+        if !line.is_empty() {
+            line.push(' ');
+        }
+        line.push_str(&word);
+    }
+    if !line.is_empty() || lines.is_empty() {
+        lines.push(line);
+    }
+    lines
+}
+
+/// The part of a list that fits: items (each some lines) from `first`, whole, with a line
+/// saying what is above and below. Returns the lines and the first item actually shown
+/// (`first` clamped so the last page is full).
+pub fn scroll_window<'a>(
+    items: &[Vec<Line<'a>>],
+    height: usize,
+    first: usize,
+    what: &str,
+    look: Look,
+) -> (Vec<Line<'a>>, usize) {
+    let total: usize = items.iter().map(Vec::len).sum();
+    if total <= height || items.is_empty() {
+        return (items.iter().flatten().cloned().collect(), 0);
+    }
+    // Room for the two hint lines.
+    let room = height.saturating_sub(2).max(1);
+    // The largest first item whose tail still fills the room.
+    let mut last_first = items.len() - 1;
+    let mut tail = items[last_first].len();
+    while last_first > 0 && tail + items[last_first - 1].len() <= room {
+        last_first -= 1;
+        tail += items[last_first].len();
+    }
+    let first = first.min(last_first);
+    let mut shown = Vec::new();
+    let mut used = 0;
+    let mut end = first;
+    while end < items.len() && (used + items[end].len() <= room || end == first) {
+        used += items[end].len();
+        end += 1;
+    }
+    let n = items.len();
+    shown.push(Line::from(Span::styled(
+        if first > 0 {
+            format!("↑ {first} more above · {what} {}–{end} of {n}", first + 1)
+        } else {
+            format!("{what} {}–{end} of {n}", first + 1)
+        },
+        look.dim(),
+    )));
+    for item in &items[first..end] {
+        for line in item {
+            if shown.len() < height.saturating_sub(1) {
+                shown.push(line.clone());
+            }
+        }
+    }
+    shown.push(Line::from(Span::styled(
+        if end < n {
+            format!("↓ {} more below (↑↓ to scroll)", n - end)
+        } else {
+            "(end of the list; ↑ to scroll back)".to_string()
+        },
+        look.strong(),
+    )));
+    (shown, first)
+}
+
 fn draw_parameters(frame: &mut Frame, area: Rect, scene: &Scene) {
     let look = scene.look;
     let rows = scene.state.parameter_rows();
@@ -498,129 +642,172 @@ fn draw_parameters(frame: &mut Frame, area: Rect, scene: &Scene) {
         return;
     }
     let inner_width = area.width.saturating_sub(2) as usize;
+    let inner_height = area.height.saturating_sub(2) as usize;
     let label_width = rows
         .iter()
         .flat_map(|r| [significant(r.lower, 3), significant(r.upper, 3)])
         .map(|l| l.chars().count())
         .max()
         .unwrap_or(1);
-    let mut lines = vec![Line::from(Span::styled(
+    let legend = Line::from(Span::styled(
         "● best value   ═ 95 % interval   [ ] the bounds   ! a warning",
         look.dim(),
-    ))];
-    for row in &rows {
-        let unit = if row.unit.is_empty() {
-            String::new()
-        } else {
-            format!(" ({})", row.unit)
-        };
-        let value = row.value.map_or_else(|| "-".into(), |v| significant(v, 5));
-        let interval = row.interval_95.map_or_else(
-            || {
-                if is_final {
-                    "95 %: undetermined".into()
-                } else {
-                    String::new()
-                }
-            },
-            |(a, b)| format!("95 %: {} … {}", significant(a, 4), significant(b, 4)),
-        );
-        lines.push(Line::from(vec![
-            Span::styled(
-                row.name.clone(),
-                Style::default().add_modifier(Modifier::BOLD),
-            ),
-            Span::raw(unit),
-            Span::raw("  "),
-            Span::styled(value, look.strong()),
-            Span::raw(format!("  {interval}")),
-        ]));
-        let lower = significant(row.lower, 3);
-        let upper = significant(row.upper, 3);
-        let scale = if row.log_scale { " log" } else { "" };
-        let bar_width = inner_width
-            .saturating_sub(2 * label_width + 8 + scale.len())
-            .min(60);
-        lines.push(Line::from(format!(
-            "  {lower:>label_width$} {} {upper}{scale}",
-            bound_bar(row, bar_width)
-        )));
-        let mut warnings: Vec<String> = row.warnings.clone();
-        if warnings.is_empty() {
-            if row.is_at_bound {
-                warnings.push("at a bound".into());
+    ));
+    let items: Vec<Vec<Line>> = rows
+        .iter()
+        .map(|row| parameter_item(row, is_final, inner_width, label_width, look))
+        .collect();
+    let (mut lines, _) = scroll_window(
+        &items,
+        inner_height.saturating_sub(1),
+        scene.screen.scroll,
+        "parameters",
+        look,
+    );
+    lines.insert(0, legend);
+    frame.render_widget(Paragraph::new(lines).block(block), area);
+}
+
+/// One parameter's lines: label, value, interval; the full path and what it is; the bar;
+/// warnings.
+fn parameter_item<'a>(
+    row: &ParameterRow,
+    is_final: bool,
+    inner_width: usize,
+    label_width: usize,
+    look: Look,
+) -> Vec<Line<'a>> {
+    let value = row.value.map_or_else(|| "-".into(), |v| significant(v, 5));
+    let unit = if row.unit.is_empty() || row.unit == "–" {
+        String::new()
+    } else {
+        format!(" {}", row.unit)
+    };
+    let interval = row.interval_95.map_or_else(
+        || {
+            if is_final {
+                "95 %: undetermined".into()
+            } else {
+                String::new()
             }
-            if row.is_strongly_correlated {
-                warnings.push("strongly correlated".into());
-            }
-            if is_final && row.is_poorly_determined {
-                warnings.push("poorly determined".into());
-            }
+        },
+        |(a, b)| format!("95 %: {}", interval_text(a, b)),
+    );
+    let mut lines = vec![Line::from(vec![
+        Span::styled(
+            row.label.clone(),
+            Style::default().add_modifier(Modifier::BOLD),
+        ),
+        Span::raw(" = "),
+        Span::styled(value, look.strong()),
+        Span::raw(format!("{unit}  {interval}")),
+    ])];
+    let detail = if row.meaning.is_empty() || row.meaning == row.name {
+        row.name.clone()
+    } else {
+        format!("{}: {}", row.name, row.meaning)
+    };
+    for text in wrap_words(&detail, inner_width.saturating_sub(2)) {
+        lines.push(Line::from(Span::styled(format!("  {text}"), look.dim())));
+    }
+    let lower = significant(row.lower, 3);
+    let upper = significant(row.upper, 3);
+    let scale = if row.log_scale { " log" } else { "" };
+    let bar_width = inner_width
+        .saturating_sub(2 * label_width + 8 + scale.len())
+        .min(60);
+    lines.push(Line::from(format!(
+        "  {lower:>label_width$} {} {upper}{scale}",
+        bound_bar(row, bar_width)
+    )));
+    let mut warnings: Vec<String> = row.warnings.clone();
+    if warnings.is_empty() {
+        if row.is_at_bound {
+            warnings.push("at a bound".into());
         }
-        for warning in warnings {
-            lines.push(Line::from(Span::styled(
-                format!("  ! {warning}"),
-                look.warn(),
-            )));
+        if row.is_strongly_correlated {
+            warnings.push("strongly correlated".into());
+        }
+        if is_final && row.is_poorly_determined {
+            warnings.push("poorly determined".into());
         }
     }
-    frame.render_widget(
-        Paragraph::new(lines)
-            .wrap(Wrap { trim: false })
-            .block(block),
-        area,
-    );
+    for warning in warnings {
+        for text in wrap_words(&format!("! {warning}"), inner_width.saturating_sub(2)) {
+            lines.push(Line::from(Span::styled(format!("  {text}"), look.warn())));
+        }
+    }
+    lines
 }
 
 fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
     let look = scene.look;
-    let cases = scene.state.cases();
-    let shares = scene.state.case_shares();
-    let list_width = if area.width >= 120 { 34 } else { 24 };
+    let state = scene.state;
+    let cases = state.cases();
+    let shares = state.case_shares();
+    let list_width: u16 = if area.width >= 120 { 34 } else { 26 };
     let [list_area, charts_area] =
         Layout::horizontal([Constraint::Length(list_width), Constraint::Min(20)]).areas(area);
     let case_idx = scene.screen.case_idx.min(cases.len().saturating_sub(1));
-    let mut lines = vec![Line::from(Span::styled(
-        "share of the objective",
-        look.dim(),
-    ))];
+    let signal_idx = cases.get(case_idx).map_or(0, |(_, s)| {
+        scene.screen.signal_idx.min(s.len().saturating_sub(1))
+    });
+    let inner = list_width.saturating_sub(2) as usize;
+    let mut items: Vec<Vec<Line>> = Vec::new();
     for (i, (case, signals)) in cases.iter().enumerate() {
+        let mut item = Vec::new();
         let share = shares.iter().find(|s| &s.case == case).map(|s| s.share);
-        let marker = if i == case_idx { "›" } else { " " };
-        let style = if i == case_idx {
-            look.selected()
-        } else {
-            Style::default()
-        };
-        lines.push(Line::from(vec![
-            Span::raw(format!("{marker} ")),
-            Span::styled(case.clone(), style),
+        let is_selected = i == case_idx;
+        item.push(Line::from(vec![
+            Span::raw(if is_selected { "› " } else { "  " }),
+            Span::styled(
+                case.clone(),
+                if is_selected {
+                    look.selected()
+                } else {
+                    Style::default()
+                },
+            ),
             Span::raw(share.map_or_else(String::new, |s| format!(" {:>3.0} %", 100.0 * s))),
         ]));
         if let Some(share) = share {
-            let width = (list_width as usize).saturating_sub(6);
+            let width = inner.saturating_sub(4);
             let filled = ((share * width as f64).round() as usize).min(width);
-            lines.push(Line::from(format!(
+            item.push(Line::from(format!(
                 "  {}{}",
                 "█".repeat(filled),
                 "·".repeat(width - filled)
             )));
         }
-        if i == case_idx {
-            let signal_idx = scene.screen.signal_idx.min(signals.len().saturating_sub(1));
+        if is_selected {
             for (j, signal) in signals.iter().enumerate() {
+                let cost = state
+                    .part_cost(case, signal)
+                    .map_or_else(String::new, |c| format!(" {}", significant(c, 3)));
                 let (marker, style) = if j == signal_idx {
                     ("»", look.selected())
                 } else {
                     (" ", Style::default())
                 };
-                lines.push(Line::from(vec![
-                    Span::raw(format!("   {marker} ")),
+                item.push(Line::from(vec![
+                    Span::raw(format!("  {marker} ")),
                     Span::styled(signal.clone(), style),
+                    Span::styled(cost, look.dim()),
                 ]));
             }
         }
+        items.push(item);
     }
+    let list_height = list_area.height.saturating_sub(3) as usize;
+    // The selected case is kept in view: the window starts at it when the list overflows.
+    let (mut lines, _) = scroll_window(&items, list_height, case_idx, "cases", look);
+    lines.insert(
+        0,
+        Line::from(Span::styled(
+            "share of the objective; part costs",
+            look.dim(),
+        )),
+    );
     if cases.is_empty() {
         lines.push(Line::from("no cases yet"));
     }
@@ -629,65 +816,102 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
         list_area,
     );
     let Some((case, signals)) = cases.get(case_idx) else {
-        frame.render_widget(Block::bordered().title(" Residuals "), charts_area);
+        frame.render_widget(Block::bordered().title(" Fit "), charts_area);
         return;
     };
-    let signal = signals
-        .get(scene.screen.signal_idx.min(signals.len().saturating_sub(1)))
-        .cloned()
-        .unwrap_or_default();
-    let Some(curve) = scene.state.curve(case, &signal) else {
-        let text = if scene.state.is_over() {
+    let signal = signals.get(signal_idx).cloned().unwrap_or_default();
+    let entry = state.curve_entry(case, &signal);
+    let unit = entry.map(|e| e.unit.clone()).unwrap_or_default();
+    let with_unit = |text: String| {
+        if unit.is_empty() {
+            text
+        } else {
+            format!("{text} ({unit})")
+        }
+    };
+    let stamp = match (&state.curve_index, state.curves_are_live()) {
+        (Some(index), true) => format!(
+            "current best, iteration {}",
+            index
+                .iteration
+                .map_or_else(|| "?".into(), |i| i.to_string())
+        ),
+        (Some(_), false) => "final model".to_string(),
+        (None, _) => String::new(),
+    };
+    let heading = {
+        let base = with_unit(format!("{case} · {}", signal_title(&signal)));
+        if stamp.is_empty() {
+            format!(" {base} ")
+        } else {
+            format!(" {base} · {stamp} ")
+        }
+    };
+    let Some(curve) = state.curve(case, &signal) else {
+        let text = if state.is_over() {
             format!("no curve file for {case} / {signal} in cases/ (this run did not write one)")
         } else {
-            "the curves are written when the fit ends (cases/*.csv); the shares on the left are live"
+            "the model curves appear at the first checkpoint with a better model (cases/*.csv); the shares on the left are live"
                 .into()
         };
         frame.render_widget(
             Paragraph::new(text)
                 .wrap(Wrap { trim: false })
-                .block(Block::bordered().title(format!(" {case} · {signal} "))),
+                .block(Block::bordered().title(heading)),
             charts_area,
         );
         return;
     };
+    if curve.time_s.len() == 1 {
+        draw_scalar(frame, charts_area, scene, curve, &unit, heading);
+        return;
+    }
     let [top, bottom] = Layout::vertical([Constraint::Percentage(62), Constraint::Percentage(38)])
         .areas(charts_area);
     // Curves are averaged into bins of half a cell (the chart's resolution in braille), so
     // noise in the data does not fill the chart and the band reads as a band.
-    let n_bins = 2 * top.width.saturating_sub(8).max(10) as usize;
+    let n_bins = 2 * top.width.saturating_sub(12).max(10) as usize;
     let (t_min, t_max) = span(curve.time_s.iter().copied());
     let pairs = |ys: &[f64]| binned_means(&curve.time_s, ys, t_min, t_max, n_bins);
     let measured = pairs(&curve.measured);
     let model = pairs(&curve.model);
-    let band_upper: Vec<f64> = curve
-        .measured
-        .iter()
-        .zip(&curve.sigma)
-        .map(|(m, s)| m + s)
-        .collect();
-    let band_lower: Vec<f64> = curve
-        .measured
-        .iter()
-        .zip(&curve.sigma)
-        .map(|(m, s)| m - s)
-        .collect();
-    let upper = pairs(&band_upper);
-    let lower = pairs(&band_lower);
     let (x_min, x_max) = span(measured.iter().map(|p| p.0));
-    // The range follows the measured and model curves; a wide band is clipped, not allowed to
-    // flatten the curves.
+    // The range follows the measured and model curves; a band wider than that is cut off.
     let (y_min, y_max) = span(measured.iter().chain(&model).map(|p| p.1));
     let margin = 0.05 * (y_max - y_min);
     let (y_min, y_max) = (y_min - margin, y_max + margin);
+    let inside = |points: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
+        points
+            .into_iter()
+            .filter(|(x, y)| (x_min..=x_max).contains(x) && (y_min..=y_max).contains(y))
+            .collect()
+    };
+    let sigma_source = entry.map(|e| e.sigma_source.as_str()).unwrap_or("");
+    let has_band =
+        !curve.sigma.is_empty() && crate::run::curves::is_measurement_spread(sigma_source);
+    let (upper, lower) = if has_band {
+        let shifted = |sign: f64| -> Vec<f64> {
+            curve
+                .measured
+                .iter()
+                .zip(&curve.sigma)
+                .map(|(m, s)| m + sign * s)
+                .collect()
+        };
+        (inside(pairs(&shifted(1.0))), inside(pairs(&shifted(-1.0))))
+    } else {
+        (Vec::new(), Vec::new())
+    };
+    let measured = inside(measured);
+    let model = inside(model);
     let mut datasets = Vec::new();
-    let has_band = !curve.sigma.is_empty();
-    if has_band {
-        for band in [&upper, &lower] {
+    // The band as dots, not lines: a line leaving the range would be drawn along its edge.
+    for band in [&upper, &lower] {
+        if !band.is_empty() {
             datasets.push(
                 Dataset::default()
                     .marker(Marker::Braille)
-                    .graph_type(GraphType::Line)
+                    .graph_type(GraphType::Scatter)
                     .style(look.dim())
                     .data(band),
             );
@@ -707,33 +931,53 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             .style(look.strong())
             .data(&model),
     );
-    let legend = format!(
-        " {case} · {signal}   • measured{}   ▀ model ",
-        if has_band { "   ⠤ ±σ band" } else { "" }
-    );
-    let x_axis = |title: &'static str| {
+    let band_words = if curve.sigma.is_empty() {
+        "no σ in the file".to_string()
+    } else if has_band {
+        format!("⠒ measured {}", sigma_words(sigma_source))
+    } else {
+        sigma_words(sigma_source).to_string()
+    };
+    let legend = Line::from(Span::styled(
+        format!(" • measured   ▀ model   {band_words}"),
+        look.dim(),
+    ));
+    let time_axis = |title: &'static str| {
         Axis::default()
             .title(title)
             .bounds([x_min, x_max])
             .labels(vec![
                 Line::from(format!("{x_min:.0}")),
-                Line::from(format!("{x_max:.0} s")),
+                Line::from(format!("{:.0}", (x_min + x_max) / 2.0)),
+                Line::from(format!("{x_max:.0}")),
             ])
     };
+    let chart_block = Block::bordered().title(heading).title_bottom(legend);
+    let y_title = if unit.is_empty() {
+        "unit not recorded".to_string()
+    } else {
+        unit.clone()
+    };
     let chart = Chart::new(datasets)
-        .block(Block::bordered().title(legend))
+        .block(chart_block)
         .legend_position(None)
-        .x_axis(x_axis(""))
-        .y_axis(Axis::default().bounds([y_min, y_max]).labels(vec![
-            Line::from(significant(y_min, 3)),
-            Line::from(significant(y_max, 3)),
-        ]));
+        .x_axis(time_axis("time (s)"))
+        .y_axis(
+            Axis::default()
+                .title(y_title)
+                .bounds([y_min, y_max])
+                .labels(vec![
+                    Line::from(significant(y_min, 3)),
+                    Line::from(significant((y_min + y_max) / 2.0, 3)),
+                    Line::from(significant(y_max, 3)),
+                ]),
+        );
     frame.render_widget(chart, top);
     let residuals: Vec<(f64, f64)> = curve
         .time_s
         .iter()
         .zip(&curve.residual)
-        .filter(|(t, r)| t.is_finite() && r.is_finite())
+        .filter(|(t, r)| t.is_finite() && r.is_finite() && (x_min..=x_max).contains(*t))
         .map(|(t, r)| (*t, *r))
         .collect();
     if residuals.is_empty() {
@@ -750,6 +994,11 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
         .fold(0.0_f64, f64::max)
         .max(1e-9);
     let zero = [(x_min, 0.0), (x_max, 0.0)];
+    let part = state
+        .part_cost(case, &signal)
+        .map_or_else(String::new, |c| {
+            format!(" · part of the objective {}", significant(c, 4))
+        });
     let chart = Chart::new(vec![
         Dataset::default()
             .marker(Marker::Braille)
@@ -762,9 +1011,11 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             .style(look.accent())
             .data(&residuals),
     ])
-    .block(Block::bordered().title(" residual (model − measured)/σ   • residual   ⠤ zero "))
+    .block(Block::bordered().title(format!(
+        " residual (model − measured)/σ against time{part} "
+    )))
     .legend_position(None)
-    .x_axis(x_axis("time"))
+    .x_axis(time_axis("time (s)"))
     .y_axis(Axis::default().bounds([-extent, extent]).labels(vec![
         Line::from(significant(-extent, 2)),
         Line::from("0"),
@@ -773,20 +1024,66 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
     frame.render_widget(chart, bottom);
 }
 
-fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
+/// A signal with one value (the time to ignition): the numbers, not a one-point chart.
+fn draw_scalar(
+    frame: &mut Frame,
+    area: Rect,
+    scene: &Scene,
+    curve: &super::state::CaseCurve,
+    unit: &str,
+    heading: String,
+) {
     let look = scene.look;
-    let Some(summary) = &scene.state.summary else {
-        let text = if scene.state.is_over() {
-            "this run has no summary.json (it ended before writing one)"
+    let measured = curve.measured[0];
+    let model = curve.model.first().copied().unwrap_or(f64::NAN);
+    let sigma = curve.sigma.first().copied().unwrap_or(f64::NAN);
+    let difference = model - measured;
+    let with_unit = |v: f64| {
+        if unit.is_empty() {
+            significant(v, 4)
         } else {
-            "the summary and the correlation matrix appear when the fit ends (summary.json)"
-        };
-        frame.render_widget(
-            Paragraph::new(text).block(Block::bordered().title(" Summary ")),
-            area,
-        );
-        return;
+            format!("{} {unit}", significant(v, 4))
+        }
     };
+    let percent = if measured != 0.0 && measured.is_finite() {
+        format!(" ({:+.1} %)", 100.0 * difference / measured)
+    } else {
+        String::new()
+    };
+    let mut lines = vec![
+        label_value("measured", with_unit(measured), look),
+        label_value("model", with_unit(model), look),
+        label_value(
+            "difference",
+            format!(
+                "{}{}{percent}",
+                if difference > 0.0 { "+" } else { "" },
+                with_unit(difference)
+            ),
+            look,
+        ),
+    ];
+    if sigma.is_finite() {
+        lines.push(label_value(
+            "σ",
+            format!(
+                "{} (residual {:+.2} σ)",
+                with_unit(sigma),
+                difference / sigma
+            ),
+            look,
+        ));
+    }
+    frame.render_widget(
+        Paragraph::new(lines)
+            .wrap(Wrap { trim: false })
+            .block(Block::bordered().title(heading)),
+        area,
+    );
+}
+
+fn summary_text_lines<'a>(scene: &Scene, summary: &super::state::SummaryView) -> Vec<Line<'a>> {
+    let look = scene.look;
     let mut lines = Vec::new();
     if let Some(title) = &summary.title {
         lines.push(Line::from(Span::styled(
@@ -828,25 +1125,33 @@ fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
             None => by_case.push((part.case.clone(), vec![cost])),
         }
     }
+    if !by_case.is_empty() {
+        lines.push(Line::from(Span::styled(
+            "parts of the objective:",
+            look.dim(),
+        )));
+    }
     for (case, costs) in by_case {
         lines.push(Line::from(format!("  {case}: {}", costs.join(", "))));
     }
-    // With room to spare, the parameters too (the Parameters view has them at any size).
-    if area.height >= 30 {
-        lines.push(Line::from(""));
-        for row in scene.state.parameter_rows() {
-            let interval = row.interval_95.map_or_else(
-                || "undetermined".into(),
-                |(a, b)| format!("{} … {}", significant(a, 4), significant(b, 4)),
-            );
-            lines.push(Line::from(format!(
-                "  {} = {} {}  (95 %: {interval})",
-                row.name,
-                row.value.map_or_else(|| "-".into(), |v| significant(v, 5)),
-                row.unit
-            )));
-        }
-        lines.push(Line::from(""));
+    lines.push(Line::from(Span::styled(
+        "parameters (95 % intervals):",
+        look.dim(),
+    )));
+    for row in scene.state.parameter_rows() {
+        let interval = row
+            .interval_95
+            .map_or_else(|| "undetermined".into(), |(a, b)| interval_text(a, b));
+        let unit = if row.unit.is_empty() || row.unit == "–" {
+            String::new()
+        } else {
+            format!(" {}", row.unit)
+        };
+        lines.push(Line::from(format!(
+            "  {} = {}{unit}  ({interval})",
+            row.label,
+            row.value.map_or_else(|| "-".into(), |v| significant(v, 5)),
+        )));
     }
     if let Some(problem) = &summary.identifiability_problem {
         lines.push(Line::from(Span::styled(
@@ -864,33 +1169,119 @@ fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
         "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.",
         look.dim(),
     )));
-    let matrix = correlation_lines(scene);
-    let (text_area, matrix_area) = if area.width >= 150 {
+    lines
+}
+
+fn draw_summary(frame: &mut Frame, area: Rect, scene: &Scene) {
+    let look = scene.look;
+    let Some(summary) = &scene.state.summary else {
+        let text = if scene.state.is_over() {
+            "this run has no summary.json (it ended before writing one)"
+        } else {
+            "the summary and the correlation matrix appear when the fit ends (summary.json); the Residuals view shows the current best model"
+        };
+        frame.render_widget(
+            Paragraph::new(text)
+                .wrap(Wrap { trim: false })
+                .block(Block::bordered().title(" Summary ")),
+            area,
+        );
+        return;
+    };
+    let is_wide = area.width >= 150;
+    let text_width = if is_wide {
+        area.width * 45 / 100
+    } else {
+        area.width
+    };
+    let wrap_to = text_width.saturating_sub(2) as usize;
+    // Wrapped here (not by the paragraph) so the scrolling counts real lines.
+    let wrap = |lines: Vec<Line<'static>>| -> Vec<Vec<Line<'static>>> {
+        lines
+            .into_iter()
+            .map(|line| {
+                let style = line.spans.first().map(|s| s.style).unwrap_or_default();
+                let text: String = line.spans.iter().map(|s| s.content.as_ref()).collect();
+                if text.chars().count() <= wrap_to {
+                    vec![line]
+                } else {
+                    wrap_words(&text, wrap_to)
+                        .into_iter()
+                        .map(|t| Line::from(Span::styled(t, style)))
+                        .collect()
+                }
+            })
+            .collect()
+    };
+    let text = summary_text_lines(scene, summary);
+    let matrix_title = format!(" Correlation: [±r] marks |r| ≥ {STRONG_CORRELATION} ");
+    if is_wide {
         let [a, b] = Layout::horizontal([Constraint::Percentage(45), Constraint::Percentage(55)])
             .areas(area);
-        (a, b)
-    } else {
-        let needed = matrix.len() as u16 + 2;
-        let [a, b] = Layout::vertical([Constraint::Min(4), Constraint::Length(needed)]).areas(area);
-        (a, b)
-    };
-    frame.render_widget(
-        Paragraph::new(lines)
-            .wrap(Wrap { trim: false })
-            .block(Block::bordered().title(" Summary ")),
-        text_area,
+        let (lines, _) = scroll_window(
+            &wrap(text),
+            a.height.saturating_sub(2) as usize,
+            scene.screen.scroll,
+            "lines",
+            look,
+        );
+        frame.render_widget(
+            Paragraph::new(lines).block(Block::bordered().title(" Summary ")),
+            a,
+        );
+        let matrix = correlation_lines(scene, b.width.saturating_sub(2) as usize);
+        frame.render_widget(
+            Paragraph::new(matrix).block(Block::bordered().title(matrix_title)),
+            b,
+        );
+        return;
+    }
+    // Narrow: one list, the matrix after the text.
+    let mut all = text;
+    all.push(Line::from(""));
+    all.push(Line::from(Span::styled(
+        matrix_title.trim().to_string(),
+        look.dim(),
+    )));
+    all.extend(correlation_lines(scene, wrap_to));
+    let (lines, _) = scroll_window(
+        &wrap(all),
+        area.height.saturating_sub(2) as usize,
+        scene.screen.scroll,
+        "lines",
+        look,
     );
     frame.render_widget(
-        Paragraph::new(matrix).block(Block::bordered().title(format!(
-            " Correlation: [±r] marks |r| ≥ {STRONG_CORRELATION} "
-        ))),
-        matrix_area,
+        Paragraph::new(lines).block(Block::bordered().title(" Summary ")),
+        area,
     );
 }
 
-/// The correlation matrix as text: parameters numbered, strong off-diagonal entries in
-/// brackets (and bold, and red when there is colour).
-fn correlation_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
+/// An entry of the correlation matrix in `width` characters; strong ones in brackets.
+fn correlation_cell(r: Option<f64>, is_diagonal: bool, width: usize) -> (String, bool) {
+    let Some(r) = r else {
+        return (format!("{:>width$}", "-"), false);
+    };
+    let is_strong = !is_diagonal && r.abs() >= STRONG_CORRELATION;
+    let number = if width >= 7 {
+        format!("{r:+.2}")
+    } else if r.abs() >= 0.995 {
+        format!("{r:+.1}")
+    } else {
+        // "+0.97" → "+.97" to fit six characters with the brackets.
+        format!("{r:+.2}").replacen("0.", ".", 1)
+    };
+    if is_strong {
+        (format!("{:>width$}", format!("[{number}]")), true)
+    } else {
+        (format!("{:>width$}", format!("{number} ")), false)
+    }
+}
+
+/// The correlation matrix as text in `width` columns: rows named by the parameters' short
+/// labels when they fit, else numbered with the labels listed below; strong off-diagonal
+/// entries in brackets (and bold, and red when there is colour).
+fn correlation_lines<'a>(scene: &Scene, width: usize) -> Vec<Line<'a>> {
     let look = scene.look;
     let Some(matrix) = scene.state.correlation() else {
         let reason = match scene
@@ -904,41 +1295,57 @@ fn correlation_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
         };
         return vec![Line::from(reason)];
     };
-    let names: Vec<String> = scene
+    let labels: Vec<String> = scene
         .state
         .parameter_rows()
         .iter()
-        .map(|r| r.name.clone())
+        .map(|r| r.label.clone())
         .collect();
+    let n = matrix.len();
+    let cell = if 4 + 7 * n <= width { 7 } else { 6 };
+    let label_width = labels.iter().map(|l| l.chars().count()).max().unwrap_or(0);
+    let named_rows = 4 + label_width + 1 + cell * n <= width;
+    let row_head = if named_rows { 4 + label_width + 1 } else { 4 };
     let mut lines = Vec::new();
-    let mut header = vec![Span::raw("    ")];
-    for j in 0..matrix.len() {
-        header.push(Span::styled(format!("{:>8}", j + 1), look.dim()));
+    let mut header = vec![Span::raw(" ".repeat(row_head))];
+    for j in 0..n {
+        header.push(Span::styled(format!("{:>cell$}", j + 1), look.dim()));
     }
     lines.push(Line::from(header));
     for (i, row) in matrix.iter().enumerate() {
-        let mut spans = vec![Span::styled(format!("{:>3} ", i + 1), look.dim())];
+        let head = if named_rows {
+            format!(
+                "{:>3} {:<label_width$} ",
+                i + 1,
+                labels.get(i).cloned().unwrap_or_default()
+            )
+        } else {
+            format!("{:>3} ", i + 1)
+        };
+        let mut spans = vec![Span::styled(head, look.dim())];
         for (j, r) in row.iter().enumerate() {
-            let span = match r {
-                Some(r) if i != j && r.abs() >= STRONG_CORRELATION => {
-                    Span::styled(format!(" [{r:+.2}]"), look.warn())
-                }
-                Some(r) => Span::raw(format!("  {r:+.2} ")),
-                None => Span::raw(format!("{:>8}", "-")),
-            };
-            spans.push(span);
+            let (text, is_strong) = correlation_cell(*r, i == j, cell);
+            spans.push(if is_strong {
+                Span::styled(text, look.warn())
+            } else {
+                Span::raw(text)
+            });
         }
-        spans.push(Span::raw(format!(
-            "  {}",
-            names.get(i).cloned().unwrap_or_default()
-        )));
         lines.push(Line::from(spans));
+    }
+    if !named_rows {
+        for (i, label) in labels.iter().enumerate() {
+            lines.push(Line::from(Span::styled(
+                format!("{:>3} {label}", i + 1),
+                look.dim(),
+            )));
+        }
     }
     lines
 }
 
 fn draw_help(frame: &mut Frame, area: Rect, scene: &Scene) {
-    let lines: Vec<Line> = help_lines(scene.screen.mode)
+    let lines: Vec<Line> = help_lines(scene.screen.mode, scene.state.holder_pid)
         .into_iter()
         .map(Line::from)
         .collect();
@@ -1262,6 +1669,8 @@ mod tests {
     fn the_bound_bar_places_value_and_interval() {
         let row = ParameterRow {
             name: "x".into(),
+            label: "x".into(),
+            meaning: String::new(),
             unit: String::new(),
             value: Some(5.0),
             lower: 0.0,
