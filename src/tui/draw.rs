@@ -520,6 +520,39 @@ pub fn signal_title(signal: &str) -> String {
     .to_string()
 }
 
+/// A signal's name in a few characters, for lists (`ignition_time` → `t ignition`).
+pub fn signal_short(signal: &str) -> String {
+    if let Some(depth) = signal
+        .strip_prefix("in_depth_temperature_")
+        .and_then(|d| d.strip_suffix("mm"))
+    {
+        return format!("T {depth} mm");
+    }
+    match signal {
+        "mlr" => "MLR",
+        "hrr" => "HRR",
+        "mass" => "mass",
+        "ignition_time" => "t ignition",
+        "surface_temperature" => "T surface",
+        "back_temperature" => "T back face",
+        "mass_fraction" => "TGA mass",
+        "dsc_heat_flow" => "DSC",
+        "mcc_hrr" => "MCC HRR",
+        other => other,
+    }
+    .to_string()
+}
+
+/// What a σ source means, for a narrow chart's legend.
+fn sigma_words_short(source: &str) -> &'static str {
+    match source {
+        "repeats" => "± σ of repeats",
+        "sigma" => "± stated noise σ",
+        "peak" | "rise" => "no band: σ is a scale",
+        _ => "no band",
+    }
+}
+
 /// What a σ source means, for the chart's legend.
 fn sigma_words(source: &str) -> &'static str {
     match source {
@@ -791,23 +824,29 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
                 };
                 item.push(Line::from(vec![
                     Span::raw(format!("  {marker} ")),
-                    Span::styled(signal.clone(), style),
+                    Span::styled(signal_short(signal), style),
                     Span::styled(cost, look.dim()),
                 ]));
             }
         }
         items.push(item);
     }
-    let list_height = list_area.height.saturating_sub(3) as usize;
+    let list_height = list_area.height.saturating_sub(4) as usize;
     // The selected case is kept in view: the window starts at it when the list overflows.
     let (mut lines, _) = scroll_window(&items, list_height, case_idx, "cases", look);
-    lines.insert(
-        0,
-        Line::from(Span::styled(
-            "share of the objective; part costs",
-            look.dim(),
-        )),
-    );
+    let model_words = match (&state.curve_index, state.curves_are_live()) {
+        (Some(index), true) => format!(
+            "live: best at iter. {}",
+            index
+                .iteration
+                .map_or_else(|| "?".into(), |i| i.to_string())
+        ),
+        (Some(_), false) => "model: the final one".to_string(),
+        (None, _) if state.is_over() => "model: as in cases/".to_string(),
+        (None, _) => "model: none yet".to_string(),
+    };
+    lines.insert(0, Line::from(Span::styled(model_words, look.strong())));
+    lines.insert(1, Line::from(Span::styled("share · part cost", look.dim())));
     if cases.is_empty() {
         lines.push(Line::from("no cases yet"));
     }
@@ -829,24 +868,21 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             format!("{text} ({unit})")
         }
     };
+    let is_narrow = charts_area.width < 100;
     let stamp = match (&state.curve_index, state.curves_are_live()) {
-        (Some(index), true) => format!(
-            "current best, iteration {}",
+        (Some(index), true) if !is_narrow => format!(
+            " · best model so far (iteration {})",
             index
                 .iteration
                 .map_or_else(|| "?".into(), |i| i.to_string())
         ),
-        (Some(_), false) => "final model".to_string(),
-        (None, _) => String::new(),
+        (Some(_), false) if !is_narrow => " · final model".to_string(),
+        _ => String::new(),
     };
-    let heading = {
-        let base = with_unit(format!("{case} · {}", signal_title(&signal)));
-        if stamp.is_empty() {
-            format!(" {base} ")
-        } else {
-            format!(" {base} · {stamp} ")
-        }
-    };
+    let heading = format!(
+        " {}{stamp} ",
+        with_unit(format!("{case} · {}", signal_title(&signal)))
+    );
     let Some(curve) = state.curve(case, &signal) else {
         let text = if state.is_over() {
             format!("no curve file for {case} / {signal} in cases/ (this run did not write one)")
@@ -872,23 +908,14 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
     // noise in the data does not fill the chart and the band reads as a band.
     let n_bins = 2 * top.width.saturating_sub(12).max(10) as usize;
     let (t_min, t_max) = span(curve.time_s.iter().copied());
-    let pairs = |ys: &[f64]| binned_means(&curve.time_s, ys, t_min, t_max, n_bins);
-    let measured = pairs(&curve.measured);
-    let model = pairs(&curve.model);
-    let (x_min, x_max) = span(measured.iter().map(|p| p.0));
-    // The range follows the measured and model curves; a band wider than that is cut off.
-    let (y_min, y_max) = span(measured.iter().chain(&model).map(|p| p.1));
-    let margin = 0.05 * (y_max - y_min);
-    let (y_min, y_max) = (y_min - margin, y_max + margin);
-    let inside = |points: Vec<(f64, f64)>| -> Vec<(f64, f64)> {
-        points
-            .into_iter()
-            .filter(|(x, y)| (x_min..=x_max).contains(x) && (y_min..=y_max).contains(y))
-            .collect()
-    };
+    let pairs = |ys: &[f64], n: usize| binned_means(&curve.time_s, ys, t_min, t_max, n);
+    let measured = pairs(&curve.measured, n_bins);
+    let model = pairs(&curve.model, n_bins);
     let sigma_source = entry.map(|e| e.sigma_source.as_str()).unwrap_or("");
     let has_band =
         !curve.sigma.is_empty() && crate::run::curves::is_measurement_spread(sigma_source);
+    // The band is a measured spread: drawn smoother than the data (a quarter of the bins) and
+    // always inside the range, so no line of it runs along the chart's edge.
     let (upper, lower) = if has_band {
         let shifted = |sign: f64| -> Vec<f64> {
             curve
@@ -898,20 +925,32 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
                 .map(|(m, s)| m + sign * s)
                 .collect()
         };
-        (inside(pairs(&shifted(1.0))), inside(pairs(&shifted(-1.0))))
+        (
+            pairs(&shifted(1.0), n_bins / 4),
+            pairs(&shifted(-1.0), n_bins / 4),
+        )
     } else {
         (Vec::new(), Vec::new())
     };
-    let measured = inside(measured);
-    let model = inside(model);
+    let (x_min, x_max) = span(measured.iter().map(|p| p.0));
+    // The range follows the measured and model curves (and a drawn band).
+    let (y_min, y_max) = span(
+        measured
+            .iter()
+            .chain(&model)
+            .chain(&upper)
+            .chain(&lower)
+            .map(|p| p.1),
+    );
+    let margin = 0.05 * (y_max - y_min);
+    let (y_min, y_max) = (y_min - margin, y_max + margin);
     let mut datasets = Vec::new();
-    // The band as dots, not lines: a line leaving the range would be drawn along its edge.
     for band in [&upper, &lower] {
         if !band.is_empty() {
             datasets.push(
                 Dataset::default()
                     .marker(Marker::Braille)
-                    .graph_type(GraphType::Scatter)
+                    .graph_type(GraphType::Line)
                     .style(look.dim())
                     .data(band),
             );
@@ -931,12 +970,17 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             .style(look.strong())
             .data(&model),
     );
+    let words = if is_narrow {
+        sigma_words_short
+    } else {
+        sigma_words
+    };
     let band_words = if curve.sigma.is_empty() {
         "no σ in the file".to_string()
     } else if has_band {
-        format!("⠒ measured {}", sigma_words(sigma_source))
+        format!("⠒ measured {}", words(sigma_source))
     } else {
-        sigma_words(sigma_source).to_string()
+        words(sigma_source).to_string()
     };
     let legend = Line::from(Span::styled(
         format!(" • measured   ▀ model   {band_words}"),
@@ -997,8 +1041,17 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
     let part = state
         .part_cost(case, &signal)
         .map_or_else(String::new, |c| {
-            format!(" · part of the objective {}", significant(c, 4))
+            if is_narrow {
+                format!(" · part {}", significant(c, 4))
+            } else {
+                format!(" · part of the objective {}", significant(c, 4))
+            }
         });
+    let residual_title = if is_narrow {
+        format!(" (model − measured)/σ{part} ")
+    } else {
+        format!(" residual (model − measured)/σ against time{part} ")
+    };
     let chart = Chart::new(vec![
         Dataset::default()
             .marker(Marker::Braille)
@@ -1011,9 +1064,7 @@ fn draw_residuals(frame: &mut Frame, area: Rect, scene: &Scene) {
             .style(look.accent())
             .data(&residuals),
     ])
-    .block(Block::bordered().title(format!(
-        " residual (model − measured)/σ against time{part} "
-    )))
+    .block(Block::bordered().title(residual_title))
     .legend_position(None)
     .x_axis(time_axis("time (s)"))
     .y_axis(Axis::default().bounds([-extent, extent]).labels(vec![
@@ -1117,7 +1168,7 @@ fn summary_text_lines<'a>(scene: &Scene, summary: &super::state::SummaryView) ->
     for part in summary.parts.iter().flatten() {
         let cost = format!(
             "{} {}",
-            part.signal,
+            signal_short(&part.signal),
             part.cost.map_or_else(|| "-".into(), |c| significant(c, 4))
         );
         match by_case.iter_mut().find(|(case, _)| *case == part.case) {
@@ -1373,13 +1424,31 @@ mod tests {
     use crate::tui::source::RunSource;
     use ratatui::backend::TestBackend;
     use ratatui::Terminal;
+    use std::path::{Path, PathBuf};
+    use std::time::{Duration, UNIX_EPOCH};
 
+    /// The fixed clock of every test: the fixture files' times are set from it, so nothing
+    /// depends on when the repository was checked out.
+    const CLOCK_S: u64 = 1_800_000_000;
+
+    fn at(seconds_after: u64) -> SystemTime {
+        UNIX_EPOCH + Duration::from_secs(CLOCK_S + seconds_after)
+    }
+
+    fn fixtures() -> PathBuf {
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui")
+    }
+
+    /// A fixture run read as a viewer reads it, with its file times on the fixed clock: the
+    /// last progress line and checkpoint 3 s before `now`.
     fn fixture(name: &str) -> ViewerState {
-        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-            .join("tests/fixtures/tui")
-            .join(name);
         let mut state = ViewerState::default();
-        RunSource::new(&root).refresh(&mut state);
+        RunSource::new(&fixtures().join(name)).refresh(&mut state);
+        state.progress_modified = Some(at(0));
+        state.checkpoint_modified = state.checkpoint_modified.map(|_| at(0));
+        if name == "live-run" {
+            state.checkpoint_modified = Some(at(0));
+        }
         state
     }
 
@@ -1391,26 +1460,60 @@ mod tests {
         height: u16,
     ) -> Terminal<TestBackend> {
         let mut terminal = Terminal::new(TestBackend::new(width, height)).unwrap();
+        let mut screen = screen.clone();
+        screen.holder_pid = state.holder_pid;
         let scene = Scene {
             state,
-            screen,
+            screen: &screen,
             look,
-            now: SystemTime::now(),
+            now: at(3),
         };
         terminal.draw(|frame| draw(frame, &scene)).unwrap();
         terminal
     }
 
-    fn text(terminal: &Terminal<TestBackend>) -> String {
+    /// The screen's rows, exactly as drawn (trailing blanks trimmed).
+    fn rows(terminal: &Terminal<TestBackend>) -> Vec<String> {
         let buffer = terminal.backend().buffer();
-        let mut out = String::new();
-        for y in 0..buffer.area.height {
-            for x in 0..buffer.area.width {
-                out.push_str(buffer[(x, y)].symbol());
-            }
-            out.push('\n');
+        (0..buffer.area.height)
+            .map(|y| {
+                let mut row = String::new();
+                for x in 0..buffer.area.width {
+                    row.push_str(buffer[(x, y)].symbol());
+                }
+                row.trim_end().to_string()
+            })
+            .collect()
+    }
+
+    fn text(terminal: &Terminal<TestBackend>) -> String {
+        rows(terminal).join("\n")
+    }
+
+    /// Compares the drawn rows with `tests/fixtures/tui/snapshots/<name>.txt` line by line
+    /// (EMBERFIT_UPDATE_SNAPSHOTS=1 rewrites the file instead; look at the diff).
+    fn assert_snapshot(name: &str, terminal: &Terminal<TestBackend>) {
+        let drawn = rows(terminal);
+        let path = fixtures().join("snapshots").join(format!("{name}.txt"));
+        if std::env::var_os("EMBERFIT_UPDATE_SNAPSHOTS").is_some() {
+            std::fs::create_dir_all(path.parent().unwrap()).unwrap();
+            std::fs::write(&path, drawn.join("\n") + "\n").unwrap();
+            return;
         }
-        out
+        let expected =
+            std::fs::read_to_string(&path).unwrap_or_else(|e| panic!("{}: {e}", path.display()));
+        let expected: Vec<&str> = expected.lines().collect();
+        assert_eq!(
+            drawn.len(),
+            expected.len(),
+            "{name}: {} rows drawn, {} in the snapshot\n{}",
+            drawn.len(),
+            expected.len(),
+            drawn.join("\n")
+        );
+        for (y, (got, want)) in drawn.iter().zip(&expected).enumerate() {
+            assert_eq!(got, want, "{name}: row {y} differs\n{}", drawn.join("\n"));
+        }
     }
 
     fn screen_on(view: View, mode: Mode) -> Screen {
@@ -1421,49 +1524,127 @@ mod tests {
 
     const COLOUR: Look = Look { is_colour: true };
 
-    #[test]
-    fn the_progress_view_shows_status_objective_rate_and_chart_at_80_by_24() {
-        let state = fixture("finished-run");
-        let screen = screen_on(View::Progress, Mode::ReadOnly);
-        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
-        for expected in [
-            "[FINISHED]",
-            "(read-only) bench: Ridgeline facing",
-            "[1 Progress]",
-            "best objective  27.4798",
-            "evaluations     640",
-            "evaluations/s",
-            "Best objective against evaluations (log scale)",
-            "q quit",
-            "? help",
-        ] {
-            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+    fn view_name(view: View) -> &'static str {
+        match view {
+            View::Progress => "progress",
+            View::Parameters => "parameters",
+            View::Residuals => "residuals",
+            View::Summary => "summary",
         }
-        // The chart draws the history with braille dots.
-        assert!(
-            shown
-                .chars()
-                .any(|c| ('\u{2801}'..='\u{28ff}').contains(&c)),
-            "{shown}"
+    }
+
+    #[test]
+    fn every_view_of_a_finished_and_a_live_run_matches_its_snapshot_at_both_sizes() {
+        for (run, mode) in [
+            ("finished-run", Mode::Attached),
+            ("live-run", Mode::ReadOnly),
+        ] {
+            let state = fixture(run);
+            for view in View::ALL {
+                for (width, height) in [(80, 24), (200, 60)] {
+                    let screen = screen_on(view, mode);
+                    assert_snapshot(
+                        &format!("{run}-{}-{width}x{height}", view_name(view)),
+                        &render(&state, &screen, COLOUR, width, height),
+                    );
+                }
+            }
+        }
+    }
+
+    #[test]
+    fn the_residuals_of_each_kind_of_signal_match_their_snapshots() {
+        let state = fixture("finished-run");
+        // Signal 1 (hrr) has a stated noise σ: the band is drawn. Signal 2 is the time to
+        // ignition: numbers, no chart. Signal 0 (mlr, σ the peak scale): no band.
+        for (case, signal, name) in [(0, 1, "hrr"), (0, 2, "ignition"), (1, 0, "mlr")] {
+            let mut screen = screen_on(View::Residuals, Mode::Attached);
+            screen.case_idx = case;
+            screen.signal_idx = signal;
+            for (width, height) in [(80, 24), (200, 60)] {
+                assert_snapshot(
+                    &format!("finished-run-residuals-{name}-{width}x{height}"),
+                    &render(&state, &screen, COLOUR, width, height),
+                );
+            }
+        }
+    }
+
+    #[test]
+    fn scrolled_lists_and_the_help_match_their_snapshots() {
+        let state = fixture("finished-run");
+        let mut screen = screen_on(View::Parameters, Mode::Attached);
+        for _ in 0..100 {
+            screen.apply(Action::NextSignal, &state.cases(), true);
+        }
+        assert_snapshot(
+            "finished-run-parameters-end-80x24",
+            &render(&state, &screen, COLOUR, 80, 24),
+        );
+        let mut screen = screen_on(View::Summary, Mode::Attached);
+        for _ in 0..8 {
+            screen.apply(Action::NextSignal, &state.cases(), true);
+        }
+        assert_snapshot(
+            "finished-run-summary-scrolled-80x24",
+            &render(&state, &screen, COLOUR, 80, 24),
+        );
+        let live = fixture("live-run");
+        let mut screen = screen_on(View::Progress, Mode::ReadOnly);
+        screen.apply(Action::ToggleHelp, &live.cases(), false);
+        assert_snapshot(
+            "live-run-help-80x24",
+            &render(&live, &screen, COLOUR, 80, 24),
         );
     }
 
     #[test]
-    fn the_parameters_view_shows_bounds_position_and_interval() {
+    fn a_list_longer_than_the_screen_says_where_it_is_and_what_is_below() {
         let state = fixture("finished-run");
-        let screen = screen_on(View::Parameters, Mode::ReadOnly);
-        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
-        for expected in [
-            "component.virgin.conductivity_w_m_k (W/(m·K))",
-            "0.23154",
-            "95 %: 0.2288 … 0.2343",
-            "0.0800 [",
-            "] 0.500",
-            "●",
-            "final values, 95 % intervals",
-        ] {
-            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        assert_eq!(state.parameter_rows().len(), 12);
+        for (width, height) in [(80, 24), (100, 30)] {
+            let shown = text(&render(
+                &state,
+                &screen_on(View::Parameters, Mode::Attached),
+                COLOUR,
+                width,
+                height,
+            ));
+            assert!(shown.contains("parameters 1–"), "{shown}");
+            assert!(shown.contains("more below (↑↓ to scroll)"), "{shown}");
         }
+    }
+
+    #[test]
+    fn the_band_is_drawn_only_for_a_measured_spread() {
+        let state = fixture("finished-run");
+        let band_cells = |case: usize, signal: usize| {
+            let mut screen = screen_on(View::Residuals, Mode::Attached);
+            screen.case_idx = case;
+            screen.signal_idx = signal;
+            let terminal = render(&state, &screen, Look { is_colour: true }, 120, 40);
+            // The measured-against-model chart only (the residual chart below has a dim zero
+            // line).
+            let buffer = terminal.backend().buffer();
+            let mut n = 0;
+            for y in 2..20 {
+                for x in 0..buffer.area.width {
+                    let cell = &buffer[(x, y)];
+                    let is_braille = cell
+                        .symbol()
+                        .chars()
+                        .next()
+                        .is_some_and(|c| ('\u{2801}'..='\u{28ff}').contains(&c));
+                    if cell.fg == Color::DarkGray && is_braille {
+                        n += 1;
+                    }
+                }
+            }
+            n
+        };
+        // hrr: σ stated in the job; mlr: σ is the peak scale of the single test.
+        assert!(band_cells(0, 1) > 20, "no band for a stated noise");
+        assert_eq!(band_cells(0, 0), 0, "a band for a peak scale");
     }
 
     #[test]
@@ -1471,6 +1652,7 @@ mod tests {
         let mut state = fixture("finished-run");
         if let Some(parameters) = state.summary.as_mut().and_then(|s| s.parameters.as_mut()) {
             parameters[0].value = Some(0.4999);
+            parameters[0].warnings = Some(Vec::new());
         }
         let screen = screen_on(View::Parameters, Mode::ReadOnly);
         let shown = text(&render(&state, &screen, Look { is_colour: false }, 100, 30));
@@ -1478,75 +1660,17 @@ mod tests {
     }
 
     #[test]
-    fn the_residuals_view_follows_the_selected_case_and_signal() {
-        let state = fixture("finished-run");
-        let mut screen = screen_on(View::Residuals, Mode::ReadOnly);
-        screen.apply(Action::NextCase, &state.cases(), true);
-        screen.apply(Action::NextSignal, &state.cases(), true);
-        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
-        for expected in [
-            "50 kW/m² · hrr",
-            "• measured",
-            "⠤ ±σ band",
-            "▀ model",
-            "› 50 kW/m²",
-            "» hrr",
-            "share of the objective",
-            "residual (model − measured)/σ",
-            "←→ case",
-        ] {
-            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
-        }
-        // The 25 kW/m² case holds 16.1 of the 27.5 of the data parts: 59 %.
-        assert!(shown.contains("25 kW/m²  59 %"), "{shown}");
-    }
-
-    #[test]
-    fn the_summary_brackets_strong_correlations() {
+    fn the_summary_brackets_strong_correlations_and_names_rows_by_label() {
         let mut state = fixture("finished-run");
         if let Some(matrix) = state.summary.as_mut().and_then(|s| s.correlation.as_mut()) {
             matrix[0][5] = Some(0.97);
             matrix[5][0] = Some(0.97);
         }
         let screen = screen_on(View::Summary, Mode::ReadOnly);
-        let shown = text(&render(&state, &screen, Look { is_colour: false }, 120, 30));
-        for expected in [
-            "objective       27.4798",
-            "25 kW/m²: mlr 15.18, hrr 0.9288",
-            "Correlation: [±r] marks |r| ≥ 0.95",
-            "[+0.97]",
-            "+1.00",
-            "exposure.flame_heat_flux_kw_m2",
-        ] {
-            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
-        }
+        let shown = text(&render(&state, &screen, Look { is_colour: false }, 200, 60));
+        assert!(shown.contains("  1 k(300 K) virgin "), "{shown}");
+        assert!(shown.contains(" 12 ign. mass flux "), "{shown}");
         assert_eq!(shown.matches("[+0.97]").count(), 2, "{shown}");
-    }
-
-    #[test]
-    fn every_view_fits_a_large_terminal_and_survives_a_tiny_one() {
-        let state = fixture("finished-run");
-        for view in View::ALL {
-            let screen = screen_on(view, Mode::Attached);
-            let shown = text(&render(&state, &screen, COLOUR, 200, 60));
-            if view == View::Summary {
-                assert!(
-                    shown.contains(
-                        "reaction.0.peak_temperature_k = 619.44 K  (95 %: 617.6 … 621.3)"
-                    ),
-                    "{shown}"
-                );
-            }
-            assert!(
-                shown.contains(&format!(
-                    "[{}",
-                    View::ALL.iter().position(|v| *v == view).unwrap() + 1
-                )),
-                "{shown}"
-            );
-            assert!(shown.contains("q exit"), "{shown}");
-            render(&state, &screen, COLOUR, 20, 5);
-        }
     }
 
     #[test]
@@ -1568,15 +1692,14 @@ mod tests {
     }
 
     #[test]
-    fn the_help_overlay_says_a_watch_is_read_only() {
-        let state = fixture("finished-run");
-        let mut screen = Screen::new(Mode::ReadOnly);
-        screen.apply(Action::ToggleHelp, &state.cases(), true);
-        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
-        assert!(
-            shown.contains("Keys") && shown.contains("This viewer is read-only"),
-            "{shown}"
-        );
+    fn every_view_survives_a_tiny_terminal() {
+        for run in ["finished-run", "live-run", "older-run"] {
+            let state = fixture(run);
+            for view in View::ALL {
+                render(&state, &screen_on(view, Mode::Attached), COLOUR, 20, 5);
+                render(&state, &screen_on(view, Mode::ReadOnly), COLOUR, 1, 1);
+            }
+        }
     }
 
     #[test]
@@ -1605,11 +1728,11 @@ mod tests {
             120,
             30,
         ));
+        // An older run has no short labels: the path stands in for one.
         assert!(
-            parameters.contains("component.virgin.conductivity_w_m_k"),
+            parameters.contains("component.virgin.conductivity_w_m_k = 0.26000"),
             "{parameters}"
         );
-        assert!(parameters.contains("0.26000"), "{parameters}");
         let residuals = text(&render(
             &state,
             &screen_on(View::Residuals, Mode::ReadOnly),
@@ -1632,40 +1755,6 @@ mod tests {
     }
 
     #[test]
-    fn a_live_run_says_the_curves_come_at_the_end() {
-        let mut state = ViewerState::default();
-        for line in std::fs::read_to_string(
-            std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-                .join("tests/fixtures/tui/finished-run/progress.jsonl"),
-        )
-        .unwrap()
-        .lines()
-        .take(10)
-        {
-            state.apply_line(line);
-        }
-        let screen = screen_on(View::Residuals, Mode::Attached);
-        let shown = text(&render(&state, &screen, COLOUR, 80, 24));
-        assert!(shown.contains("[RUNNING]"), "{shown}");
-        assert!(
-            shown.contains("the curves are written when the fit ends"),
-            "{shown}"
-        );
-        assert!(
-            shown.contains("s stop fit") && shown.contains("q stop+exit"),
-            "{shown}"
-        );
-        let summary = text(&render(
-            &state,
-            &screen_on(View::Summary, Mode::Attached),
-            COLOUR,
-            80,
-            24,
-        ));
-        assert!(summary.contains("appear when the fit ends"), "{summary}");
-    }
-
-    #[test]
     fn the_bound_bar_places_value_and_interval() {
         let row = ParameterRow {
             name: "x".into(),
@@ -1683,6 +1772,15 @@ mod tests {
             is_poorly_determined: false,
         };
         assert_eq!(bound_bar(&row, 11), "[────═●═────]");
+    }
+
+    #[test]
+    fn words_wrap_at_spaces_and_cut_long_words() {
+        assert_eq!(
+            wrap_words("one two three four", 9),
+            ["one two", "three", "four"]
+        );
+        assert_eq!(wrap_words("abcdefghijkl", 8), ["abcdefgh", "ijkl"]);
     }
 
     #[test]
