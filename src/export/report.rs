@@ -545,17 +545,21 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
 }
 
 fn quantities_table(name: &str, prediction: &Prediction) -> String {
+    let band = prediction
+        .band_percent
+        .map_or_else(|| "band".to_string(), |b| format!("{b:.0} % band"));
     let mut out = format!(
-        "<h3>{}</h3>\n<table>\n<tr><th>quantity</th><th>best fit</th><th>median</th><th>band</th><th>draws without it</th></tr>\n",
+        "<h3>{}</h3>\n<table class=\"quantities\">\n<tr><th>quantity (unit)</th><th>best fit (unit)</th><th>median (unit)</th><th>{band} (unit)</th><th>draws without it (count)</th></tr>\n",
         escape(name)
     );
     for q in &prediction.quantities {
+        let unit = escape(&q.unit);
         let _ = writeln!(
             out,
-            "<tr><td>{} ({})</td><td>{}</td><td>{}</td><td>{} … {}</td><td>{}</td></tr>",
+            "<tr><td>{} ({unit})</td><td>{}</td><td>{} {unit}</td><td>{} … {} {unit}</td><td>{}</td></tr>",
             escape(&q.name),
-            escape(&q.unit),
-            q.best.map_or_else(|| "never ignites".into(), format_value),
+            q.best
+                .map_or_else(|| "never ignites".into(), |v| format!("{} {unit}", format_value(v))),
             format_value(q.median),
             format_value(q.lower),
             format_value(q.upper),
@@ -634,12 +638,12 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
         html.push_str("</table>\n");
     }
     html.push_str(
-        "<h2>Free parameters</h2>\n<table>\n<tr><th>#</th><th>parameter</th><th>unit</th><th>value</th>\
-         <th>95 % interval</th><th>bounds</th><th>scale</th><th>warnings</th></tr>\n",
+        "<h2>Free parameters</h2>\n<table>\n<tr><th>#</th><th>parameter</th><th>unit</th><th>value (unit)</th>\
+         <th>95 % interval (unit)</th><th>bounds (unit)</th><th>scale</th><th>warnings</th></tr>\n",
     );
     for (k, p) in s.parameters.iter().enumerate() {
         let interval = match (p.lower_95, p.upper_95) {
-            (Some(a), Some(b)) => format!("{} … {}", format_value(a), format_value(b)),
+            (Some(a), Some(b)) => crate::headless::interval_text(a, b),
             _ => "not determined".into(),
         };
         let _ = writeln!(
@@ -659,8 +663,8 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
     html.push_str("</table>\n");
     html.push_str(
         "<h2>Fit quality per case</h2>\n<p>Cost: weight · Σ((model − measured)/σ)². Normalised RMSE: \
-         RMS(model − measured) / measured peak.</p>\n<table>\n<tr><th>case</th><th>signal</th><th>points</th>\
-         <th>cost</th><th>normalised RMSE (%)</th></tr>\n",
+         RMS(model − measured) / measured peak.</p>\n<table>\n<tr><th>case</th><th>signal</th><th>points (count)</th>\
+         <th>cost (–)</th><th>normalised RMSE (%)</th></tr>\n",
     );
     for (case, signal, n, cost, nrmse) in parts.quality_rows {
         let _ = writeln!(
@@ -675,23 +679,39 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
     html.push_str("</table>\n");
     if !parts.scores.is_empty() {
         html.push_str(
-            "<h2>Held-out tests</h2>\n<p>Errors are (model − measured)/measured.</p>\n<table>\n<tr><th>test</th>\
-             <th>kW/m²</th><th>ignition time</th><th>peak HRR</th><th>time to peak</th><th>total heat release</th>\
-             <th>HRR NRMSE</th><th>MLR NRMSE</th></tr>\n",
+            "<h2>Held-out tests</h2>\n<p>Each quantity: measured, predicted by the best-fit model, and the \
+             error (predicted − measured)/measured. NRMSE: RMS(model − measured) / measured peak.</p>\n\
+             <table class=\"held-out\">\n<tr><th rowspan=\"2\">test</th><th rowspan=\"2\">irradiance (kW/m²)</th>\
+             <th colspan=\"3\">ignition time</th><th colspan=\"3\">peak HRR</th><th colspan=\"3\">time to peak HRR</th>\
+             <th colspan=\"3\">total heat release</th><th rowspan=\"2\">HRR NRMSE (%)</th><th rowspan=\"2\">MLR NRMSE (%)</th></tr>\n\
+             <tr><th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>\
+             <th>measured (kW/m²)</th><th>predicted (kW/m²)</th><th>error (%)</th>\
+             <th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>\
+             <th>measured (MJ/m²)</th><th>predicted (MJ/m²)</th><th>error (%)</th></tr>\n",
         );
-        let pct = |v: Option<f64>| v.map_or_else(|| "–".into(), |v| format!("{v:+.1} %"));
+        let pct = |v: Option<f64>| v.map_or_else(|| "–".into(), |v| format!("{v:+.1}"));
+        let value = |v: Option<f64>| v.map_or_else(|| "–".into(), format_value);
         for t in parts.scores {
             let _ = writeln!(
                 html,
-                "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+                "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>\
+                 <td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
                 escape(&t.label),
                 t.irradiance_kw_m2,
+                value(t.measured.ignition_time_s),
+                value(t.modelled.ignition_time_s),
                 pct(t.ignition_time_error_percent),
+                value(t.measured.peak_hrr_kw_m2),
+                value(t.modelled.peak_hrr_kw_m2),
                 pct(t.peak_hrr_error_percent),
+                value(t.measured.time_to_peak_hrr_s),
+                value(t.modelled.time_to_peak_hrr_s),
                 pct(t.time_to_peak_error_percent),
+                value(t.measured.total_heat_release_mj_m2),
+                value(t.modelled.total_heat_release_mj_m2),
                 pct(t.total_heat_release_error_percent),
-                t.hrr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1} %")),
-                t.mlr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1} %"))
+                t.hrr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1}")),
+                t.mlr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1}"))
             );
         }
         html.push_str("</table>\n");
