@@ -360,7 +360,7 @@ pub struct ReduceArgs {
     /// CSV input only: unit of the mass column when the file does not say (g, kg, mg).
     #[arg(long, value_name = "UNIT")]
     pub mass_unit: Option<String>,
-    /// CSV input only: unit of the HRR column when the file does not say (kW/m2, W/m2, kW).
+    /// CSV input only: unit of the HRR column when the file does not say (kW/m², W/m², kW; m2 for m² works too).
     #[arg(long, value_name = "UNIT")]
     pub hrr_unit: Option<String>,
     /// CSV input only: observed time to sustained ignition, s (default: detected from HRR).
