@@ -234,10 +234,20 @@ fn prediction_chart(
             y: hrr.median.clone(),
             kind: LineKind::Median,
         });
+        // A band narrower than the lines drawn over it cannot be seen: the legend says how wide
+        // it is at most.
+        let widest = hrr
+            .upper
+            .iter()
+            .zip(&hrr.lower)
+            .map(|(u, l)| u - l)
+            .filter(|w| w.is_finite())
+            .fold(0.0_f64, f64::max);
         shades.push(Shade {
             label: format!(
-                "{band:.0} % prediction band ({} draws)",
-                prediction.n_samples
+                "{band:.0} % prediction band ({} draws; at most {} kW/m² wide)",
+                prediction.n_samples,
+                crate::headless::significant(widest, 2)
             ),
             x: prediction.time_s.clone(),
             lower: hrr.lower.clone(),
@@ -278,6 +288,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
 
     // Measured against model for every case and signal, with the σ band and residuals.
     let curves = read_case_curves(&dir, &summary)?;
+    let index = crate::run::curves::read_index(&dir.cases().join(crate::run::curves::INDEX_FILE));
     let mut quality_rows = Vec::new();
     for curve in &curves {
         let nrmse = crate::predict::compare::normalised_rmse_percent(&curve.measured, &curve.model);
@@ -297,6 +308,38 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
             continue;
         }
         let label = signal_label(&curve.signal);
+        // σ is drawn as a band only where it is a measured spread (repeats, or a noise the job
+        // states); the peak scale of a single test is a normalisation, not an uncertainty.
+        let sigma_source = index.as_ref().and_then(|i| {
+            i.curves
+                .iter()
+                .find(|e| e.case == curve.case && e.signal == curve.signal)
+                .map(|e| e.sigma_source.clone())
+        });
+        let shades = match sigma_source.as_deref() {
+            Some(source) if crate::run::curves::is_measurement_spread(source) => vec![Shade {
+                label: if source == "repeats" {
+                    "measured ± σ of the repeat tests".into()
+                } else {
+                    "measured ± the noise σ stated in the job".into()
+                },
+                x: curve.time_s.clone(),
+                lower: curve
+                    .measured
+                    .iter()
+                    .zip(&curve.sigma)
+                    .map(|(m, s)| m - s)
+                    .collect(),
+                upper: curve
+                    .measured
+                    .iter()
+                    .zip(&curve.sigma)
+                    .map(|(m, s)| m + s)
+                    .collect(),
+                kind: ShadeKind::Measured,
+            }],
+            _ => Vec::new(),
+        };
         let chart = Chart {
             title: format!(
                 "{}: {} measured and modelled",
@@ -324,23 +367,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                     kind: LineKind::Model,
                 },
             ],
-            shades: vec![Shade {
-                label: "measured ± σ (repeat spread where repeats exist)".into(),
-                x: curve.time_s.clone(),
-                lower: curve
-                    .measured
-                    .iter()
-                    .zip(&curve.sigma)
-                    .map(|(m, s)| m - s)
-                    .collect(),
-                upper: curve
-                    .measured
-                    .iter()
-                    .zip(&curve.sigma)
-                    .map(|(m, s)| m + s)
-                    .collect(),
-                kind: ShadeKind::Measured,
-            }],
+            shades,
             residuals: Some(Residuals {
                 label: "residual (σ)".into(),
                 x: curve.time_s.clone(),
@@ -593,7 +620,7 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
          table{{border-collapse:collapse;margin:0.5em 0 1.5em}}td,th{{border:1px solid #999;padding:3px 8px;text-align:left;font-size:14px}}\n\
          th{{background:#eee}}.caution{{border:2px solid #a33;padding:0.6em 1em;background:#fff4f4}}\n\
          figure{{margin:1em 0}}figure svg{{max-width:100%;height:auto;border:1px solid #ccc}}\n\
-         code{{font-size:13px}}\n</style>\n</head>\n<body>\n",
+         code{{font-size:13px}}table.held-out td,table.held-out th{{font-size:12px;padding:2px 4px}}\n</style>\n</head>\n<body>\n",
         escape(&s.title)
     );
     let _ = writeln!(html, "<h1>Fit report: {}</h1>", escape(&s.title));

@@ -213,6 +213,13 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
             match event::read() {
                 Ok(Event::Key(key)) => {
                     let Some(action) = action_for_key(key) else {
+                        // Any other key answers a pending stop question with no.
+                        if key.kind == event::KeyEventKind::Press
+                            && screen.confirm_stop.take().is_some()
+                        {
+                            screen.message = Some("not stopped".into());
+                            is_dirty = true;
+                        }
                         continue;
                     };
                     screen.holder_pid = state.holder_pid;

@@ -128,7 +128,7 @@ fn twin_fit_recovers_the_true_parameters_inside_their_intervals() {
     ] {
         assert!(report.directory.join(file).exists(), "missing {file}");
     }
-    assert!(report.directory.join("cases/50-kw-m--mlr.csv").exists());
+    assert!(report.directory.join("cases/50-kw-m2--mlr.csv").exists());
     // best.toml is a material model that loads and carries its provenance.
     let best = emberfit::case::load_material(&report.directory.join("best.toml"))
         .expect("best.toml loads");
