@@ -303,7 +303,7 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
     tmux.keys("watch", "p");
     tmux.wait_for(
         "watch",
-        &["read-only viewer: pause/stop the fit in its own terminal"],
+        &["read-only viewer: pause or stop the fit in its own terminal"],
         Duration::from_secs(10),
     );
     tmux.keys("watch", "4");
