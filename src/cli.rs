@@ -87,8 +87,9 @@ pub enum Command {
     ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.toml
     ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.toml --json --out reduced-50kw.csv
     ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.csv --area-m2 0.01 --flux-kw-m2 50
+    ///       --time-column time_s --mass-column mass_g --hrr-column hrr_kw_m2
     ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-25kw.csv --area-m2 0.01 --flux-kw-m2 25
-    ///       --mass-column mass_g --hrr-column hrr_kw_m2 --ignition-time-s 185 --smooth 11
+    ///       --time-column time_s --mass-column mass_g --hrr-column hrr_kw_m2 --ignition-time-s 185 --smooth 11
     #[command(verbatim_doc_comment)]
     Reduce(Box<ReduceArgs>),
     /// Analyse ignition times across irradiances: critical heat flux, TRP and apparent kρc

@@ -507,11 +507,16 @@ fn fit_summary_table(
     use emberfit::headless::{interval_text, significant};
     const WIDTH: usize = 80;
     let mut out = format!("\n{}\n", summary.title);
-    out.push_str(&format!(
-        "  objective {} ({})\n",
-        significant(summary.objective, 6),
-        summary.reason
-    ));
+    for line in wrapped(
+        &format!(
+            "objective {} ({})",
+            significant(summary.objective, 6),
+            summary.reason
+        ),
+        WIDTH - 2,
+    ) {
+        out.push_str(&format!("  {line}\n"));
+    }
     out.push_str(&format!("    {:<20} {:<22} {}\n", "case", "signal", "part"));
     for part in &summary.parts {
         out.push_str(&format!(
