@@ -229,6 +229,7 @@ impl Screen {
             Action::Dismiss => {
                 self.is_help_open = false;
                 self.message = None;
+                self.confirm_stop = None;
                 return Effect::None;
             }
             _ => self.is_help_open = false,
@@ -456,5 +457,50 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn a_watcher_stops_the_fit_only_after_confirming() {
+        let mut screen = Screen::new(Mode::ReadOnly);
+        // Without a pid in run.lock there is nothing to send.
+        assert_eq!(screen.apply(Action::Stop, &cases(), false), Effect::None);
+        assert!(screen.message.as_deref().unwrap().contains("no run.lock"));
+        screen.holder_pid = Some(4242);
+        assert_eq!(screen.apply(Action::Stop, &cases(), false), Effect::None);
+        assert!(screen
+            .message
+            .as_deref()
+            .unwrap()
+            .contains("y sends kill -INT 4242"));
+        // Any other action cancels; so does Esc.
+        assert_eq!(
+            screen.apply(Action::NextView, &cases(), false),
+            Effect::None
+        );
+        assert_eq!(screen.apply(Action::Confirm, &cases(), false), Effect::None);
+        screen.apply(Action::Stop, &cases(), false);
+        screen.apply(Action::Dismiss, &cases(), false);
+        assert_eq!(screen.apply(Action::Confirm, &cases(), false), Effect::None);
+        screen.apply(Action::Stop, &cases(), false);
+        assert_eq!(
+            screen.apply(Action::Confirm, &cases(), false),
+            Effect::Interrupt(4242)
+        );
+        // A finished run has nothing to stop.
+        assert_eq!(screen.apply(Action::Stop, &cases(), true), Effect::None);
+        assert_eq!(screen.confirm_stop, None);
+    }
+
+    #[test]
+    fn arrows_scroll_the_parameters_and_summary_and_a_new_view_starts_at_the_top() {
+        let mut screen = Screen::new(Mode::Attached);
+        screen.apply(Action::Show(View::Parameters), &cases(), false);
+        screen.apply(Action::NextSignal, &cases(), false);
+        screen.apply(Action::NextSignal, &cases(), false);
+        assert_eq!(screen.scroll, 2);
+        screen.apply(Action::PreviousSignal, &cases(), false);
+        assert_eq!(screen.scroll, 1);
+        screen.apply(Action::Show(View::Summary), &cases(), false);
+        assert_eq!(screen.scroll, 0);
     }
 }
