@@ -133,6 +133,15 @@ pub fn estimated_time_left_s(
     }
 }
 
+/// "s" unless there is exactly one.
+fn plural(n: usize) -> &'static str {
+    if n == 1 {
+        ""
+    } else {
+        "s"
+    }
+}
+
 /// A duration in words: 4.2 s, 12 min 05 s, 3 h 07 min.
 pub fn duration_words(seconds: f64) -> String {
     if !seconds.is_finite() || seconds < 0.0 {
@@ -201,11 +210,12 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
             resumed_from,
             ..
         } => Some(match resumed_from {
-            Some(iteration) => format!("resuming `{title}` from iteration {iteration} (seed {seed}, {threads} threads)"),
+            Some(iteration) => format!("resuming `{title}` from iteration {iteration} (seed {seed}, {threads} thread{})", plural(*threads)),
             None => format!(
-                "fitting `{title}`: {} parameters, {} cases, seed {seed}, {threads} threads",
+                "fitting `{title}`: {} parameters, {} cases, seed {seed}, {threads} thread{}",
                 parameters.len(),
-                cases.len()
+                cases.len(),
+                plural(*threads)
             ),
         }),
         ProgressEvent::Iteration {

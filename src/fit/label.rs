@@ -205,6 +205,43 @@ pub fn describe(parameter: &FreeParameter, material: &Material) -> ParameterLabe
 /// its position appended (`#2`), so every one can be told apart.
 pub fn labels(parameters: &[FreeParameter], material: &Material) -> Vec<ParameterLabel> {
     let mut out: Vec<ParameterLabel> = parameters.iter().map(|p| describe(p, material)).collect();
+    // A law whose exponent is fitted too: the template's exponent is not the one that holds.
+    let exponent_of = |target: &Target| match target {
+        Target::Conductivity {
+            component,
+            part: PropertyPart::Exponent,
+        } => Some(("k", *component)),
+        Target::SpecificHeat {
+            component,
+            part: PropertyPart::Exponent,
+        } => Some(("c", *component)),
+        _ => None,
+    };
+    let fitted_exponents: Vec<(&str, usize)> = parameters
+        .iter()
+        .filter_map(|p| p.targets.first().and_then(exponent_of))
+        .collect();
+    for (parameter, label) in parameters.iter().zip(out.iter_mut()) {
+        let value_of = match parameter.targets.first() {
+            Some(Target::Conductivity {
+                component,
+                part: PropertyPart::Value,
+            }) => Some(("k", *component)),
+            Some(Target::SpecificHeat {
+                component,
+                part: PropertyPart::Value,
+            }) => Some(("c", *component)),
+            _ => None,
+        };
+        if value_of.is_some_and(|v| fitted_exponents.contains(&v)) {
+            if let Some(start) = label.meaning.find(" (power law in T with exponent") {
+                label.meaning.truncate(start);
+                label
+                    .meaning
+                    .push_str(" (power law in T; its exponent is fitted too)");
+            }
+        }
+    }
     let shorts: Vec<String> = out.iter().map(|l| l.short.clone()).collect();
     for (i, label) in out.iter_mut().enumerate() {
         if shorts.iter().filter(|s| **s == shorts[i]).count() > 1 {
@@ -248,5 +285,25 @@ mod tests {
         for label in &labels {
             assert!(label.short.chars().count() <= 20, "{label:?}");
         }
+    }
+
+    #[test]
+    fn a_law_whose_exponent_is_fitted_does_not_quote_the_templates_exponent() {
+        let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
+        let job = load_job(&root.join("tests/cases/viewer-fit.toml")).unwrap();
+        let labels = labels(&job.parameters, &job.material.material);
+        assert_eq!(labels[0].short, "k(300 K) virgin");
+        assert_eq!(
+            labels[0].meaning,
+            "thermal conductivity of virgin at 300 K (power law in T; its exponent is fitted too)"
+        );
+        assert_eq!(labels[1].short, "k exp. virgin");
+        // The specific heat's exponent is not fitted: the template's is quoted.
+        assert!(labels[2]
+            .meaning
+            .ends_with("(power law in T with exponent 0.9)"));
+        let shorts: std::collections::BTreeSet<&str> =
+            labels.iter().map(|l| l.short.as_str()).collect();
+        assert_eq!(shorts.len(), labels.len(), "labels can be told apart");
     }
 }
