@@ -64,7 +64,8 @@ pub enum Command {
     /// Reads only the run directory (progress.jsonl, summary.json, cases/*.csv), so it works
     /// from any terminal or SSH session, any number of viewers at once, while the fit runs
     /// (started with --detach or in another terminal) or long after it ended. It cannot pause
-    /// or stop the fit: do that from the fit's terminal, or with kill -INT <pid>.
+    /// the fit: do that from the fit's terminal. It shows the stop command with the fit's pid
+    /// (from run.lock in the run directory), and s then y sends it, if the fit is yours.
     ///
     /// Keys: 1-4 or Tab switch views, ← → choose a case, ↑ ↓ a signal, ? help, q quit.
     ///
@@ -82,12 +83,13 @@ pub enum Command {
     /// 10 % and 90 % of the mass loss, effective heat of combustion (and smoke quantities with a
     /// photometer column), and every repair made to the data ("note: ..." lines on stderr).
     ///
-    /// Examples:
-    ///   emberfit reduce tests/pmma-50kw-1.toml
-    ///   emberfit reduce tests/pmma-50kw-1.toml --json --out pmma-50kw-1-reduced.csv
-    ///   emberfit reduce run.csv --area-m2 0.01 --flux-kw-m2 50
-    ///   emberfit reduce run.csv --area-m2 0.0088 --flux-kw-m2 35 --mass-column "Mass (g)"
-    ///       --hrr-column HRR --ignition-time-s 42 --smooth 11
+    /// Examples (the demo files, from the repository's root):
+    ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.toml
+    ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.toml --json --out reduced-50kw.csv
+    ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-50kw.csv --area-m2 0.01 --flux-kw-m2 50
+    ///       --time-column time_s --mass-column mass_g --hrr-column hrr_kw_m2
+    ///   emberfit reduce demo-cases/ridgeline-panel/harbour-lab-25kw.csv --area-m2 0.01 --flux-kw-m2 25
+    ///       --time-column time_s --mass-column mass_g --hrr-column hrr_kw_m2 --ignition-time-s 185 --smooth 11
     #[command(verbatim_doc_comment)]
     Reduce(Box<ReduceArgs>),
     /// Analyse ignition times across irradiances: critical heat flux, TRP and apparent kρc
@@ -103,10 +105,9 @@ pub enum Command {
     /// Each input is a TEST.toml (its ignition time is the given one or the one detected from
     /// HRR), or one ignition list TOML naming tests and/or points (see docs/test-files.md).
     ///
-    /// Examples:
-    ///   emberfit ignition tests/pmma-*.toml
-    ///   emberfit ignition tests/pmma-*.toml --ignition-temperature-c 378 --json
-    ///   emberfit ignition ignition-pmma.toml
+    /// Examples (the demo files, from the repository's root):
+    ///   emberfit ignition demo-cases/ridgeline-panel/harbour-lab-*.toml
+    ///   emberfit ignition demo-cases/ridgeline-panel/harbour-lab-*.toml --ignition-temperature-c 378 --json
     #[command(verbatim_doc_comment)]
     Ignition(IgnitionArgs),
     /// Model-free kinetics from TGA (or MCC) runs at several heating rates
@@ -125,11 +126,11 @@ pub enum Command {
     /// Committee, Vyazovkin et al. 2011). β is each run's measured heating rate while it
     /// reacts, not the nominal one.
     ///
-    /// Examples:
-    ///   emberfit isoconversional tga/run_5k.csv tga/run_10k.csv tga/run_20k.csv
-    ///   emberfit isoconversional tga/*.csv --from 0.05 --to 0.95 --step 0.05 --fit
-    ///   emberfit isoconversional tga/*.csv --json > kinetics.json
-    ///   emberfit isoconversional tga/*.csv --out e-against-alpha.csv
+    /// Examples (the demo files, from the repository's root):
+    ///   emberfit isoconversional demo-cases/ridgeline-panel/tga-5k.csv demo-cases/ridgeline-panel/tga-10k.csv demo-cases/ridgeline-panel/tga-20k.csv
+    ///   emberfit isoconversional demo-cases/ridgeline-panel/tga-*.csv --from 0.05 --to 0.95 --step 0.05 --fit
+    ///   emberfit isoconversional demo-cases/ridgeline-panel/tga-*.csv --json > kinetics.json
+    ///   emberfit isoconversional demo-cases/ridgeline-panel/tga-*.csv --out e-against-alpha.csv
     #[command(verbatim_doc_comment)]
     Isoconversional(IsoconversionalArgs),
     /// Predict a scenario with a calibrated model, with a band from the fit's uncertainty
@@ -145,7 +146,7 @@ pub enum Command {
     ///
     /// Writes FILE.csv (curves) and FILE-quantities.csv (one row per draw) with --out.
     ///
-    /// Examples:
+    /// Examples (runs/fit/ is what `emberfit fit demo-cases/ridgeline-panel/fit.toml` makes):
     ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --flux 35
     ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --flux 35 --band 95 --out p35.csv
     ///   emberfit predict runs/fit/best.toml demo-cases/ridgeline-panel/scenario.toml --thickness-mm 12 --duration 1500 --band 90 --samples 400
@@ -160,9 +161,9 @@ pub enum Command {
     /// curves (RMS difference over the measured peak). The scenario is the fit job's, found
     /// through the calibration table of a best.toml, or the one given with --scenario.
     ///
-    /// Examples:
+    /// Examples (runs/fit/ is what `emberfit fit demo-cases/ridgeline-panel/fit.toml` makes):
     ///   emberfit compare runs/fit/best.toml demo-cases/ridgeline-panel/harbour-lab-75kw.toml
-    ///   emberfit compare my-material.toml tests/*.toml --scenario my-scenario.toml --json
+    ///   emberfit compare models/thermoplastic.toml demo-cases/ridgeline-panel/harbour-lab-*.toml --scenario demo-cases/ridgeline-panel/scenario.toml --json
     #[command(verbatim_doc_comment)]
     Compare(CompareArgs),
     /// Write plots and an HTML report of a fit run into its directory
@@ -173,7 +174,7 @@ pub enum Command {
     /// is self-contained (figures inline as SVG): job, data files with hashes, parameters with
     /// intervals and warnings, fit quality per case, held-out scores, and the caution.
     ///
-    /// Examples:
+    /// Examples (runs/fit/ is what `emberfit fit demo-cases/ridgeline-panel/fit.toml` makes):
     ///   emberfit report runs/fit
     ///   emberfit report runs/fit --test demo-cases/ridgeline-panel/harbour-lab-75kw.toml --samples 200
     #[command(verbatim_doc_comment)]
@@ -405,7 +406,7 @@ pub struct ReduceArgs {
     /// CSV input only: unit of the mass column when the file does not say (g, kg, mg).
     #[arg(long, value_name = "UNIT")]
     pub mass_unit: Option<String>,
-    /// CSV input only: unit of the HRR column when the file does not say (kW/m2, W/m2, kW).
+    /// CSV input only: unit of the HRR column when the file does not say (kW/m², W/m², kW; m2 for m² works too).
     #[arg(long, value_name = "UNIT")]
     pub hrr_unit: Option<String>,
     /// CSV input only: observed time to sustained ignition, s (default: detected from HRR).

@@ -246,9 +246,12 @@ fn fit(args: FitArgs) -> Result<()> {
     use std::sync::atomic::AtomicBool;
     use std::sync::Arc;
 
-    check_fit_data(&args)?;
     // Under an MPI launcher (docs/cluster.md): the other ranks serve rank 0's batches.
     let cluster = emberfit::cluster::Cluster::join().context("joining the MPI job")?;
+    if !cluster.is_worker() {
+        check_before_start(&args)?;
+        check_fit_data(&args)?;
+    }
     if cluster.size() > 1 && args.detach {
         bail!(
             "--detach is for a lone process; an MPI job runs in the background under its launcher"
@@ -331,7 +334,7 @@ fn fit(args: FitArgs) -> Result<()> {
         match emberfit::tui::attach(&directory.root, &control) {
             Ok(emberfit::tui::ViewerEnd::Left) => {
                 let report = join_fit(worker)?;
-                print!("{}", fit_summary_table(&report.summary));
+                print!("{}", fit_summary_table(&report.summary, &report.labels));
                 println!("run directory: {}", report.directory.display());
                 return Ok(());
             }
@@ -341,7 +344,7 @@ fn fit(args: FitArgs) -> Result<()> {
                 // SIGTERM (or SIGHUP without a terminal): the interface has left, the fit
                 // writes its outputs, and the process ends.
                 let report = join_fit(worker)?;
-                tell(&fit_summary_table(&report.summary));
+                tell(&fit_summary_table(&report.summary, &report.labels));
                 tell(&format!("run directory: {}", report.directory.display()));
                 return Ok(());
             }
@@ -399,7 +402,11 @@ fn fit(args: FitArgs) -> Result<()> {
     {
         use std::io::Write;
         let mut out = std::io::stdout();
-        let _ = write!(out, "{}", fit_summary_table(&report.summary));
+        let _ = write!(
+            out,
+            "{}",
+            fit_summary_table(&report.summary, &report.labels)
+        );
         let _ = writeln!(out, "run directory: {}", report.directory.display());
     }
     Ok(())
@@ -559,52 +566,119 @@ fn watch(args: WatchArgs) -> Result<()> {
     emberfit::tui::watch(&args.run).context("watching the run")
 }
 
-fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
-    use emberfit::headless::significant;
-    let mut out = format!(
-        "\n{}\n  objective {} ({})\n",
-        summary.title,
-        significant(summary.objective, 6),
-        summary.reason
-    );
+/// What must hold before a fit starts, checked before anything is printed or shown: the job
+/// reads and validates (so `fit nothere.toml` says only that), and a new run does not land in
+/// an existing run directory (so no viewer replays the old run's log first).
+fn check_before_start(args: &FitArgs) -> Result<()> {
+    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    if let Some(name) = &args.name {
+        let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(name));
+        if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
+            bail!(
+                "run directory {} already exists; give --resume to continue it or --name to start another",
+                directory.root.display()
+            );
+        }
+    }
+    Ok(())
+}
+
+/// The table printed after the fit: at most 80 columns (short labels; the full paths and what
+/// each number is follow the table, wrapped).
+fn fit_summary_table(
+    summary: &emberfit::run::RunSummary,
+    labels: &[emberfit::fit::label::ParameterLabel],
+) -> String {
+    use emberfit::headless::{interval_text, significant};
+    const WIDTH: usize = 80;
+    let mut out = format!("\n{}\n", summary.title);
+    for line in wrapped(
+        &format!(
+            "objective {} ({})",
+            significant(summary.objective, 6),
+            summary.reason
+        ),
+        WIDTH - 2,
+    ) {
+        out.push_str(&format!("  {line}\n"));
+    }
+    out.push_str(&format!("    {:<20} {:<22} {}\n", "case", "signal", "part"));
     for part in &summary.parts {
         out.push_str(&format!(
-            "    {:<24} {:<14} {}\n",
+            "    {:<20} {:<22} {}\n",
             part.case,
             part.signal,
             significant(part.cost, 5)
         ));
     }
+    let label = |i: usize, name: &str| {
+        labels
+            .get(i)
+            .map_or_else(|| name.to_string(), |l| l.short.clone())
+    };
+    let label_width = summary
+        .parameters
+        .iter()
+        .enumerate()
+        .map(|(i, p)| label(i, &p.name).chars().count())
+        .max()
+        .unwrap_or(9)
+        .clamp(9, 22);
     out.push_str(&format!(
-        "  {:<40} {:>12} {:<10} {:<19} {}\n",
-        "parameter", "value", "", "95 % interval", "rank"
+        "  {:<label_width$} {:>10} {:<9} {:<22} {}\n",
+        "parameter", "value", "unit", "95 % interval", "rank"
     ));
-    for p in &summary.parameters {
+    for (i, p) in summary.parameters.iter().enumerate() {
         let interval = match (p.lower_95, p.upper_95) {
-            (Some(a), Some(b)) => format!("{} .. {}", significant(a, 4), significant(b, 4)),
+            (Some(a), Some(b)) => interval_text(a, b),
             _ => "undetermined".into(),
         };
         let rank = p
             .sensitivity_rank
             .map_or("–".to_string(), |r| r.to_string());
         out.push_str(&format!(
-            "  {:<40} {:>12} {:<10} {:<19} {rank}\n",
-            p.name,
+            "  {:<label_width$} {:>10} {:<9} {:<22} {rank}\n",
+            label(i, &p.name),
             significant(p.value, 5),
             p.unit,
             interval
         ));
         for warning in &p.warnings {
-            out.push_str(&format!("      warning: {warning}\n"));
+            for line in wrapped(&format!("warning: {warning}"), WIDTH - 6) {
+                out.push_str(&format!("      {line}\n"));
+            }
         }
     }
     if let Some(problem) = &summary.identifiability_problem {
-        out.push_str(&format!("  intervals not computed: {problem}\n"));
+        for line in wrapped(&format!("intervals not computed: {problem}"), WIDTH - 2) {
+            out.push_str(&format!("  {line}\n"));
+        }
     } else {
         out.push_str("  rank: 1 = the parameter the data are most sensitive to\n");
     }
-    out.push_str("  Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.\n");
+    if !labels.is_empty() {
+        out.push_str("  what the labels are:\n");
+        for (p, l) in summary.parameters.iter().zip(labels) {
+            for line in wrapped(
+                &format!("{} = {}: {}", l.short, p.name, l.meaning),
+                WIDTH - 6,
+            ) {
+                out.push_str(&format!("    {line}\n"));
+            }
+        }
+    }
+    for line in wrapped(
+        "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.",
+        WIDTH - 2,
+    ) {
+        out.push_str(&format!("  {line}\n"));
+    }
     out
+}
+
+/// `text` in lines of at most `width` characters, broken at spaces.
+fn wrapped(text: &str, width: usize) -> Vec<String> {
+    emberfit::tui::draw::wrap_words(text, width)
 }
 
 fn synthesize(args: SynthesizeArgs) -> Result<()> {

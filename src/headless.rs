@@ -94,26 +94,108 @@ impl Ticker {
         if let Some(budget) = self.time_budget_s {
             remaining.push(format!("{:.0} s", (budget - elapsed_s).max(0.0)));
         }
+        let eta = match phase.as_str() {
+            "global" => estimated_time_left_s(
+                *evaluations,
+                *elapsed_s,
+                rate,
+                self.max_evaluations,
+                self.time_budget_s,
+            )
+            .map_or_else(String::new, |s| format!("  ≈ {} to go", duration_words(s))),
+            _ => String::new(),
+        };
         Some(format!(
-            "[{phase:>6}] iter {iter:>4}  evals {evaluations:>6} ({rate:.1}/s)  best {}  elapsed {elapsed_s:.1} s  left {}",
+            "[{phase:>6}] iter {iter:>4}  evals {evaluations:>6} ({rate:.1}/s)  best {}  elapsed {elapsed_s:.1} s  left {}{eta}",
             significant(*best_cost, 6),
             remaining.join(" or ")
         ))
     }
 }
 
+/// Estimated seconds left in the global search: the evaluations left at the current rate, or
+/// the time limit's remainder if that comes first. `None` without a rate or a budget. (The
+/// local refinement that may follow has its own, smaller budget and is not included.)
+pub fn estimated_time_left_s(
+    evaluations: u64,
+    elapsed_s: f64,
+    evaluations_per_s: f64,
+    max_evaluations: u64,
+    time_budget_s: Option<f64>,
+) -> Option<f64> {
+    let by_budget =
+        (max_evaluations > 0 && evaluations_per_s > 0.0 && evaluations_per_s.is_finite())
+            .then(|| max_evaluations.saturating_sub(evaluations) as f64 / evaluations_per_s);
+    let by_time = time_budget_s.map(|limit| (limit - elapsed_s).max(0.0));
+    match (by_budget, by_time) {
+        (Some(a), Some(b)) => Some(a.min(b)),
+        (a, b) => a.or(b),
+    }
+}
+
+/// "s" unless there is exactly one.
+fn plural(n: usize) -> &'static str {
+    if n == 1 {
+        ""
+    } else {
+        "s"
+    }
+}
+
+/// A duration in words: 4.2 s, 12 min 05 s, 3 h 07 min.
+pub fn duration_words(seconds: f64) -> String {
+    if !seconds.is_finite() || seconds < 0.0 {
+        return "-".into();
+    }
+    let total = seconds.round() as u64;
+    match total {
+        0..=59 => format!("{seconds:.1} s"),
+        60..=3599 => format!("{} min {:02} s", total / 60, total % 60),
+        _ => format!("{} h {:02} min", total / 3600, (total % 3600) / 60),
+    }
+}
+
+/// An interval `a … b`, both ends with the decimals that show the width to two significant
+/// digits (`187.96 … 188.04`, not `188.0 … 188.0`); scientific notation far from 1 as in
+/// [`significant`].
+pub fn interval_text(a: f64, b: f64) -> String {
+    if !(a.is_finite() && b.is_finite()) {
+        return format!("{} … {}", significant(a, 4), significant(b, 4));
+    }
+    let width = (b - a).abs();
+    let largest = a.abs().max(b.abs());
+    if width == 0.0 || largest == 0.0 {
+        return format!("{} … {}", significant(a, 4), significant(b, 4));
+    }
+    let width_magnitude = width.log10().floor() as i32;
+    let magnitude = largest.log10().floor() as i32;
+    // Digits of the larger end needed for the width's first two digits (at least 3).
+    let digits = (magnitude - width_magnitude + 2).clamp(3, 12) as usize;
+    format!("{} … {}", significant(a, digits), significant(b, digits))
+}
+
 /// `value` with `digits` significant digits, in plain notation between 1e-3 and 1e6 and in
 /// scientific notation outside (Rust's formatter has no `%g`).
 pub fn significant(value: f64, digits: usize) -> String {
-    if value == 0.0 || !value.is_finite() {
+    if value == 0.0 {
+        // Never "-0".
+        return "0".into();
+    }
+    if !value.is_finite() {
         return format!("{value}");
     }
     let magnitude = value.abs().log10().floor() as i32;
-    if !(-3..6).contains(&magnitude) {
-        return format!("{:.*e}", digits.saturating_sub(1), value);
+    let text = if !(-3..6).contains(&magnitude) {
+        format!("{:.*e}", digits.saturating_sub(1), value)
+    } else {
+        let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
+        format!("{value:.decimals$}")
+    };
+    // A value that rounds to zero is written without its sign.
+    match text.strip_prefix('-') {
+        Some(rest) if rest.chars().all(|c| c == '0' || c == '.') => rest.to_string(),
+        _ => text,
     }
-    let decimals = (digits as i32 - 1 - magnitude).max(0) as usize;
-    format!("{value:.decimals$}")
 }
 
 /// The line to print for an event, if any.
@@ -128,11 +210,12 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
             resumed_from,
             ..
         } => Some(match resumed_from {
-            Some(iteration) => format!("resuming `{title}` from iteration {iteration} (seed {seed}, {threads} threads)"),
+            Some(iteration) => format!("resuming `{title}` from iteration {iteration} (seed {seed}, {threads} thread{})", plural(*threads)),
             None => format!(
-                "fitting `{title}`: {} parameters, {} cases, seed {seed}, {threads} threads",
+                "fitting `{title}`: {} parameters, {} cases, seed {seed}, {threads} thread{}",
                 parameters.len(),
-                cases.len()
+                cases.len(),
+                plural(*threads)
             ),
         }),
         ProgressEvent::Iteration {
@@ -234,6 +317,32 @@ mod tests {
             line.contains("(10.0/s)") && line.contains("iter    3"),
             "{line}"
         );
+    }
+
+    #[test]
+    fn intervals_show_their_width_and_zero_has_no_sign() {
+        // The interval of issue 17 read "188.0 .. 188.0".
+        assert_eq!(interval_text(187.93, 188.07), "187.93 … 188.07");
+        assert_eq!(interval_text(0.22884, 0.23431), "0.2288 … 0.2343");
+        assert_eq!(interval_text(12.0, 30.0), "12.0 … 30.0");
+        assert_eq!(interval_text(1.0e11, 1.2e11), "1.00e11 … 1.20e11");
+        assert_eq!(significant(-0.0, 3), "0");
+        assert_eq!(significant(-0.00001, 2), "-1.0e-5");
+        assert_eq!(significant(-0.0004, 1), "-4e-4");
+    }
+
+    #[test]
+    fn the_time_left_comes_from_the_rate_or_the_time_limit() {
+        assert_eq!(
+            estimated_time_left_s(100, 10.0, 10.0, 400, None),
+            Some(30.0)
+        );
+        assert_eq!(
+            estimated_time_left_s(100, 10.0, 10.0, 400, Some(20.0)),
+            Some(10.0)
+        );
+        assert_eq!(estimated_time_left_s(100, 10.0, 0.0, 400, None), None);
+        assert_eq!(duration_words(125.0), "2 min 05 s");
     }
 
     #[test]

@@ -460,7 +460,7 @@ impl TestDescription {
                 &raw.irradiance_kw_m2,
                 "irradiance_kw_m2",
                 format!(
-                    "must be at most 200 kW/m2 (cone heaters reach 100), got {irradiance_kw_m2}"
+                    "must be at most 200 kW/m² (cone heaters reach 100), got {irradiance_kw_m2}"
                 ),
             ));
         }

@@ -296,7 +296,7 @@ pub fn analyse(
         if !(point.irradiance_kw_m2 > 0.0 && point.irradiance_kw_m2.is_finite()) {
             return Err(DataError::Reduction {
                 problem: format!(
-                    "{}: irradiance must be > 0 kW/m2, got {}",
+                    "{}: irradiance must be > 0 kW/m², got {}",
                     point.label, point.irradiance_kw_m2
                 ),
             });
@@ -313,7 +313,7 @@ pub fn analyse(
                 points.len(),
                 fluxes
                     .iter()
-                    .map(|f| format!("{f} kW/m2"))
+                    .map(|f| format!("{f} kW/m²"))
                     .collect::<Vec<_>>()
                     .join(", ")
             ),
@@ -353,15 +353,15 @@ pub fn analyse(
             )));
         } else if fit.critical_heat_flux_kw_m2 <= 0.0 {
             warnings.push(Notice::new(format!(
-                "{}: the flux-axis intercept is {:.1} kW/m2, not a physical critical heat flux; \
+                "{}: the flux-axis intercept is {:.1} kW/m², not a physical critical heat flux; \
                  ignition times at low irradiance are shorter than this form predicts",
                 fit.correlation.name(),
                 fit.critical_heat_flux_kw_m2
             )));
         } else if fit.critical_heat_flux_kw_m2 >= lowest_flux {
             warnings.push(Notice::new(format!(
-                "{}: the critical heat flux {:.1} kW/m2 is not below the lowest irradiance that \
-                 ignited ({lowest_flux} kW/m2)",
+                "{}: the critical heat flux {:.1} kW/m² is not below the lowest irradiance that \
+                 ignited ({lowest_flux} kW/m²)",
                 fit.correlation.name(),
                 fit.critical_heat_flux_kw_m2
             )));
@@ -371,10 +371,10 @@ pub fn analyse(
     if let Some([low, high]) = janssens.critical_heat_flux_95_kw_m2 {
         if high - low > lowest_flux || low <= 0.0 {
             warnings.push(Notice::new(format!(
-                "the critical heat flux is poorly determined: Janssens' form gives {:.1} kW/m2 \
-                 with a 95 % interval of {low:.1} to {high:.1} kW/m2, an extrapolation {:.0} \
-                 kW/m2 below the lowest irradiance tested; test nearer the critical flux (e.g. \
-                 at 15–20 kW/m2) to pin it down",
+                "the critical heat flux is poorly determined: Janssens' form gives {:.1} kW/m² \
+                 with a 95 % interval of {low:.1} to {high:.1} kW/m², an extrapolation {:.0} \
+                 kW/m² below the lowest irradiance tested; test nearer the critical flux (e.g. \
+                 at 15–20 kW/m²) to pin it down",
                 janssens.critical_heat_flux_kw_m2,
                 lowest_flux - janssens.critical_heat_flux_kw_m2.max(0.0)
             )));

@@ -66,7 +66,7 @@ pub fn combine(tests: &[Reduced], alignment: Alignment) -> Result<RepeatSet, Dat
     for test in tests {
         if (test.irradiance_kw_m2 - flux).abs() > 0.01 * flux.max(1.0) {
             notices.push(Notice::new(format!(
-                "{}: irradiance {} kW/m2 differs from the set's {flux} kW/m2",
+                "{}: irradiance {} kW/m² differs from the set's {flux} kW/m²",
                 test.source.display(),
                 test.irradiance_kw_m2
             )));

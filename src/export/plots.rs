@@ -1,6 +1,8 @@
 //! Plots as PNG and SVG (plotters): curves with shaded bands and an optional residual panel,
-//! and a correlation heat map. Every axis names its quantity and unit; colours stay apart in
-//! grey-scale print (measured black, model blue, truth dashed-looking orange, bands light).
+//! and a correlation heat map. Every axis names its quantity and unit. Lines differ by style,
+//! not colour alone, so they stay apart in grey-scale print and for colour-blind readers:
+//! measured thin solid black, best-fit model thick solid blue, median long-dashed dark blue,
+//! truth dotted orange; bands are shaded with a thin outline at both edges.
 //!
 //! Each figure is drawn twice from the same description, once per backend, into memory, and
 //! written with `write_atomically`.
@@ -30,16 +32,16 @@ pub enum PlotError {
     },
 }
 
-/// What a line shows; sets its colour and width.
+/// What a line shows; sets its colour, width and dash pattern.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum LineKind {
     /// Test data: thin black.
     Measured,
     /// The best-fit model: blue.
     Model,
-    /// The median of a prediction band: dark blue, thinner.
+    /// The median of a prediction band: dark blue, long dashes.
     Median,
-    /// The known truth of a twin experiment: orange.
+    /// The known truth of a twin experiment: orange, dotted (short dashes).
     Truth,
 }
 
@@ -103,15 +105,32 @@ fn colour(kind: LineKind) -> RGBColor {
 
 fn width(kind: LineKind) -> u32 {
     match kind {
-        LineKind::Measured | LineKind::Median => 1,
-        LineKind::Model | LineKind::Truth => 2,
+        LineKind::Measured => 1,
+        LineKind::Median | LineKind::Truth => 2,
+        LineKind::Model => 3,
+    }
+}
+
+/// Dash and gap lengths in pixels; `None` for a solid line.
+fn dashes(kind: LineKind) -> Option<(u32, u32)> {
+    match kind {
+        LineKind::Measured | LineKind::Model => None,
+        LineKind::Median => Some((12, 6)),
+        LineKind::Truth => Some((3, 4)),
     }
 }
 
 fn shade_colour(kind: ShadeKind) -> RGBAColor {
     match kind {
-        ShadeKind::Measured => RGBColor(150, 150, 150).mix(0.35),
-        ShadeKind::Prediction => RGBColor(90, 150, 230).mix(0.35),
+        ShadeKind::Measured => RGBColor(150, 150, 150).mix(0.45),
+        ShadeKind::Prediction => RGBColor(90, 150, 230).mix(0.45),
+    }
+}
+
+fn shade_edge(kind: ShadeKind) -> RGBColor {
+    match kind {
+        ShadeKind::Measured => RGBColor(110, 110, 110),
+        ShadeKind::Prediction => RGBColor(60, 120, 210),
     }
 }
 
@@ -208,6 +227,22 @@ fn draw_chart<DB: DrawingBackend>(
             .map_err(e)?
             .label(shade.label.as_str())
             .legend(move |(x, y)| Rectangle::new([(x, y - 6), (x + 22, y + 6)], fill.filled()));
+        // A thin line at each edge, so the band shows even where it is narrow or printed pale.
+        let edge = ShapeStyle {
+            color: shade_edge(shade.kind).to_rgba(),
+            filled: false,
+            stroke_width: 1,
+        };
+        for side in [&shade.upper, &shade.lower] {
+            let points: Vec<(f64, f64)> = shade
+                .x
+                .iter()
+                .zip(side)
+                .filter(|(x, y)| x.is_finite() && y.is_finite())
+                .map(|(x, y)| (*x, *y))
+                .collect();
+            cc.draw_series(LineSeries::new(points, edge)).map_err(e)?;
+        }
     }
     for line in &chart.lines {
         let style = ShapeStyle {
@@ -222,10 +257,27 @@ fn draw_chart<DB: DrawingBackend>(
             .filter(|(x, y)| x.is_finite() && y.is_finite())
             .map(|(x, y)| (*x, *y))
             .collect();
-        cc.draw_series(LineSeries::new(points, style))
-            .map_err(e)?
-            .label(line.label.as_str())
-            .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 22, y)], style));
+        match dashes(line.kind) {
+            None => {
+                cc.draw_series(LineSeries::new(points, style))
+                    .map_err(e)?
+                    .label(line.label.as_str())
+                    .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 22, y)], style));
+            }
+            Some((dash, gap)) => {
+                cc.draw_series(DashedLineSeries::new(points, dash, gap, style))
+                    .map_err(e)?
+                    .label(line.label.as_str())
+                    .legend(move |(x, y)| {
+                        plotters::element::DashedPathElement::new(
+                            vec![(x, y), (x + 26, y)],
+                            dash,
+                            gap,
+                            style,
+                        )
+                    });
+            }
+        }
     }
     cc.configure_series_labels()
         .position(SeriesLabelPosition::UpperRight)

@@ -234,10 +234,20 @@ fn prediction_chart(
             y: hrr.median.clone(),
             kind: LineKind::Median,
         });
+        // A band narrower than the lines drawn over it cannot be seen: the legend says how wide
+        // it is at most.
+        let widest = hrr
+            .upper
+            .iter()
+            .zip(&hrr.lower)
+            .map(|(u, l)| u - l)
+            .filter(|w| w.is_finite())
+            .fold(0.0_f64, f64::max);
         shades.push(Shade {
             label: format!(
-                "{band:.0} % prediction band ({} draws)",
-                prediction.n_samples
+                "{band:.0} % prediction band ({} draws; at most {} kW/m² wide)",
+                prediction.n_samples,
+                crate::headless::significant(widest, 2)
             ),
             x: prediction.time_s.clone(),
             lower: hrr.lower.clone(),
@@ -278,6 +288,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
 
     // Measured against model for every case and signal, with the σ band and residuals.
     let curves = read_case_curves(&dir, &summary)?;
+    let index = crate::run::curves::read_index(&dir.cases().join(crate::run::curves::INDEX_FILE));
     let mut quality_rows = Vec::new();
     for curve in &curves {
         let nrmse = crate::predict::compare::normalised_rmse_percent(&curve.measured, &curve.model);
@@ -297,6 +308,38 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
             continue;
         }
         let label = signal_label(&curve.signal);
+        // σ is drawn as a band only where it is a measured spread (repeats, or a noise the job
+        // states); the peak scale of a single test is a normalisation, not an uncertainty.
+        let sigma_source = index.as_ref().and_then(|i| {
+            i.curves
+                .iter()
+                .find(|e| e.case == curve.case && e.signal == curve.signal)
+                .map(|e| e.sigma_source.clone())
+        });
+        let shades = match sigma_source.as_deref() {
+            Some(source) if crate::run::curves::is_measurement_spread(source) => vec![Shade {
+                label: if source == "repeats" {
+                    "measured ± σ of the repeat tests".into()
+                } else {
+                    "measured ± the noise σ stated in the job".into()
+                },
+                x: curve.time_s.clone(),
+                lower: curve
+                    .measured
+                    .iter()
+                    .zip(&curve.sigma)
+                    .map(|(m, s)| m - s)
+                    .collect(),
+                upper: curve
+                    .measured
+                    .iter()
+                    .zip(&curve.sigma)
+                    .map(|(m, s)| m + s)
+                    .collect(),
+                kind: ShadeKind::Measured,
+            }],
+            _ => Vec::new(),
+        };
         let chart = Chart {
             title: format!(
                 "{}: {} measured and modelled",
@@ -324,23 +367,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                     kind: LineKind::Model,
                 },
             ],
-            shades: vec![Shade {
-                label: "measured ± σ (repeat spread where repeats exist)".into(),
-                x: curve.time_s.clone(),
-                lower: curve
-                    .measured
-                    .iter()
-                    .zip(&curve.sigma)
-                    .map(|(m, s)| m - s)
-                    .collect(),
-                upper: curve
-                    .measured
-                    .iter()
-                    .zip(&curve.sigma)
-                    .map(|(m, s)| m + s)
-                    .collect(),
-                kind: ShadeKind::Measured,
-            }],
+            shades,
             residuals: Some(Residuals {
                 label: "residual (σ)".into(),
                 x: curve.time_s.clone(),
@@ -545,17 +572,21 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
 }
 
 fn quantities_table(name: &str, prediction: &Prediction) -> String {
+    let band = prediction
+        .band_percent
+        .map_or_else(|| "band".to_string(), |b| format!("{b:.0} % band"));
     let mut out = format!(
-        "<h3>{}</h3>\n<table>\n<tr><th>quantity</th><th>best fit</th><th>median</th><th>band</th><th>draws without it</th></tr>\n",
+        "<h3>{}</h3>\n<table class=\"quantities\">\n<tr><th>quantity (unit)</th><th>best fit (unit)</th><th>median (unit)</th><th>{band} (unit)</th><th>draws without it (count)</th></tr>\n",
         escape(name)
     );
     for q in &prediction.quantities {
+        let unit = escape(&q.unit);
         let _ = writeln!(
             out,
-            "<tr><td>{} ({})</td><td>{}</td><td>{}</td><td>{} … {}</td><td>{}</td></tr>",
+            "<tr><td>{} ({unit})</td><td>{}</td><td>{} {unit}</td><td>{} … {} {unit}</td><td>{}</td></tr>",
             escape(&q.name),
-            escape(&q.unit),
-            q.best.map_or_else(|| "never ignites".into(), format_value),
+            q.best
+                .map_or_else(|| "never ignites".into(), |v| format!("{} {unit}", format_value(v))),
             format_value(q.median),
             format_value(q.lower),
             format_value(q.upper),
@@ -589,7 +620,7 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
          table{{border-collapse:collapse;margin:0.5em 0 1.5em}}td,th{{border:1px solid #999;padding:3px 8px;text-align:left;font-size:14px}}\n\
          th{{background:#eee}}.caution{{border:2px solid #a33;padding:0.6em 1em;background:#fff4f4}}\n\
          figure{{margin:1em 0}}figure svg{{max-width:100%;height:auto;border:1px solid #ccc}}\n\
-         code{{font-size:13px}}\n</style>\n</head>\n<body>\n",
+         code{{font-size:13px}}table.held-out td,table.held-out th{{font-size:12px;padding:2px 4px}}\n</style>\n</head>\n<body>\n",
         escape(&s.title)
     );
     let _ = writeln!(html, "<h1>Fit report: {}</h1>", escape(&s.title));
@@ -634,12 +665,12 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
         html.push_str("</table>\n");
     }
     html.push_str(
-        "<h2>Free parameters</h2>\n<table>\n<tr><th>#</th><th>parameter</th><th>unit</th><th>value</th>\
-         <th>95 % interval</th><th>bounds</th><th>scale</th><th>warnings</th></tr>\n",
+        "<h2>Free parameters</h2>\n<table>\n<tr><th>#</th><th>parameter</th><th>unit</th><th>value (unit)</th>\
+         <th>95 % interval (unit)</th><th>bounds (unit)</th><th>scale</th><th>warnings</th></tr>\n",
     );
     for (k, p) in s.parameters.iter().enumerate() {
         let interval = match (p.lower_95, p.upper_95) {
-            (Some(a), Some(b)) => format!("{} … {}", format_value(a), format_value(b)),
+            (Some(a), Some(b)) => crate::headless::interval_text(a, b),
             _ => "not determined".into(),
         };
         let _ = writeln!(
@@ -659,8 +690,8 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
     html.push_str("</table>\n");
     html.push_str(
         "<h2>Fit quality per case</h2>\n<p>Cost: weight · Σ((model − measured)/σ)². Normalised RMSE: \
-         RMS(model − measured) / measured peak.</p>\n<table>\n<tr><th>case</th><th>signal</th><th>points</th>\
-         <th>cost</th><th>normalised RMSE (%)</th></tr>\n",
+         RMS(model − measured) / measured peak.</p>\n<table>\n<tr><th>case</th><th>signal</th><th>points (count)</th>\
+         <th>cost (–)</th><th>normalised RMSE (%)</th></tr>\n",
     );
     for (case, signal, n, cost, nrmse) in parts.quality_rows {
         let _ = writeln!(
@@ -675,23 +706,39 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
     html.push_str("</table>\n");
     if !parts.scores.is_empty() {
         html.push_str(
-            "<h2>Held-out tests</h2>\n<p>Errors are (model − measured)/measured.</p>\n<table>\n<tr><th>test</th>\
-             <th>kW/m²</th><th>ignition time</th><th>peak HRR</th><th>time to peak</th><th>total heat release</th>\
-             <th>HRR NRMSE</th><th>MLR NRMSE</th></tr>\n",
+            "<h2>Held-out tests</h2>\n<p>Each quantity: measured, predicted by the best-fit model, and the \
+             error (predicted − measured)/measured. NRMSE: RMS(model − measured) / measured peak.</p>\n\
+             <table class=\"held-out\">\n<tr><th rowspan=\"2\">test</th><th rowspan=\"2\">irradiance (kW/m²)</th>\
+             <th colspan=\"3\">ignition time</th><th colspan=\"3\">peak HRR</th><th colspan=\"3\">time to peak HRR</th>\
+             <th colspan=\"3\">total heat release</th><th rowspan=\"2\">HRR NRMSE (%)</th><th rowspan=\"2\">MLR NRMSE (%)</th></tr>\n\
+             <tr><th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>\
+             <th>measured (kW/m²)</th><th>predicted (kW/m²)</th><th>error (%)</th>\
+             <th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>\
+             <th>measured (MJ/m²)</th><th>predicted (MJ/m²)</th><th>error (%)</th></tr>\n",
         );
-        let pct = |v: Option<f64>| v.map_or_else(|| "–".into(), |v| format!("{v:+.1} %"));
+        let pct = |v: Option<f64>| v.map_or_else(|| "–".into(), |v| format!("{v:+.1}"));
+        let value = |v: Option<f64>| v.map_or_else(|| "–".into(), format_value);
         for t in parts.scores {
             let _ = writeln!(
                 html,
-                "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
+                "<tr><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td>\
+                 <td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
                 escape(&t.label),
                 t.irradiance_kw_m2,
+                value(t.measured.ignition_time_s),
+                value(t.modelled.ignition_time_s),
                 pct(t.ignition_time_error_percent),
+                value(t.measured.peak_hrr_kw_m2),
+                value(t.modelled.peak_hrr_kw_m2),
                 pct(t.peak_hrr_error_percent),
+                value(t.measured.time_to_peak_hrr_s),
+                value(t.modelled.time_to_peak_hrr_s),
                 pct(t.time_to_peak_error_percent),
+                value(t.measured.total_heat_release_mj_m2),
+                value(t.modelled.total_heat_release_mj_m2),
                 pct(t.total_heat_release_error_percent),
-                t.hrr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1} %")),
-                t.mlr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1} %"))
+                t.hrr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1}")),
+                t.mlr_nrmse_percent.map_or_else(|| "–".into(), |v| format!("{v:.1}"))
             );
         }
         html.push_str("</table>\n");

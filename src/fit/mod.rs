@@ -7,6 +7,7 @@ pub mod engine;
 pub mod evaluator;
 pub mod identifiability;
 pub mod job;
+pub mod label;
 pub mod model;
 pub mod objective;
 pub mod parameters;

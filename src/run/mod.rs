@@ -10,6 +10,7 @@
 //! This module is the only one that knows these formats. Every file but the append-only log is
 //! replaced atomically, so a run killed at any moment resumes from its last checkpoint.
 
+pub mod curves;
 pub mod fingerprint;
 pub mod lock;
 pub mod progress;
@@ -223,16 +224,16 @@ pub fn sha256_hex(path: &Path) -> Result<String, RunError> {
         .collect())
 }
 
-/// A file-system-friendly form of a name.
+/// A file-system-friendly form of a name: ASCII letters and digits, the superscripts ² and ³
+/// spelt as 2 and 3 (`25 kW/m²` → `25-kw-m2`), everything else a dash.
 pub fn slug(name: &str) -> String {
     let mut out: String = name
         .chars()
-        .map(|c| {
-            if c.is_ascii_alphanumeric() {
-                c.to_ascii_lowercase()
-            } else {
-                '-'
-            }
+        .map(|c| match c {
+            '²' => '2',
+            '³' => '3',
+            c if c.is_ascii_alphanumeric() => c.to_ascii_lowercase(),
+            _ => '-',
         })
         .collect();
     while out.contains("--") {
@@ -255,6 +256,10 @@ struct Recorder<'a> {
     last_best: Option<(Vec<f64>, f64)>,
     /// Whether the `stopping` event has been written.
     stop_announced: bool,
+    /// The model the live curves are simulated with.
+    model: &'a CaseModel<'a>,
+    /// When the live curves were last written.
+    curves_written: Option<std::time::Instant>,
 }
 
 impl Recorder<'_> {
@@ -289,6 +294,31 @@ impl Recorder<'_> {
         self.best_written = cost;
     }
 }
+
+impl Recorder<'_> {
+    /// The current best model against the data in `cases/`, at most every
+    /// [`LIVE_CURVES_EVERY`] (one simulation of each case, beside a generation's many).
+    fn write_live_curves(&mut self, values: &[f64], cost: f64, state: &EngineState) {
+        if self
+            .curves_written
+            .is_some_and(|t| t.elapsed() < LIVE_CURVES_EVERY)
+        {
+            return;
+        }
+        self.curves_written = Some(std::time::Instant::now());
+        let stamp = curves::CurveStamp {
+            iteration: state.iteration,
+            evaluations: state.evaluations,
+            objective: cost,
+            is_final: false,
+        };
+        let result = curves::write_case_curves(self.dir, self.job, self.model, values, stamp);
+        self.record(result);
+    }
+}
+
+/// The shortest time between two sets of live curves.
+const LIVE_CURVES_EVERY: std::time::Duration = std::time::Duration::from_secs(2);
 
 impl Observer for Recorder<'_> {
     fn iteration(&mut self, report: &IterationReport<'_>) {
@@ -331,6 +361,7 @@ impl Observer for Recorder<'_> {
         if let Some((values, cost)) = self.last_best.clone() {
             if cost < self.best_written {
                 self.write_best(&values, cost);
+                self.write_live_curves(&values, cost, state);
             }
         }
         self.write_event(&ProgressEvent::Checkpoint {
@@ -425,6 +456,8 @@ fn write_best_model(
 pub struct FitReport {
     pub directory: PathBuf,
     pub summary: RunSummary,
+    /// Short labels and meanings of the parameters, in the summary's order.
+    pub labels: Vec<crate::fit::label::ParameterLabel>,
 }
 
 /// Starts or resumes a fit and runs it to its end (or to a stop request).
@@ -557,6 +590,7 @@ pub fn run_fit_on<E: Evaluator>(
         objective: f64::NAN,
         data_sha256: hashes.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
     };
+    let model = CaseModel::new(&job);
     let mut recorder = Recorder {
         dir: &dir,
         writer: ProgressWriter::append_to(&dir.progress())
@@ -570,7 +604,10 @@ pub fn run_fit_on<E: Evaluator>(
         io_error: None,
         last_best: None,
         stop_announced: false,
+        model: &model,
+        curves_written: None,
     };
+    let labels = crate::fit::label::labels(&job.parameters, &job.material.material);
     recorder.write_event(&ProgressEvent::Started {
         format_version: FORMAT_VERSION,
         title: job.title.clone(),
@@ -579,12 +616,15 @@ pub fn run_fit_on<E: Evaluator>(
         parameters: job
             .parameters
             .iter()
-            .map(|p| ParameterInfo {
+            .zip(&labels)
+            .map(|(p, label)| ParameterInfo {
                 name: p.name.clone(),
                 unit: p.unit.clone(),
                 lower: p.lower,
                 upper: p.upper,
                 log_scale: p.scale == crate::fit::parameters::Scale::Log,
+                label: label.short.clone(),
+                meaning: label.meaning.clone(),
             })
             .collect(),
         cases: job
@@ -601,7 +641,6 @@ pub fn run_fit_on<E: Evaluator>(
         time_budget_s: settings.time_budget_s,
         resumed_from,
     });
-    let model = CaseModel::new(&job);
     let objective = Objective::new(&model, &job.cases);
     let outcome = optimise_on(&objective, evaluator, &settings, state, &mut recorder);
     if let Some(err) = recorder.io_error.take() {
@@ -637,6 +676,7 @@ pub fn run_fit_on<E: Evaluator>(
     Ok(FitReport {
         directory: dir.root.clone(),
         summary,
+        labels,
     })
 }
 
@@ -753,7 +793,13 @@ fn finish<E: Evaluator>(
         outcome.best.cost,
         provenance,
     )?;
-    write_case_curves(dir, job, model, &outcome.best_values)?;
+    let stamp = curves::CurveStamp {
+        iteration: outcome.state.iteration,
+        evaluations: outcome.state.evaluations,
+        objective: outcome.best.cost,
+        is_final: true,
+    };
+    curves::write_case_curves(dir, job, model, &outcome.best_values, stamp)?;
     let parameters: Vec<SummaryParameter> = job
         .parameters
         .iter()
@@ -799,7 +845,8 @@ fn finish<E: Evaluator>(
                 cost: p.cost,
             })
             .collect(),
-        prior_cost: outcome.best.prior_cost,
+        // + 0.0 turns a −0.0 (a sum of no priors) into 0.0, so the file never says "-0.0".
+        prior_cost: outcome.best.prior_cost + 0.0,
         evaluations: outcome.state.evaluations,
         elapsed_s: outcome.state.elapsed_s,
         parameters,
@@ -872,40 +919,4 @@ fn write_parameters_csv(
         problem: e.to_string(),
     })?;
     write_atomically(&path, &bytes).map_err(io("cannot write", &path))
-}
-
-/// One CSV per case and signal: time, measured, σ, model, standardised residual.
-fn write_case_curves(
-    dir: &RunDirectory,
-    job: &FitJob,
-    model: &CaseModel<'_>,
-    values: &[f64],
-) -> Result<(), RunError> {
-    std::fs::create_dir_all(dir.cases()).map_err(io("cannot create", &dir.cases()))?;
-    for case in &job.cases {
-        let Ok(curves) = model.predict_case(case, values) else {
-            continue;
-        };
-        for (signal, curve) in case.signals.iter().zip(&curves) {
-            let modelled = &curve.values;
-            let mut text = String::from("time_s,measured,sigma,model,residual\n");
-            for (((time_s, measured), sigma), model) in signal
-                .time_s
-                .iter()
-                .zip(&signal.value)
-                .zip(&signal.sigma)
-                .zip(modelled)
-            {
-                let residual = (model - measured) / sigma;
-                text.push_str(&format!(
-                    "{time_s:.3},{measured:.6},{sigma:.6},{model:.6},{residual:.6}\n"
-                ));
-            }
-            let path = dir
-                .cases()
-                .join(format!("{}--{}.csv", slug(&case.name), signal.label()));
-            write_atomically(&path, text.as_bytes()).map_err(io("cannot write", &path))?;
-        }
-    }
-    Ok(())
 }

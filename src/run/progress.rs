@@ -19,6 +19,12 @@ pub struct ParameterInfo {
     pub lower: f64,
     pub upper: f64,
     pub log_scale: bool,
+    /// A short name that tells it apart (`k(300 K) virgin`); empty in older runs.
+    #[serde(default, skip_serializing_if = "String::is_empty")]
+    pub label: String,
+    /// What the number is (quantity, of what, at what temperature); empty in older runs.
+    #[serde(default, skip_serializing_if = "String::is_empty")]
+    pub meaning: String,
 }
 
 /// One part of the objective.

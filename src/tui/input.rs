@@ -57,6 +57,8 @@ pub enum Action {
     ToggleHelp,
     /// Esc: closes the help or a message.
     Dismiss,
+    /// `y`: confirms a pending question (stopping a watched fit).
+    Confirm,
 }
 
 /// What the loop must do to the fit after an action.
@@ -70,6 +72,8 @@ pub enum Effect {
     Quit,
     /// Ask the fit to stop and leave once its outputs are written.
     StopThenQuit,
+    /// A watcher confirmed: send SIGINT to this pid (the fit in `run.lock`), if the user owns it.
+    Interrupt(u32),
 }
 
 /// The action of a key press, if it has one. Key releases and repeats of other kinds give none.
@@ -97,6 +101,7 @@ pub fn action_for_key(key: KeyEvent) -> Option<Action> {
         KeyCode::Char('q') => Action::Quit,
         KeyCode::Char('?') => Action::ToggleHelp,
         KeyCode::Esc => Action::Dismiss,
+        KeyCode::Char('y') => Action::Confirm,
         _ => return None,
     })
 }
@@ -104,9 +109,13 @@ pub fn action_for_key(key: KeyEvent) -> Option<Action> {
 /// The keys the footer lists for a view and mode: (key, what it does).
 pub fn footer_keys(view: View, mode: Mode, is_run_over: bool) -> Vec<(&'static str, &'static str)> {
     let mut keys = vec![("1-4/Tab", "view")];
-    if view == View::Residuals {
-        keys.push(("←→", "case"));
-        keys.push(("↑↓", "signal"));
+    match view {
+        View::Residuals => {
+            keys.push(("←→", "case"));
+            keys.push(("↑↓", "signal"));
+        }
+        View::Parameters | View::Summary => keys.push(("↑↓", "scroll")),
+        View::Progress => {}
     }
     match mode {
         Mode::Attached if is_run_over => keys.push(("q", "exit")),
@@ -115,19 +124,23 @@ pub fn footer_keys(view: View, mode: Mode, is_run_over: bool) -> Vec<(&'static s
             keys.push(("s", "stop fit"));
             keys.push(("q", "stop+exit"));
         }
-        Mode::ReadOnly => keys.push(("q", "quit")),
+        Mode::ReadOnly if is_run_over => keys.push(("q", "quit")),
+        Mode::ReadOnly => {
+            keys.push(("s", "stop fit"));
+            keys.push(("q", "quit"));
+        }
     }
     keys.push(("?", "help"));
     keys
 }
 
 /// What the help overlay says, line by line.
-pub fn help_lines(mode: Mode) -> Vec<String> {
+pub fn help_lines(mode: Mode, holder_pid: Option<u32>) -> Vec<String> {
     let mut lines = vec![
         "1 2 3 4      Progress, Parameters, Residuals, Summary".to_string(),
         "Tab ⇧Tab     next / previous view".to_string(),
         "← → or h l   previous / next case (Residuals)".to_string(),
-        "↑ ↓ or k j   previous / next signal (Residuals)".to_string(),
+        "↑ ↓ or k j   previous / next signal (Residuals), scroll (Parameters, Summary)".to_string(),
     ];
     match mode {
         Mode::Attached => lines.extend([
@@ -140,11 +153,23 @@ pub fn help_lines(mode: Mode) -> Vec<String> {
             "Closing the terminal does not stop the fit: it carries on without a screen."
                 .to_string(),
         ]),
-        Mode::ReadOnly => lines.extend([
-            "q            leave this viewer (the fit is not affected)".to_string(),
-            "This viewer is read-only: it only reads the run directory. Pause or stop".to_string(),
-            "the fit from its own terminal, or stop it with kill -INT <pid>.".to_string(),
-        ]),
+        Mode::ReadOnly => {
+            lines.push("q            leave this viewer (the fit is not affected)".to_string());
+            lines.push(
+                "s then y     stop the fit (SIGINT to the pid in run.lock, if it is yours)"
+                    .to_string(),
+            );
+            lines.push(
+                "This viewer is read-only: it only reads the run directory. Pause the fit"
+                    .to_string(),
+            );
+            lines.push(match holder_pid {
+                Some(pid) => {
+                    format!("from its own terminal; stop it from any shell: kill -INT {pid}")
+                }
+                None => "from its own terminal (no run.lock here names the fit's pid)".to_string(),
+            });
+        }
     }
     lines.push("? or Esc     close this help".to_string());
     lines
@@ -162,6 +187,13 @@ pub struct Screen {
     /// The user asked to leave once the fit has written its outputs.
     pub is_quit_requested: bool,
     pub is_stop_requested: bool,
+    /// First line shown of the scrolling list of the Parameters and Summary views (the
+    /// drawing clamps it to the list).
+    pub scroll: usize,
+    /// The pid in the run's `run.lock` (set by the loop from the state).
+    pub holder_pid: Option<u32>,
+    /// A watcher pressed `s`: the pid waiting for `y`.
+    pub confirm_stop: Option<u32>,
 }
 
 impl Screen {
@@ -175,6 +207,9 @@ impl Screen {
             message: None,
             is_quit_requested: false,
             is_stop_requested: false,
+            scroll: 0,
+            holder_pid: None,
+            confirm_stop: None,
         }
     }
 
@@ -194,17 +229,37 @@ impl Screen {
             Action::Dismiss => {
                 self.is_help_open = false;
                 self.message = None;
+                self.confirm_stop = None;
                 return Effect::None;
             }
             _ => self.is_help_open = false,
         }
-        let read_only_note =
-            "read-only viewer: pause/stop the fit in its own terminal, or kill -INT <pid>";
+        if let Some(pid) = self.confirm_stop.take() {
+            if action == Action::Confirm {
+                self.message = None;
+                return Effect::Interrupt(pid);
+            }
+            self.message = Some("not stopped".into());
+            return Effect::None;
+        }
+        let read_only_note = match self.holder_pid {
+            Some(pid) => format!(
+                "read-only viewer: pause the fit in its own terminal; stop it with kill -INT {pid}"
+            ),
+            None => "read-only viewer: pause or stop the fit in its own terminal (no run.lock names its pid)".to_string(),
+        };
+        let old_view = self.view;
         match action {
             Action::Show(view) => self.view = view,
             Action::NextView => self.view = View::ALL[(self.view.index() + 1) % View::ALL.len()],
             Action::PreviousView => {
                 self.view = View::ALL[(self.view.index() + View::ALL.len() - 1) % View::ALL.len()];
+            }
+            Action::NextSignal if matches!(self.view, View::Parameters | View::Summary) => {
+                self.scroll = self.scroll.saturating_add(1);
+            }
+            Action::PreviousSignal if matches!(self.view, View::Parameters | View::Summary) => {
+                self.scroll = self.scroll.saturating_sub(1);
             }
             Action::NextCase | Action::PreviousCase => {
                 if !cases.is_empty() {
@@ -226,14 +281,25 @@ impl Screen {
                 }
             }
             Action::TogglePause => match self.mode {
-                Mode::ReadOnly => self.message = Some(read_only_note.into()),
+                Mode::ReadOnly => self.message = Some(read_only_note),
                 Mode::Attached if is_run_over => {
                     self.message = Some("the fit has ended; nothing to pause".into());
                 }
                 Mode::Attached => return Effect::TogglePause,
             },
             Action::Stop => match self.mode {
-                Mode::ReadOnly => self.message = Some(read_only_note.into()),
+                Mode::ReadOnly if is_run_over => {
+                    self.message = Some("the fit has ended already".into());
+                }
+                Mode::ReadOnly => match self.holder_pid {
+                    Some(pid) => {
+                        self.confirm_stop = Some(pid);
+                        self.message = Some(format!(
+                            "stop the fit? y sends kill -INT {pid} (it finishes the iteration and writes all outputs); any other key: no"
+                        ));
+                    }
+                    None => self.message = Some(read_only_note),
+                },
                 Mode::Attached if is_run_over => {
                     self.message = Some("the fit has ended already".into());
                 }
@@ -259,7 +325,10 @@ impl Screen {
                     return Effect::StopThenQuit;
                 }
             },
-            Action::ToggleHelp | Action::Dismiss => {}
+            Action::ToggleHelp | Action::Dismiss | Action::Confirm => {}
+        }
+        if self.view != old_view {
+            self.scroll = 0;
         }
         Effect::None
     }
@@ -388,5 +457,50 @@ mod tests {
                 }
             }
         }
+    }
+
+    #[test]
+    fn a_watcher_stops_the_fit_only_after_confirming() {
+        let mut screen = Screen::new(Mode::ReadOnly);
+        // Without a pid in run.lock there is nothing to send.
+        assert_eq!(screen.apply(Action::Stop, &cases(), false), Effect::None);
+        assert!(screen.message.as_deref().unwrap().contains("no run.lock"));
+        screen.holder_pid = Some(4242);
+        assert_eq!(screen.apply(Action::Stop, &cases(), false), Effect::None);
+        assert!(screen
+            .message
+            .as_deref()
+            .unwrap()
+            .contains("y sends kill -INT 4242"));
+        // Any other action cancels; so does Esc.
+        assert_eq!(
+            screen.apply(Action::NextView, &cases(), false),
+            Effect::None
+        );
+        assert_eq!(screen.apply(Action::Confirm, &cases(), false), Effect::None);
+        screen.apply(Action::Stop, &cases(), false);
+        screen.apply(Action::Dismiss, &cases(), false);
+        assert_eq!(screen.apply(Action::Confirm, &cases(), false), Effect::None);
+        screen.apply(Action::Stop, &cases(), false);
+        assert_eq!(
+            screen.apply(Action::Confirm, &cases(), false),
+            Effect::Interrupt(4242)
+        );
+        // A finished run has nothing to stop.
+        assert_eq!(screen.apply(Action::Stop, &cases(), true), Effect::None);
+        assert_eq!(screen.confirm_stop, None);
+    }
+
+    #[test]
+    fn arrows_scroll_the_parameters_and_summary_and_a_new_view_starts_at_the_top() {
+        let mut screen = Screen::new(Mode::Attached);
+        screen.apply(Action::Show(View::Parameters), &cases(), false);
+        screen.apply(Action::NextSignal, &cases(), false);
+        screen.apply(Action::NextSignal, &cases(), false);
+        assert_eq!(screen.scroll, 2);
+        screen.apply(Action::PreviousSignal, &cases(), false);
+        assert_eq!(screen.scroll, 1);
+        screen.apply(Action::Show(View::Summary), &cases(), false);
+        assert_eq!(screen.scroll, 0);
     }
 }

@@ -213,12 +213,21 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
             match event::read() {
                 Ok(Event::Key(key)) => {
                     let Some(action) = action_for_key(key) else {
+                        // Any other key answers a pending stop question with no.
+                        if key.kind == event::KeyEventKind::Press
+                            && screen.confirm_stop.take().is_some()
+                        {
+                            screen.message = Some("not stopped".into());
+                            is_dirty = true;
+                        }
                         continue;
                     };
+                    screen.holder_pid = state.holder_pid;
                     let effect = screen.apply(action, &state.cases(), state.is_over());
                     is_dirty = true;
                     match (effect, control) {
                         (Effect::Quit, _) => return LoopEnd::Left,
+                        (Effect::Interrupt(pid), _) => screen.message = Some(interrupt(pid)),
                         (Effect::TogglePause, Some(control)) => {
                             control.pause.fetch_xor(true, Ordering::SeqCst);
                         }
@@ -235,6 +244,30 @@ fn run_loop(session: &mut TerminalSession, root: &Path, control: Option<&FitCont
                 Err(err) => return LoopEnd::Lost(err),
             }
         }
+    }
+}
+
+/// Sends SIGINT to the fit in `run.lock` if this user owns it (a watcher's `s` then `y`);
+/// returns what to tell the user.
+fn interrupt(pid: u32) -> String {
+    use std::os::unix::fs::MetadataExt;
+    let command = format!("kill -INT {pid}");
+    let Ok(metadata) = std::fs::metadata(format!("/proc/{pid}")) else {
+        return format!("no process {pid} (the fit may have ended); nothing sent");
+    };
+    // SAFETY: geteuid has no preconditions and cannot fail.
+    let me = unsafe { libc::geteuid() };
+    if metadata.uid() != me {
+        return format!("process {pid} is not yours: its owner can stop it with {command}");
+    }
+    let Ok(raw) = libc::pid_t::try_from(pid) else {
+        return format!("pid {pid} is out of range; nothing sent");
+    };
+    // SAFETY: kill has no memory preconditions; the pid was checked to be this user's.
+    if unsafe { libc::kill(raw, libc::SIGINT) } == 0 {
+        format!("sent SIGINT ({command}): the fit finishes its iteration and writes its outputs")
+    } else {
+        format!("{command} failed: {}", std::io::Error::last_os_error())
     }
 }
 

@@ -91,6 +91,24 @@ impl RunSource {
                 }
             }
         }
+        let pid = crate::run::lock::holder_pid(&self.dir.root);
+        if pid != state.holder_pid {
+            is_changed = true;
+            state.holder_pid = pid;
+        }
+        let index = self.dir.cases().join(crate::run::curves::INDEX_FILE);
+        if self.has_changed(&index).is_some() {
+            is_changed = true;
+            match std::fs::read_to_string(&index) {
+                Ok(text) => state.set_curve_index_text(&text),
+                Err(err) => {
+                    state.file_problems.insert(
+                        format!("cases/{}", crate::run::curves::INDEX_FILE),
+                        format!("cannot be read ({err})"),
+                    );
+                }
+            }
+        }
         let cases = self.dir.cases();
         if let Ok(entries) = std::fs::read_dir(&cases) {
             let mut paths: Vec<PathBuf> = entries

@@ -150,10 +150,35 @@ pub struct CaseCurve {
     pub residual: Vec<f64>,
 }
 
+/// `cases/curves.json` read leniently: what the case CSVs hold and when they were written.
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct CurveIndexView {
+    pub iteration: Option<u64>,
+    pub evaluations: Option<u64>,
+    pub objective: Option<f64>,
+    pub is_final: Option<bool>,
+    pub curves: Vec<CurveEntryView>,
+}
+
+/// One entry of `cases/curves.json`.
+#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
+#[serde(default)]
+pub struct CurveEntryView {
+    pub case: String,
+    pub signal: String,
+    pub unit: String,
+    pub sigma_source: String,
+}
+
 /// A parameter as the Parameters view shows it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ParameterRow {
     pub name: String,
+    /// Short label (`k(300 K) virgin`); the path when the run did not write one.
+    pub label: String,
+    /// What the number is; empty when the run did not say.
+    pub meaning: String,
     pub unit: String,
     pub value: Option<f64>,
     pub lower: f64,
@@ -193,6 +218,10 @@ pub struct ViewerState {
     pub summary: Option<SummaryView>,
     /// Curves by file stem (`<case slug>--<signal>`).
     pub curves: BTreeMap<String, CaseCurve>,
+    /// `cases/curves.json`: units, σ sources and the stamp of the curves.
+    pub curve_index: Option<CurveIndexView>,
+    /// The pid in `run.lock` (the process running the fit), when there is one.
+    pub holder_pid: Option<u32>,
     pub progress_modified: Option<SystemTime>,
     pub checkpoint_modified: Option<SystemTime>,
     /// What could not be read, by kind, with a count: shown so a user knows what is missing.
@@ -209,10 +238,13 @@ impl ViewerState {
         let summary = self.summary.take();
         let curves = std::mem::take(&mut self.curves);
         let file_problems = std::mem::take(&mut self.file_problems);
+        let curve_index = self.curve_index.take();
         *self = ViewerState {
             summary,
             curves,
             file_problems,
+            curve_index,
+            holder_pid: self.holder_pid,
             ..ViewerState::default()
         };
     }
@@ -491,6 +523,39 @@ impl ViewerState {
         }
     }
 
+    /// Reads `cases/curves.json`; one that does not parse keeps the last good reading.
+    pub fn set_curve_index_text(&mut self, text: &str) {
+        let key = format!("cases/{}", crate::run::curves::INDEX_FILE);
+        match serde_json::from_str::<CurveIndexView>(text) {
+            Ok(index) => {
+                self.file_problems.remove(&key);
+                self.curve_index = Some(index);
+            }
+            Err(err) => {
+                self.file_problems
+                    .insert(key, format!("does not parse ({err})"));
+            }
+        }
+    }
+
+    /// What the index says of a case's signal (unit, where σ came from).
+    pub fn curve_entry(&self, case: &str, signal: &str) -> Option<&CurveEntryView> {
+        self.curve_index
+            .as_ref()?
+            .curves
+            .iter()
+            .find(|e| e.case == case && e.signal == signal)
+    }
+
+    /// Whether the curves on file are the current best of a running fit (not the final ones).
+    pub fn curves_are_live(&self) -> bool {
+        !self.is_over()
+            && self
+                .curve_index
+                .as_ref()
+                .is_some_and(|i| i.is_final != Some(true))
+    }
+
     /// The cases and their signals: from the `started` line, else from the summary, else from
     /// the curve files.
     pub fn cases(&self) -> Vec<(String, Vec<String>)> {
@@ -639,8 +704,11 @@ impl ViewerState {
                     let upper = p.upper_bound.unwrap_or(f64::NAN);
                     let log_scale = p.log_scale.unwrap_or(false);
                     let interval_95 = p.lower_95.zip(p.upper_95);
+                    let (label, meaning) = self.label_of(&p.name);
                     ParameterRow {
                         name: p.name.clone(),
+                        label,
+                        meaning,
                         unit: p.unit.clone(),
                         value: p.value,
                         lower,
@@ -675,8 +743,11 @@ impl ViewerState {
             .enumerate()
             .map(|(i, p)| {
                 let value = values.and_then(|v| v.get(i).copied());
+                let (label, meaning) = self.label_of(&p.name);
                 ParameterRow {
                     name: p.name.clone(),
+                    label,
+                    meaning,
                     unit: p.unit.clone(),
                     value,
                     lower: p.lower,
@@ -691,6 +762,56 @@ impl ViewerState {
                 }
             })
             .collect()
+    }
+
+    /// A parameter's short label and meaning from the `started` line (the path and nothing
+    /// for an older run).
+    fn label_of(&self, name: &str) -> (String, String) {
+        self.info
+            .as_ref()
+            .and_then(|i| i.parameters.iter().find(|p| p.name == name))
+            .filter(|p| !p.label.is_empty())
+            .map_or_else(
+                || (name.to_string(), String::new()),
+                |p| (p.label.clone(), p.meaning.clone()),
+            )
+    }
+
+    /// The cost of each part of the objective: final from the summary, else the latest
+    /// iteration's.
+    pub fn part_cost(&self, case: &str, signal: &str) -> Option<f64> {
+        if let Some(parts) = self.summary.as_ref().and_then(|s| s.parts.as_ref()) {
+            return parts
+                .iter()
+                .find(|p| p.case == case && p.signal == signal)
+                .and_then(|p| p.cost);
+        }
+        self.latest
+            .as_ref()?
+            .parts
+            .iter()
+            .find(|p| p.case == case && p.signal == signal)
+            .map(|p| p.cost)
+    }
+
+    /// Estimated seconds left in the global search (rate and budget or time limit); `None`
+    /// once the run is over, in the local phase, or without a rate.
+    pub fn time_left_s(&self) -> Option<f64> {
+        if self.is_over() || self.is_paused {
+            return None;
+        }
+        let latest = self.latest.as_ref()?;
+        if latest.phase != "global" {
+            return None;
+        }
+        let info = self.info.as_ref()?;
+        crate::headless::estimated_time_left_s(
+            latest.evaluations,
+            latest.elapsed_s,
+            self.evaluations_per_s().unwrap_or(0.0),
+            info.max_evaluations,
+            info.time_budget_s,
+        )
     }
 
     /// The correlation matrix of the summary, if it has one.
@@ -810,6 +931,8 @@ fn lenient_parameter(value: &Value) -> ParameterInfo {
             .get("log_scale")
             .and_then(Value::as_bool)
             .unwrap_or(false),
+        label: text(value, "label").unwrap_or_default(),
+        meaning: text(value, "meaning").unwrap_or_default(),
     }
 }
 

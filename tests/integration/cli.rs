@@ -163,3 +163,138 @@ fn broken_fit_jobs_give_errors_that_name_file_line_and_key() {
     // Nothing half-made is left behind by a job that never started.
     assert_eq!(std::fs::read_dir(&runs).map(|d| d.count()).unwrap_or(0), 0);
 }
+
+/// The examples in `--help` name files that exist and run as shown from the repository's root
+/// (issue 17). Examples that write files (`--out`, `>`) or need a finished fit (`runs/`) are
+/// left out; the rest must succeed.
+#[test]
+fn help_examples_run_as_shown_from_the_repository_root() {
+    let mut n_run = 0;
+    for command in ["reduce", "ignition", "isoconversional"] {
+        let help = String::from_utf8_lossy(&emberfit(&[command, "--help"]).stdout).into_owned();
+        let lines: Vec<&str> = help.lines().collect();
+        for (i, line) in lines.iter().enumerate() {
+            let Some(example) = line.trim().strip_prefix("emberfit ") else {
+                continue;
+            };
+            // A continuation line (indented further, no `emberfit`) belongs to the example.
+            let mut text = example.to_string();
+            if let Some(next) = lines.get(i + 1) {
+                if next.starts_with("      ") && !next.trim().starts_with("emberfit ") {
+                    text.push(' ');
+                    text.push_str(next.trim());
+                }
+            }
+            if text.contains("--out") || text.contains('>') || text.contains("runs/") {
+                continue;
+            }
+            // The shell would expand the globs; do it here the same way.
+            let mut args: Vec<String> = Vec::new();
+            for word in text.split_whitespace() {
+                match word.split_once('*') {
+                    Some((head, tail)) => {
+                        let dir = Path::new(env!("CARGO_MANIFEST_DIR"))
+                            .join(Path::new(head).parent().unwrap_or(Path::new("")));
+                        let prefix = Path::new(head)
+                            .file_name()
+                            .map_or(String::new(), |f| f.to_string_lossy().into_owned());
+                        let mut matches: Vec<String> = std::fs::read_dir(&dir)
+                            .unwrap()
+                            .filter_map(|e| e.ok())
+                            .map(|e| e.file_name().to_string_lossy().into_owned())
+                            .filter(|f| f.starts_with(&prefix) && f.ends_with(tail))
+                            .map(|f| {
+                                Path::new(head)
+                                    .parent()
+                                    .unwrap_or(Path::new(""))
+                                    .join(f)
+                                    .display()
+                                    .to_string()
+                            })
+                            .collect();
+                        matches.sort();
+                        assert!(!matches.is_empty(), "`{word}` matches no file");
+                        args.extend(matches);
+                    }
+                    None => args.push(word.to_string()),
+                }
+            }
+            let refs: Vec<&str> = args.iter().map(String::as_str).collect();
+            let output = emberfit(&refs);
+            assert!(
+                output.status.success(),
+                "`emberfit {text}` failed: {}",
+                String::from_utf8_lossy(&output.stderr)
+            );
+            n_run += 1;
+        }
+    }
+    assert!(n_run >= 7, "only {n_run} examples ran");
+}
+
+/// A fit says what is wrong before anything else (issue 17): a missing job gives the read
+/// error and no "run directory" line; a new run into an existing name says "already exists"
+/// and nothing from the old run's log. The table after a fit fits 80 columns.
+#[test]
+fn fit_messages_come_first_and_the_final_table_fits_80_columns() {
+    let dir = scratch_dir("fit-messages");
+    let runs = dir.join("runs");
+    let runs_text = runs.display().to_string();
+    let output = emberfit(&[
+        "fit",
+        "nothere.toml",
+        "--headless",
+        "--runs-dir",
+        &runs_text,
+    ]);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    assert!(stderr.contains("reading the fit job"), "{stderr}");
+    assert!(!stderr.contains("run directory"), "{stderr}");
+    assert!(!runs.exists(), "a missing job made a run directory");
+
+    let args = [
+        "fit",
+        "tests/cases/twin-fit.toml",
+        "--headless",
+        "--runs-dir",
+        &runs_text,
+        "--name",
+        "once",
+        "--max-evaluations",
+        "24",
+        "--threads",
+        "1",
+    ];
+    let output = emberfit(&args);
+    let stdout = String::from_utf8_lossy(&output.stdout);
+    assert!(
+        output.status.success(),
+        "{}",
+        String::from_utf8_lossy(&output.stderr)
+    );
+    assert!(stdout.contains("what the labels are:"), "{stdout}");
+    for line in stdout.lines() {
+        // The run directory's path is the user's; every other line fits 80 columns.
+        if !line.starts_with("run directory:") {
+            assert!(
+                line.chars().count() <= 80,
+                "{} columns: {line}",
+                line.chars().count()
+            );
+        }
+    }
+    let output = emberfit(&args);
+    let stderr = String::from_utf8_lossy(&output.stderr);
+    assert!(!output.status.success());
+    assert_eq!(
+        output.stdout.len(),
+        0,
+        "{}",
+        String::from_utf8_lossy(&output.stdout)
+    );
+    let lines: Vec<&str> = stderr.lines().collect();
+    assert_eq!(lines.len(), 1, "{stderr}");
+    assert!(lines[0].contains("already exists"), "{stderr}");
+    let _ = std::fs::remove_dir_all(&dir);
+}

@@ -97,7 +97,7 @@ fn pmma_cone_files_read_and_their_heat_of_combustion_is_in_the_stated_band() {
         let report = &test.report;
         let ehc = report.effective_heat_of_combustion_mj_kg.unwrap();
         eprintln!(
-            "{file}: EHC {ehc:.2} kJ/g, t_ig {:.1} s, pHRR {:.0} kW/m2, THR {:.1} MJ/m2, \
+            "{file}: EHC {ehc:.2} kJ/g, t_ig {:.1} s, pHRR {:.0} kW/m², THR {:.1} MJ/m², \
              mass lost {:.1} g, MLR10-90 {:.2} g/m2s, notices {}",
             report.ignition_time_s.unwrap(),
             report.peak_hrr_kw_m2.unwrap(),
@@ -172,7 +172,7 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     let analysis = analyse(&points, &settings).unwrap();
     for fit in &analysis.fits {
         eprintln!(
-            "{}: critical heat flux {:.2} kW/m2, slope {:.5}, R2 {:.4}",
+            "{}: critical heat flux {:.2} kW/m², slope {:.5}, R2 {:.4}",
             fit.correlation.name(),
             fit.critical_heat_flux_kw_m2,
             fit.slope,
@@ -189,7 +189,7 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     let janssens = analysis.fit(Correlation::Janssens).unwrap();
     let critical = janssens.critical_heat_flux_kw_m2;
     let [low, high] = janssens.critical_heat_flux_95_kw_m2.unwrap();
-    eprintln!("Janssens critical heat flux {critical:.1} kW/m2, 95 % [{low:.1}, {high:.1}]");
+    eprintln!("Janssens critical heat flux {critical:.1} kW/m², 95 % [{low:.1}, {high:.1}]");
     assert!(
         critical > 0.0 && critical < 25.0,
         "critical heat flux {critical}"
@@ -197,13 +197,13 @@ fn pmma_ignition_analysis_gives_handbook_magnitudes() {
     const HANDBOOK_CRITICAL_KW_M2: f64 = 11.0;
     assert!(
         (low..=high).contains(&HANDBOOK_CRITICAL_KW_M2),
-        "handbook 11 kW/m2 outside [{low}, {high}]"
+        "handbook 11 kW/m² outside [{low}, {high}]"
     );
     assert!(analysis.warnings.iter().any(|w| w
         .message
         .starts_with("the critical heat flux is poorly determined")));
     let from_balance = analysis.critical_heat_flux_from_balance_kw_m2.unwrap();
-    eprintln!("critical heat flux from the balance at 378 °C: {from_balance:.1} kW/m2");
+    eprintln!("critical heat flux from the balance at 378 °C: {from_balance:.1} kW/m²");
     assert!(
         (from_balance - HANDBOOK_CRITICAL_KW_M2).abs() <= 0.3 * HANDBOOK_CRITICAL_KW_M2,
         "balance {from_balance}"
@@ -891,7 +891,7 @@ fn broken_test_files_give_the_stated_error() {
         (
             "ignition",
             "ignition-one-irradiance.toml",
-            &["two or more irradiances", "50 kW/m2"],
+            &["two or more irradiances", "50 kW/m²"],
         ),
     ];
     for (command, file, expected) in cases {

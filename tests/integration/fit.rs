@@ -128,7 +128,7 @@ fn twin_fit_recovers_the_true_parameters_inside_their_intervals() {
     ] {
         assert!(report.directory.join(file).exists(), "missing {file}");
     }
-    assert!(report.directory.join("cases/50-kw-m--mlr.csv").exists());
+    assert!(report.directory.join("cases/50-kw-m2--mlr.csv").exists());
     // best.toml is a material model that loads and carries its provenance.
     let best = emberfit::case::load_material(&report.directory.join("best.toml"))
         .expect("best.toml loads");
@@ -500,7 +500,7 @@ fn twin_fit_to_back_and_in_depth_temperatures_recovers_thermal_properties() {
     }
     let residuals = report
         .directory
-        .join("cases/50-kw-m-thermocouples--in_depth_temperature_3mm.csv");
+        .join("cases/50-kw-m2-thermocouples--in_depth_temperature_3mm.csv");
     let text = std::fs::read_to_string(&residuals).expect("the in-depth residual file exists");
     assert!(text.starts_with("time_s,measured,sigma,model,residual"));
     let _ = std::fs::remove_dir_all(&root);

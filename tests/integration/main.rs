@@ -10,6 +10,7 @@ mod milligram_fit;
 mod pmma_fit;
 mod predict;
 mod properties;
+mod templates;
 mod tui;
 mod util;
 mod verification;

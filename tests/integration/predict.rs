@@ -475,7 +475,7 @@ fn report_plots_are_valid_and_the_page_renders() {
         ],
     );
     let plots = run.run.join("plots");
-    let case = plots.join("case-25-kw-m--hrr.svg");
+    let case = plots.join("case-25-kw-m2--hrr.svg");
     let (texts, shapes) = svg_texts(&case);
     for expected in [
         "measured",
@@ -490,9 +490,26 @@ fn report_plots_are_valid_and_the_page_renders() {
         );
     }
     assert!(shapes >= 3, "lines, band and residual axis: {shapes}");
-    let (texts, _) = svg_texts(&plots.join("band-50-kw-m.svg"));
+    let band_svg = plots.join("band-50-kw-m2.svg");
+    let (texts, _) = svg_texts(&band_svg);
     assert!(
         texts.iter().any(|t| t.starts_with("95 % prediction band")),
+        "{texts:?}"
+    );
+    // Best fit and median differ by line style, not colour alone (issue 17): the model is one
+    // solid 3-px line, the median is drawn as dashes (many short pieces in its colour), and
+    // the band has an outline at each edge.
+    let (model_pieces, median_pieces) = stroke_counts(&band_svg);
+    assert!(model_pieces >= 1, "no best-fit line");
+    assert!(
+        median_pieces > 20,
+        "the median is not dashed: {median_pieces} pieces"
+    );
+    // The twin's σ is the peak scale of a single test, not a measured spread: no σ band in the
+    // case plots (a band of ±σ would look like a huge measurement uncertainty).
+    let (texts, _) = svg_texts(&case);
+    assert!(
+        !texts.iter().any(|t| t.starts_with("measured ±")),
         "{texts:?}"
     );
     let (texts, _) = svg_texts(&plots.join("correlation.svg"));
@@ -507,9 +524,9 @@ fn report_plots_are_valid_and_the_page_renders() {
     );
     // The model line's blue (plots.rs, LineKind::Model) is drawn in the PNG.
     for name in [
-        "case-25-kw-m--hrr",
-        "case-50-kw-m--mlr",
-        "band-50-kw-m",
+        "case-25-kw-m2--hrr",
+        "case-50-kw-m2--mlr",
+        "band-50-kw-m2",
         "convergence",
         "correlation",
     ] {
@@ -526,6 +543,16 @@ fn report_plots_are_valid_and_the_page_renders() {
     assert!(html.contains(emberfit::export::report::CAUTION));
     assert!(html.contains("component.virgin.conductivity_w_m_k"));
     assert!(html.contains("Held-out tests"));
+    // Measured beside predicted, units on every column.
+    for header in [
+        "<th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>",
+        "<th>measured (kW/m²)</th><th>predicted (kW/m²)</th>",
+        "<th>measured (MJ/m²)</th><th>predicted (MJ/m²)</th>",
+        "<th>95 % band (unit)</th>",
+        "irradiance (kW/m²)</th>",
+    ] {
+        assert!(html.contains(header), "{header} in the report");
+    }
     let record = std::fs::read_to_string(run.run.join("run.toml")).unwrap();
     let record: emberfit::run::RunRecord = toml::from_str(&record).unwrap();
     for hash in record.data_sha256.values() {
@@ -539,8 +566,33 @@ fn report_plots_are_valid_and_the_page_renders() {
     browser_check(&html_path);
 }
 
-/// Renders the page in headless Chromium and checks the screenshot shows a page with figures
-/// (many colours, not blank). Skipped, saying so, when Chromium is not installed.
+/// Counts the stroked pieces of an SVG in the best-fit model's colour at 3 px and in the
+/// median's colour (plots.rs: LineKind::Model, LineKind::Median).
+fn stroke_counts(path: &Path) -> (usize, usize) {
+    let text = std::fs::read_to_string(path).unwrap();
+    let document = roxmltree::Document::parse(&text).unwrap();
+    let stroke = |n: &roxmltree::Node| n.attribute("stroke").unwrap_or("").to_ascii_uppercase();
+    let mut model = 0;
+    let mut median = 0;
+    for node in document
+        .descendants()
+        .filter(|n| n.has_tag_name("polyline") || n.has_tag_name("path"))
+    {
+        let colour = stroke(&node);
+        if colour == "#1F5EB8" && node.attribute("stroke-width") == Some("3") {
+            model += 1;
+        }
+        if colour == "#0A326E" {
+            median += 1;
+        }
+    }
+    (model, median)
+}
+
+/// Renders the page in headless Chromium (Debian's `chromium`): the screenshot must exist and
+/// not be blank (the variance of its grey levels and its colour count), and the rendered DOM
+/// must hold the figures and the held-out table. Without a browser the check is skipped,
+/// saying so, except under `CI=true` (.ci/run installs one), where that is a failure.
 fn browser_check(html: &Path) {
     let Some(browser) = ["chromium", "chromium-browser", "google-chrome"]
         .into_iter()
@@ -551,22 +603,27 @@ fn browser_check(html: &Path) {
                 .is_ok_and(|o| o.status.success())
         })
     else {
+        assert!(
+            std::env::var("CI").as_deref() != Ok("true"),
+            "report browser check: no chromium under CI=true (.ci/run installs it)"
+        );
         eprintln!("report browser check: skipped, chromium is not installed");
         return;
     };
     let profile = scratch("browser-profile");
     let shot = profile.join("report.png");
+    let flags = [
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--no-first-run",
+        "--window-size=1200,2000",
+    ];
     let output = Command::new(browser)
-        .args([
-            "--headless",
-            "--no-sandbox",
-            "--disable-gpu",
-            "--disable-background-networking",
-            "--disable-component-update",
-            "--disable-sync",
-            "--no-first-run",
-            "--window-size=1200,1600",
-        ])
+        .args(flags)
         .arg(format!("--user-data-dir={}", profile.display()))
         .arg(format!("--screenshot={}", shot.display()))
         .arg(format!("file://{}", html.display()))
@@ -578,9 +635,56 @@ fn browser_check(html: &Path) {
         String::from_utf8_lossy(&output.stderr)
     );
     let (w, h, colours, _) = png_facts(&shot, [0, 0, 0]);
-    eprintln!("report browser check: {browser} screenshot {w}×{h}, {colours} colours");
+    let variance = grey_variance(&shot);
+    eprintln!(
+        "report browser check: {browser} screenshot {w}×{h}, {colours} colours, grey-level variance {variance:.0}"
+    );
+    assert_eq!((w, h), (1200, 2000));
     assert!(colours > 50, "the page rendered blank ({colours} colours)");
+    assert!(
+        variance > 100.0,
+        "the page rendered blank (variance {variance})"
+    );
+    let dom = Command::new(browser)
+        .args(flags)
+        .arg(format!("--user-data-dir={}", profile.display()))
+        .arg("--dump-dom")
+        .arg(format!("file://{}", html.display()))
+        .output()
+        .expect("chromium runs");
+    let dom = String::from_utf8_lossy(&dom.stdout);
+    assert!(
+        dom.matches("<svg").count() >= 8,
+        "figures in the rendered page"
+    );
+    assert!(
+        dom.contains("class=\"held-out\""),
+        "held-out table rendered"
+    );
+    assert!(
+        dom.contains("predicted (kW/m²)"),
+        "held-out predicted column rendered"
+    );
+    assert!(
+        dom.contains(emberfit::export::report::CAUTION),
+        "caution rendered"
+    );
     let _ = std::fs::remove_dir_all(&profile);
+}
+
+/// Variance of the grey level (mean of R, G, B) over the pixels of a PNG.
+fn grey_variance(path: &Path) -> f64 {
+    let decoder = png::Decoder::new(std::fs::File::open(path).unwrap());
+    let mut reader = decoder.read_info().unwrap();
+    let mut buffer = vec![0; reader.output_buffer_size()];
+    let info = reader.next_frame(&mut buffer).unwrap();
+    let channels = info.color_type.samples();
+    let greys: Vec<f64> = buffer[..info.buffer_size()]
+        .chunks(channels)
+        .map(|p| (f64::from(p[0]) + f64::from(p[1]) + f64::from(p[2])) / 3.0)
+        .collect();
+    let mean = greys.iter().sum::<f64>() / greys.len() as f64;
+    greys.iter().map(|g| (g - mean).powi(2)).sum::<f64>() / greys.len() as f64
 }
 
 fn reference_data(test_name: &str) -> Option<PathBuf> {

@@ -168,7 +168,7 @@ fn assert_complete(run: &Path) -> RunSummary {
         assert!(run.join(file).is_file(), "{} has no {file}", run.display());
     }
     for signal in ["mlr", "hrr"] {
-        let curve = run.join(format!("cases/50-kw-m--{signal}.csv"));
+        let curve = run.join(format!("cases/50-kw-m2--{signal}.csv"));
         let text = std::fs::read_to_string(&curve).unwrap_or_default();
         assert!(
             text.starts_with("time_s,measured,sigma,model,residual") && text.lines().count() > 100,
@@ -220,15 +220,36 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
         &["[2 Parameters]", "component.virgin.conductivity_w_m_k", "●"],
         Duration::from_secs(10),
     );
+    // The live fit view (issue 17): the best model so far against the data, from the curves the
+    // fit writes at its checkpoints, while the fit is still running (its budget is endless).
     tmux.keys("fit", "3");
-    tmux.wait_for(
+    let screen = tmux.wait_for(
         "fit",
         &[
             "[3 Residuals]",
-            "share of the objective",
+            "[RUNNING]",
+            "live: best at iter.",
+            "share · part cost",
             "50 kW/m²",
-            "written when the fit ends",
+            "50 kW/m² · mass loss rate (g/(m²·s))",
+            "(model − measured)/σ",
+            "time (s)",
         ],
+        Duration::from_secs(60),
+    );
+    // The model is drawn (half blocks), not only the measured dots.
+    assert!(
+        screen.contains('▀') || screen.contains('▄') || screen.contains('█'),
+        "no model curve on the live view:\n{screen}"
+    );
+    assert!(
+        !run.join("summary.json").exists(),
+        "the fit had already ended"
+    );
+    tmux.keys("fit", "Down");
+    tmux.wait_for(
+        "fit",
+        &["50 kW/m² · heat release rate (kW/m²)", "[RUNNING]"],
         Duration::from_secs(10),
     );
     tmux.keys("fit", "Tab");
@@ -282,7 +303,7 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
     tmux.keys("watch", "p");
     tmux.wait_for(
         "watch",
-        &["read-only viewer: pause/stop the fit in its own terminal"],
+        &["read-only viewer: pause or stop the fit in its own terminal"],
         Duration::from_secs(10),
     );
     tmux.keys("watch", "4");
@@ -404,6 +425,32 @@ fn a_detached_fit_runs_in_its_own_session_and_q_in_a_foreground_fit_stops_it_cle
     assert!(screen.contains("stopped on request"), "{screen}");
     assert_complete(&runs.join("fg"));
     let _ = std::fs::remove_dir_all(&dir);
+}
+
+/// `watch` names the fit's pid from `run.lock` in the stop command and asks before it sends
+/// anything: the fixture live run's lock names pid 4242; `s` asks, any key but `y` cancels.
+#[test]
+fn watch_shows_the_stop_command_from_the_lock_and_asks_before_stopping() {
+    let Some(tmux) = Tmux::start("lock") else {
+        println!("skipped: tmux is not installed (the CI script installs it)");
+        return;
+    };
+    let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/live-run");
+    tmux.new_session("watch", &format!("exec {BIN} watch {}", fixture.display()));
+    tmux.wait_for(
+        "watch",
+        &["(read-only)", "stop it", "kill -INT 4242", "s stop fit"],
+        Duration::from_secs(20),
+    );
+    tmux.keys("watch", "s");
+    tmux.wait_for(
+        "watch",
+        &["stop the fit? y sends kill -INT 4242"],
+        Duration::from_secs(10),
+    );
+    tmux.keys("watch", "n");
+    tmux.wait_for("watch", &["not stopped"], Duration::from_secs(10));
+    tmux.keys("watch", "q");
 }
 
 #[test]
