@@ -24,6 +24,11 @@ impl Tmux {
             .output()
             .is_ok_and(|o| o.status.success());
         if !found {
+            // CI installs tmux (.ci/run): there a missing tmux is a failure, not a skip.
+            assert!(
+                std::env::var("CI").map_or(true, |v| v != "true"),
+                "tmux is not installed, and CI=true: the interface tests must run"
+            );
             return None;
         }
         Some(Tmux {
@@ -89,6 +94,18 @@ impl Tmux {
 impl Drop for Tmux {
     fn drop(&mut self) {
         self.run(&["kill-server"]);
+    }
+}
+
+/// Kills a fit that outlives its terminal when the test ends early (a failed assertion), so an
+/// endless fit is never left running.
+struct KillOnDrop(u32);
+
+impl Drop for KillOnDrop {
+    fn drop(&mut self) {
+        if is_alive(self.0) {
+            let _ = Command::new("kill").args(["-KILL", &self.0.to_string()]).status();
+        }
     }
 }
 
@@ -209,6 +226,8 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
             runs.display()
         ),
     );
+    let pid = tmux.pane_pid("fit");
+    let _reaper = KillOnDrop(pid);
     tmux.wait_for(
         "fit",
         &["[RUNNING]", "[1 Progress]", "evaluations/s", "q stop+exit"],
@@ -265,8 +284,6 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
         Duration::from_secs(10),
     );
     tmux.keys("fit", "Escape");
-    let pid = tmux.pane_pid("fit");
-
     // The terminal goes away (as when SSH drops): the fit must keep running and writing.
     tmux.run(&["kill-session", "-t", "fit"]);
     std::thread::sleep(Duration::from_secs(1));
