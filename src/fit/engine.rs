@@ -680,6 +680,7 @@ mod tests {
                 crate::case::load_scenario(&path).expect("demo scenario loads"),
             )),
             exposed_area_m2: 0.01,
+            specimen_area_m2: 0.01,
             signals: vec![SignalData {
                 kind: SignalKind::Mlr,
                 weight: 1.0,

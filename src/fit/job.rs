@@ -165,6 +165,14 @@ pub enum SignalKind {
     Mass,
     /// Time to ignition, s.
     IgnitionTime,
+    /// Peak heat release rate, kW/m² (one value per case: the repeats' mean).
+    PeakHrr,
+    /// Time of the peak heat release rate, s.
+    TimeToPeakHrr,
+    /// Total heat released over the record, MJ/m².
+    TotalHeatRelease,
+    /// Mean mass loss rate between 10 % and 90 % of the mass loss, g/(m²·s) (ISO 5660-1).
+    AverageMlr,
     /// Exposed-surface temperature, K.
     SurfaceTemperature,
     /// Temperature of the specimen's unexposed face (at the backing), K.
@@ -186,6 +194,10 @@ impl SignalKind {
             SignalKind::Hrr => "hrr",
             SignalKind::Mass => "mass",
             SignalKind::IgnitionTime => "ignition_time",
+            SignalKind::PeakHrr => "peak_hrr",
+            SignalKind::TimeToPeakHrr => "time_to_peak_hrr",
+            SignalKind::TotalHeatRelease => "total_heat_release",
+            SignalKind::AverageMlr => "average_mlr",
             SignalKind::SurfaceTemperature => "surface_temperature",
             SignalKind::BackTemperature => "back_temperature",
             SignalKind::InDepthTemperature => "in_depth_temperature",
@@ -197,8 +209,10 @@ impl SignalKind {
 
     pub fn unit(self) -> &'static str {
         match self {
-            SignalKind::Mlr => "g/(m²·s)",
-            SignalKind::Hrr => "kW/m²",
+            SignalKind::Mlr | SignalKind::AverageMlr => "g/(m²·s)",
+            SignalKind::Hrr | SignalKind::PeakHrr => "kW/m²",
+            SignalKind::TimeToPeakHrr => "s",
+            SignalKind::TotalHeatRelease => "MJ/m²",
             SignalKind::Mass => "g",
             SignalKind::IgnitionTime => "s",
             SignalKind::SurfaceTemperature
@@ -206,6 +220,30 @@ impl SignalKind {
             | SignalKind::InDepthTemperature => "K",
             SignalKind::MassFraction => "–",
             SignalKind::DscHeatFlow | SignalKind::MccHrr => "W/g",
+        }
+    }
+
+    /// A test-report quantity (one value per case, the repeats' mean) rather than a curve.
+    pub fn is_scalar(self) -> bool {
+        matches!(
+            self,
+            SignalKind::IgnitionTime
+                | SignalKind::PeakHrr
+                | SignalKind::TimeToPeakHrr
+                | SignalKind::TotalHeatRelease
+                | SignalKind::AverageMlr
+        )
+    }
+
+    /// This quantity in one test's report.
+    fn of_report(self, report: &crate::data::report::Report) -> Option<f64> {
+        match self {
+            SignalKind::IgnitionTime => report.ignition_time_s,
+            SignalKind::PeakHrr => report.peak_hrr_kw_m2,
+            SignalKind::TimeToPeakHrr => report.time_to_peak_hrr_s,
+            SignalKind::TotalHeatRelease => report.total_heat_release_mj_m2,
+            SignalKind::AverageMlr => report.avg_mlr_10_90_g_m2s,
+            _ => None,
         }
     }
 
@@ -287,14 +325,29 @@ impl SignalData {
 pub struct FitCase {
     pub name: String,
     pub setup: CaseSetup,
-    /// Exposed area of the cone specimen, m² (0 for a milligram case).
+    /// Exposed area of the cone specimen, m² (0 for a milligram case): what the measured
+    /// per-area curves are per.
     pub exposed_area_m2: f64,
+    /// Area of the specimen face that burns, m² (the test description's `specimen_area_m2`,
+    /// else the exposed area; 0 for a milligram case).
+    pub specimen_area_m2: f64,
     pub signals: Vec<SignalData>,
     /// The test descriptions and data files this case's data come from.
     pub test_files: Vec<PathBuf>,
 }
 
 impl FitCase {
+    /// Burning area over the area the data are per: the model's per-area rates (per m² of
+    /// specimen) times this are comparable with the data (1 unless the lab divided by an
+    /// edge frame's opening while the whole slab burnt).
+    pub fn area_ratio(&self) -> f64 {
+        if self.exposed_area_m2 > 0.0 && self.specimen_area_m2 > 0.0 {
+            self.specimen_area_m2 / self.exposed_area_m2
+        } else {
+            1.0
+        }
+    }
+
     /// The cone scenario, for a cone case.
     pub fn cone_scenario(&self) -> Option<&LoadedScenario> {
         match &self.setup {
@@ -883,6 +936,7 @@ fn build_case(
         None
     };
     let exposed_area_m2 = first.exposed_area_m2;
+    let specimen_area_m2 = first.specimen_area_m2;
     let mut signals = Vec::new();
     let mut latest_s: f64 = 0.0;
     for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
@@ -934,18 +988,19 @@ fn build_case(
         let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) = match raw_signal
             .kind()
         {
-            SignalKind::IgnitionTime => {
-                let times: Vec<f64> = reduced
+            kind if kind.is_scalar() => {
+                let values: Vec<f64> = reduced
                     .iter()
-                    .filter_map(|r| r.report.ignition_time_s)
+                    .filter_map(|r| kind.of_report(&r.report))
+                    .filter(|v| v.is_finite())
                     .collect();
-                if times.is_empty() {
-                    return Err(missing("ignition time"));
+                if values.is_empty() {
+                    return Err(missing(&kind.name().replace('_', " ")));
                 }
-                let mean = times.iter().sum::<f64>() / times.len() as f64;
-                let spread = (times.len() > 1).then(|| {
-                    let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
-                        / (times.len() - 1) as f64;
+                let mean = values.iter().sum::<f64>() / values.len() as f64;
+                let spread = (values.len() > 1).then(|| {
+                    let var = values.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
+                        / (values.len() - 1) as f64;
                     vec![var.sqrt()]
                 });
                 (vec![mean], vec![mean], spread)
@@ -969,7 +1024,7 @@ fn build_case(
         let mut kept_value = Vec::new();
         let mut kept_spread = Vec::new();
         for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
-            let in_window = raw_signal.kind() == SignalKind::IgnitionTime
+            let in_window = raw_signal.kind().is_scalar()
                 || (t >= window_start.max(0.0) && t <= window_end);
             if in_window && v.is_finite() {
                 kept_time.push(t);
@@ -1024,7 +1079,7 @@ fn build_case(
                 )
             }
             (None, false) => {
-                let scale = if raw_signal.kind() == SignalKind::IgnitionTime {
+                let scale = if raw_signal.kind().is_scalar() {
                     0.1 * peak
                 } else {
                     peak
@@ -1078,14 +1133,14 @@ fn build_case(
         name: raw.name.clone(),
         setup: CaseSetup::Cone(Box::new(case_scenario)),
         exposed_area_m2,
+        specimen_area_m2,
         signals,
         test_files,
     })
 }
 
 /// The curve of a cone signal in one reduced test (`depth_mm` picks an in-depth
-/// thermocouple); `None` when the test lacks it. The ignition time is not a curve: its entry
-/// here is the mass, never asked for.
+/// thermocouple); `None` when the test lacks it or the signal is a report quantity.
 fn test_curve(test: &Reduced, kind: SignalKind, depth_mm: Option<f64>) -> Option<&Vec<f64>> {
     match kind {
         SignalKind::Mlr => test.mlr_g_m2s.as_ref(),
@@ -1097,7 +1152,13 @@ fn test_curve(test: &Reduced, kind: SignalKind, depth_mm: Option<f64>) -> Option
             .iter()
             .find(|c| is_same_depth(c.depth_mm, depth_mm))
             .map(|c| &c.temperature_k),
-        SignalKind::Mass | SignalKind::IgnitionTime => test.mass_g.as_ref(),
+        SignalKind::Mass => test.mass_g.as_ref(),
+        // Report quantities are not curves (`SignalKind::is_scalar`).
+        SignalKind::IgnitionTime
+        | SignalKind::PeakHrr
+        | SignalKind::TimeToPeakHrr
+        | SignalKind::TotalHeatRelease
+        | SignalKind::AverageMlr => None,
         // Refused in cone cases before this (`milligram::check_cone_case`).
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
     }
@@ -1115,7 +1176,12 @@ fn repeat_curve(set: &RepeatSet, kind: SignalKind, depth_mm: Option<f64>) -> Opt
             .iter()
             .find(|(d, _)| is_same_depth(*d, depth_mm))
             .map(|(_, c)| c),
-        SignalKind::Mass | SignalKind::IgnitionTime => set.mass_g.as_ref(),
+        SignalKind::Mass => set.mass_g.as_ref(),
+        SignalKind::IgnitionTime
+        | SignalKind::PeakHrr
+        | SignalKind::TimeToPeakHrr
+        | SignalKind::TotalHeatRelease
+        | SignalKind::AverageMlr => None,
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
     }
 }

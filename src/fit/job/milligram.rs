@@ -296,6 +296,7 @@ pub(super) fn build_milligram_case(
         name: raw.name.clone(),
         setup: CaseSetup::Milligram(setup),
         exposed_area_m2: 0.0,
+        specimen_area_m2: 0.0,
         signals,
         test_files,
     })
