@@ -492,9 +492,14 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
             significant(part.cost, 5)
         ));
     }
+    let interval_heading = if summary.converged {
+        "95 % interval"
+    } else {
+        "95 % (provisional)"
+    };
     out.push_str(&format!(
         "  {:<40} {:>12} {:<10} {:<19} {}\n",
-        "parameter", "value", "", "95 % interval", "rank"
+        "parameter", "value", "", interval_heading, "rank"
     ));
     for p in &summary.parameters {
         let interval = match (p.lower_95, p.upper_95) {
@@ -515,12 +520,18 @@ fn fit_summary_table(summary: &emberfit::run::RunSummary) -> String {
             out.push_str(&format!("      warning: {warning}\n"));
         }
     }
+    if let Some(reason) = &summary.not_converged_reason {
+        out.push_str(&format!(
+            "  NOT CONVERGED ({reason}): the values and intervals are those of the best point so \
+             far; resume the run or give a larger budget before relying on them\n"
+        ));
+    }
     if let Some(problem) = &summary.identifiability_problem {
         out.push_str(&format!("  intervals not computed: {problem}\n"));
     } else {
         out.push_str("  rank: 1 = the parameter the data are most sensitive to\n");
     }
-    out.push_str("  Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.\n");
+    out.push_str(&format!("  {}\n", emberfit::export::report::CAUTION));
     out
 }
 

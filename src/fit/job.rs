@@ -280,6 +280,14 @@ struct SettingsFile {
     local_max_evaluations: Option<Spanned<i64>>,
     local_starts: Option<Spanned<i64>>,
     output_interval_s: Option<Spanned<f64>>,
+    curve_weighting: Option<CurveWeightingFile>,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum CurveWeightingFile {
+    IndependentPoints,
+    PerSample,
 }
 
 /// Measured data of one signal, on the data's own time base.
@@ -296,6 +304,13 @@ pub struct SignalData {
     pub sigma_source: &'static str,
     /// For an in-depth temperature: where the model reads it.
     pub probe: Option<SignalProbe>,
+    /// Effective number of independent residuals among `time_s.len()`: neighbouring samples
+    /// of a curve are correlated, so a curve from repeats counts as n·(1 − ρ)/(1 + ρ) points,
+    /// ρ the lag-one autocorrelation of the repeats' standardised deviations from their mean
+    /// (equal to the sample count for a single test, a scalar, or a stated `sigma`). `weight`
+    /// already includes the factor effective/total when `settings.curve_weighting` is
+    /// `"independent_points"`.
+    pub effective_points: f64,
 }
 
 /// The model side of an in-depth temperature signal.
@@ -406,6 +421,9 @@ pub struct Settings {
     /// Nelder–Mead runs from this many distinct good points of the final population.
     pub local_starts: usize,
     pub output_interval_s: f64,
+    /// Whether a curve from repeats weighs as its effective number of independent points
+    /// (`SignalData::effective_points`) rather than as every sample.
+    pub weigh_independent_points: bool,
 }
 
 /// A validated fit job.
@@ -480,14 +498,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
             return Err(milligram::cone_case_without_scenario(&source, idx, raw));
         };
         milligram::check_cone_case(&source, idx, raw)?;
-        cases.push(build_case(
-            &source,
-            idx,
-            raw,
-            base,
-            scenario,
-            settings.output_interval_s,
-        )?);
+        cases.push(build_case(&source, idx, raw, base, scenario, &settings)?);
     }
     Ok(FitJob {
         path: path.to_path_buf(),
@@ -864,6 +875,7 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
             Some(v) => source.positive(v, "settings.output_interval_s")?,
             None => 1.0,
         },
+        weigh_independent_points: !matches!(raw.curve_weighting, Some(CurveWeightingFile::PerSample)),
     })
 }
 
@@ -873,8 +885,9 @@ fn build_case(
     raw: &CaseFile,
     base: &Path,
     scenario: &LoadedScenario,
-    output_interval_s: f64,
+    settings: &Settings,
 ) -> Result<FitCase, CaseError> {
+    let output_interval_s = settings.output_interval_s;
     let key = |field: &str| format!("case[{idx}].{field}");
     if raw.tests.is_empty() {
         return Err(source.inconsistent(format!("case `{}` names no tests", raw.name)));
@@ -1112,6 +1125,25 @@ fn build_case(
             }
             None => None,
         };
+        let n_points = kept_time.len() as f64;
+        let effective_points = match (&repeats, sigma_source) {
+            (Some(set), "repeats") if !raw_signal.kind().is_scalar() => {
+                let lag_one = repeat_deviation_autocorrelation(
+                    &reduced,
+                    set,
+                    raw_signal.kind(),
+                    depth_mm,
+                    (&kept_time, &kept_value, &sigma),
+                );
+                n_points * effective_fraction(lag_one)
+            }
+            _ => n_points,
+        };
+        let weight = if settings.weigh_independent_points {
+            weight * effective_points / n_points
+        } else {
+            weight
+        };
         signals.push(SignalData {
             kind: raw_signal.kind(),
             weight,
@@ -1120,6 +1152,7 @@ fn build_case(
             sigma,
             sigma_source,
             probe,
+            effective_points,
         });
     }
     if signals.is_empty() {
@@ -1137,6 +1170,54 @@ fn build_case(
         signals,
         test_files,
     })
+}
+
+/// n_eff/n of an AR(1) series with lag-one autocorrelation ρ: (1 − ρ)/(1 + ρ) (the variance
+/// inflation of a mean of correlated samples; Bartlett 1946, common practice), kept in
+/// [1e-3, 1].
+pub fn effective_fraction(lag_one: f64) -> f64 {
+    if !lag_one.is_finite() || lag_one <= 0.0 {
+        return 1.0;
+    }
+    let rho = lag_one.min(0.999);
+    ((1.0 - rho) / (1.0 + rho)).clamp(1e-3, 1.0)
+}
+
+/// Lag-one autocorrelation of the repeats' deviations from their mean, each divided by the
+/// signal's σ, pooled over the repeats, at the signal's kept times (`curve` = times, mean,
+/// σ); NaN when there is nothing to pool.
+fn repeat_deviation_autocorrelation(
+    reduced: &[Reduced],
+    set: &RepeatSet,
+    kind: SignalKind,
+    depth_mm: Option<f64>,
+    curve: (&[f64], &[f64], &[f64]),
+) -> f64 {
+    let (times_s, mean, sigma) = curve;
+    let (mut lagged, mut square) = (0.0, 0.0);
+    for (test, shift_s) in reduced.iter().zip(&set.shifts_s) {
+        let Some(values) = test_curve(test, kind, depth_mm) else {
+            continue;
+        };
+        let deviation: Vec<f64> = times_s
+            .iter()
+            .zip(mean.iter().zip(sigma))
+            .map(|(&t, (&m, &s))| {
+                (crate::data::oxygen::interpolate(&test.time_s, values, t - shift_s) - m) / s
+            })
+            .collect();
+        for pair in deviation.windows(2) {
+            if pair[0].is_finite() && pair[1].is_finite() {
+                lagged += pair[0] * pair[1];
+                square += pair[0] * pair[0];
+            }
+        }
+    }
+    if square > 0.0 {
+        lagged / square
+    } else {
+        f64::NAN
+    }
 }
 
 /// The curve of a cone signal in one reduced test (`depth_mm` picks an in-depth

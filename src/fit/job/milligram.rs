@@ -338,6 +338,7 @@ fn signal_data(
     Ok(SignalData {
         kind,
         weight,
+        effective_points: time_s.len() as f64,
         time_s,
         value,
         sigma,
