@@ -2,6 +2,10 @@
 //! optimum (central differences in fit space, evaluated in parallel), the covariance
 //! s²·(JᵀJ)⁻¹ with s² = Σr²/(n − p) (the usual linearised least-squares estimate, e.g. Bates &
 //! Watts, Nonlinear Regression Analysis, 1988), 95 % intervals, correlations and warnings.
+//! Residuals of a curve are correlated in time (a smoothed derivative, a model-form misfit
+//! that lasts tens of seconds): each part (case × signal) counts as its effective number of
+//! independent residuals n·(1 − ρ)/(1 + ρ), ρ the lag-one autocorrelation of its residuals at
+//! the optimum, so s² and (JᵀJ)⁻¹ are those of n_eff independent residuals.
 
 use nalgebra::{DMatrix, DVector};
 use rayon::prelude::*;
@@ -73,7 +77,9 @@ pub struct Identifiability {
     /// Covariance in fit space, row-major.
     pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
-    /// s² = Σr²/(n − p).
+    /// Σ over parts of the effective number of independent residuals (≤ `n_residuals`).
+    pub effective_residuals: f64,
+    /// s² = Σ fₖ·r²/(n_eff − p), fₖ = n_eff/n of each residual's part.
     pub residual_variance: f64,
     /// Singular values of J, largest first (a tiny one means a direction the data cannot see).
     pub singular_values: Vec<f64>,
@@ -106,13 +112,18 @@ pub fn analyse<M: Model>(
 ) -> Result<Identifiability, IdentifiabilityError> {
     let parameters = objective.parameters();
     let p = parameters.len();
-    let base = objective
+    let raw_base = objective
         .residuals(values)
         .map_err(IdentifiabilityError::Model)?;
-    let n = base.len();
+    let n = raw_base.len();
     if n <= p {
         return Err(IdentifiabilityError::TooFewResiduals { n, p });
     }
+    let row_factor = part_factors(objective, &raw_base);
+    let effective_residuals: f64 = row_factor.iter().sum();
+    let root: Vec<f64> = row_factor.iter().map(|f| f.sqrt()).collect();
+    let scale_rows = |r: Vec<f64>| -> Vec<f64> { r.iter().zip(&root).map(|(r, f)| r * f).collect() };
+    let base = scale_rows(raw_base.clone());
     // Central differences with a step of 1e-3 of each parameter's range in fit space, kept
     // inside the bounds (one-sided at a bound).
     let columns: Vec<Result<Vec<f64>, String>> = (0..p)
@@ -125,12 +136,12 @@ pub fn analyse<M: Model>(
             let upper = parameter.to_fit_space(parameter.upper);
             let (a, b) = ((x - step).max(lower), (x + step).min(upper));
             let ra = if a < x {
-                objective.residuals(&with_fit_coordinate(parameters, values, j, a))?
+                scale_rows(objective.residuals(&with_fit_coordinate(parameters, values, j, a))?)
             } else {
                 base.clone()
             };
             let rb = if b > x {
-                objective.residuals(&with_fit_coordinate(parameters, values, j, b))?
+                scale_rows(objective.residuals(&with_fit_coordinate(parameters, values, j, b))?)
             } else {
                 base.clone()
             };
@@ -148,7 +159,8 @@ pub fn analyse<M: Model>(
             jacobian[(i, j)] = value;
         }
     }
-    let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / (n - p) as f64;
+    let degrees_of_freedom = (effective_residuals - p as f64).max(1.0);
+    let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / degrees_of_freedom;
     let svd = jacobian.clone().svd(true, true);
     let mut singular_values: Vec<f64> = svd.singular_values.iter().copied().collect();
     singular_values.sort_by(|a, b| b.total_cmp(a));
@@ -262,7 +274,33 @@ pub fn analyse<M: Model>(
             .map(|i| (0..p).map(|j| covariance[(i, j)]).collect())
             .collect(),
         n_residuals: n,
+        effective_residuals,
         residual_variance,
         singular_values,
     })
+}
+
+/// n_eff/n for every residual row: per part (case × signal, in the objective's order), from
+/// the lag-one autocorrelation of the part's residuals (`job::effective_fraction`); 1 for a
+/// part of one residual and for the prior rows.
+fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Vec<f64> {
+    let mut factors = Vec::with_capacity(residuals.len());
+    let mut at = 0;
+    for case in objective.cases {
+        for signal in &case.signals {
+            let n = signal.value.len().min(residuals.len().saturating_sub(at));
+            let part = &residuals[at..at + n];
+            let square: f64 = part.iter().map(|r| r * r).sum();
+            let lagged: f64 = part.windows(2).map(|w| w[0] * w[1]).sum();
+            let fraction = if n > 1 && square > 0.0 {
+                super::job::effective_fraction(lagged / square).max(1.0 / n as f64)
+            } else {
+                1.0
+            };
+            factors.extend(std::iter::repeat(fraction).take(n));
+            at += n;
+        }
+    }
+    factors.resize(residuals.len(), 1.0);
+    factors
 }

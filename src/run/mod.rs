@@ -156,6 +156,9 @@ pub struct RunSummary {
     #[serde(default)]
     pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
+    /// The effective number of independent residuals the intervals are based on.
+    #[serde(default)]
+    pub effective_residuals: f64,
     pub residual_variance: f64,
     pub singular_values: Vec<f64>,
     /// When the identifiability analysis could not be done, why.
@@ -711,6 +714,7 @@ fn finish(
             .as_ref()
             .map_or_else(Vec::new, |a| a.covariance.clone()),
         n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
+        effective_residuals: analysis.as_ref().map_or(0.0, |a| a.effective_residuals),
         residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
         singular_values: analysis
             .as_ref()
