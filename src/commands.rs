@@ -92,6 +92,10 @@ fn predict(args: PredictArgs) -> Result<()> {
                     "name": q.name, "unit": q.unit, "best": q.best,
                     "median": finite(q.median), "lower": finite(q.lower), "upper": finite(q.upper),
                     "mean": finite(q.mean), "standard_deviation": finite(q.standard_deviation),
+                    "prediction_lower": finite(q.prediction_lower),
+                    "prediction_upper": finite(q.prediction_upper),
+                    "relative_test_scatter": finite(q.relative_test_scatter),
+                    "relative_model_error": finite(q.relative_model_error),
                     "n_without": q.n_missing(),
                 })
             })
@@ -105,6 +109,7 @@ fn predict(args: PredictArgs) -> Result<()> {
                 "n_rejected": prediction.n_rejected,
                 "quantities": quantities,
                 "notes": prediction.notes,
+                "caution": emberfit::export::report::CAUTION,
             })
         );
         return Ok(());
@@ -119,9 +124,16 @@ fn predict(args: PredictArgs) -> Result<()> {
         ),
         None => println!("best fit only (give --band 95 for an uncertainty band)"),
     }
+    if prediction.band_percent.is_some() {
+        println!(
+            "  parameter band: the fitted parameters' uncertainty alone; prediction band (test \
+             scatter and model error): also the repeats' scatter and the model's error at the \
+             calibration conditions (docs/predictions.md)"
+        );
+    }
     println!(
-        "  {:<28}{:>12}{:>12}{:>24}",
-        "quantity", "best fit", "median", "band"
+        "  {:<28}{:>12}{:>12}{:>24}{:>26}",
+        "quantity", "best fit", "median", "parameter band", "prediction band"
     );
     for q in &prediction.quantities {
         let show = |v: f64| {
@@ -132,13 +144,18 @@ fn predict(args: PredictArgs) -> Result<()> {
             }
         };
         println!(
-            "  {:<28}{:>12}{:>12}{:>24}",
+            "  {:<28}{:>12}{:>12}{:>24}{:>26}",
             format!("{} ({})", q.name, q.unit),
             q.best
                 .map_or_else(|| "no ignition".into(), |v| format!("{v:.2}")),
             show(q.median),
             if q.lower.is_finite() {
                 format!("{} … {}", show(q.lower), show(q.upper))
+            } else {
+                "-".into()
+            },
+            if q.prediction_lower.is_finite() {
+                format!("{} … {}", show(q.prediction_lower), show(q.prediction_upper))
             } else {
                 "-".into()
             }
@@ -154,6 +171,7 @@ fn predict(args: PredictArgs) -> Result<()> {
             prediction.time_s.len()
         );
     }
+    println!("{}", emberfit::export::report::CAUTION);
     Ok(())
 }
 
