@@ -148,7 +148,10 @@ fn main() {
             let report = match run_fit(&dir.join("job.toml"), &options, no.clone(), no) {
                 Ok(r) => r,
                 Err(e) => {
-                    println!("| {} | {fit_flux} | {held_flux} | fit failed: {e} |", lab.name);
+                    println!(
+                        "| {} | {fit_flux} | {held_flux} | fit failed: {e} |",
+                        lab.name
+                    );
                     continue;
                 }
             };
@@ -190,7 +193,8 @@ fn main() {
                 let values = &measured[k];
                 let n = values.len() as f64;
                 let mean = values.iter().sum::<f64>() / n;
-                let sd = (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
+                let sd =
+                    (values.iter().map(|v| (v - mean).powi(2)).sum::<f64>() / (n - 1.0)).sqrt();
                 // The prediction is per m² of burning specimen; the data are per the frame
                 // opening, and the rim's energy counts in THR (docs/calibration-pmma.md).
                 let f = if k == 3 { ratio } else { 1.0 };

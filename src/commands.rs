@@ -155,7 +155,11 @@ fn predict(args: PredictArgs) -> Result<()> {
                 "-".into()
             },
             if q.prediction_lower.is_finite() {
-                format!("{} … {}", show(q.prediction_lower), show(q.prediction_upper))
+                format!(
+                    "{} … {}",
+                    show(q.prediction_lower),
+                    show(q.prediction_upper)
+                )
             } else {
                 "-".into()
             }

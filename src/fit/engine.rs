@@ -335,7 +335,14 @@ pub fn convergence(reason: &str) -> Result<(), String> {
         }
     };
     if reason.is_empty() || reason.contains(STOP_REQUESTED) {
-        Err(format!("not converged: {}", if reason.is_empty() { "ended early" } else { reason }))
+        Err(format!(
+            "not converged: {}",
+            if reason.is_empty() {
+                "ended early"
+            } else {
+                reason
+            }
+        ))
     } else if global_converged && local_converged {
         Ok(())
     } else {

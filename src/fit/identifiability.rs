@@ -122,7 +122,8 @@ pub fn analyse<M: Model>(
     let row_factor = part_factors(objective, &raw_base);
     let effective_residuals: f64 = row_factor.iter().sum();
     let root: Vec<f64> = row_factor.iter().map(|f| f.sqrt()).collect();
-    let scale_rows = |r: Vec<f64>| -> Vec<f64> { r.iter().zip(&root).map(|(r, f)| r * f).collect() };
+    let scale_rows =
+        |r: Vec<f64>| -> Vec<f64> { r.iter().zip(&root).map(|(r, f)| r * f).collect() };
     let base = scale_rows(raw_base.clone());
     // Central differences with a step of 1e-3 of each parameter's range in fit space, kept
     // inside the bounds (one-sided at a bound).
@@ -297,7 +298,7 @@ fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Ve
             } else {
                 1.0
             };
-            factors.extend(std::iter::repeat(fraction).take(n));
+            factors.extend(std::iter::repeat_n(fraction, n));
             at += n;
         }
     }

@@ -875,7 +875,10 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
             Some(v) => source.positive(v, "settings.output_interval_s")?,
             None => 1.0,
         },
-        weigh_independent_points: !matches!(raw.curve_weighting, Some(CurveWeightingFile::PerSample)),
+        weigh_independent_points: !matches!(
+            raw.curve_weighting,
+            Some(CurveWeightingFile::PerSample)
+        ),
     })
 }
 
@@ -1037,8 +1040,8 @@ fn build_case(
         let mut kept_value = Vec::new();
         let mut kept_spread = Vec::new();
         for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
-            let in_window = raw_signal.kind().is_scalar()
-                || (t >= window_start.max(0.0) && t <= window_end);
+            let in_window =
+                raw_signal.kind().is_scalar() || (t >= window_start.max(0.0) && t <= window_end);
             if in_window && v.is_finite() {
                 kept_time.push(t);
                 kept_value.push(v);

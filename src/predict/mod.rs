@@ -336,7 +336,10 @@ fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
             };
             // time_s,measured,sigma,model,residual
             for line in text.lines().skip(1) {
-                let v: Vec<f64> = line.split(',').filter_map(|x| x.trim().parse().ok()).collect();
+                let v: Vec<f64> = line
+                    .split(',')
+                    .filter_map(|x| x.trim().parse().ok())
+                    .collect();
                 if v.len() >= 4 && v[1].abs() > 0.0 && v.iter().all(|x| x.is_finite()) {
                     scatter += (v[2] / v[1]).powi(2);
                     error += ((v[3] - v[1]) / v[1]).powi(2);
@@ -362,8 +365,8 @@ fn prediction_band(
 ) -> QuantityDistribution {
     if let (Some(best), Some((scatter, error))) = (q.best, errors) {
         if scatter.is_finite() && error.is_finite() {
-            let sd = (parameter_sd.powi(2) + (best * scatter).powi(2) + (best * error).powi(2))
-                .sqrt();
+            let sd =
+                (parameter_sd.powi(2) + (best * scatter).powi(2) + (best * error).powi(2)).sqrt();
             q.prediction_lower = best - z * sd;
             q.prediction_upper = best + z * sd;
             q.relative_test_scatter = scatter;
@@ -414,7 +417,11 @@ pub fn condition_notes(
         };
         let thickness = |s: &Scenario| s.layers.first().map(|l| l.thickness_m * 1e3);
         for (what, unit, pick) in [
-            ("irradiance", "kW/m²", &irradiance as &dyn Fn(&Scenario) -> Option<f64>),
+            (
+                "irradiance",
+                "kW/m²",
+                &irradiance as &dyn Fn(&Scenario) -> Option<f64>,
+            ),
             ("thickness of the exposed layer", "mm", &thickness),
         ] {
             if let (Some((low, high)), Some(value)) = (range(pick), pick(scenario)) {
@@ -428,7 +435,9 @@ pub fn condition_notes(
                 if let Some(by) = outside {
                     let edge = if value < low { low } else { high };
                     notes.push(format!(
-                        "the {what} {value:.3} {unit} lies outside the calibrated range                          {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest                          calibrated value): an extrapolation the calibration did not test",
+                        "the {what} {value:.3} {unit} lies outside the calibrated range \
+                         {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest \
+                         calibrated value): an extrapolation the calibration did not test",
                         100.0 * by / edge.abs().max(1e-12)
                     ));
                 }
@@ -448,7 +457,9 @@ pub fn condition_notes(
             };
             if best.summary.flameout_time_s.is_none() && left > 0.01 {
                 notes.push(format!(
-                    "the run ended at {end_s:.0} s while still flaming, with {:.0} % of the                      specimen mass left: peak HRR, time to peak and total heat release are those                      of the first {end_s:.0} s only (give a longer --duration)",
+                    "the run ended at {end_s:.0} s while still flaming, with {:.0} % of the \
+                         specimen mass left: peak HRR, time to peak and total heat release are those \
+                         of the first {end_s:.0} s only (give a longer --duration)",
                     100.0 * left
                 ));
             }
@@ -838,7 +849,9 @@ pub fn predict(
     let z = crate::predict::sampling::normal_quantile(1.0 - tail);
     if errors.is_none() {
         notes.push(
-            "no report-quantity signals (ignition_time, peak_hrr, time_to_peak_hrr,              total_heat_release) in the calibration run's cases/: the band is the parameter band              only, without test scatter or model error"
+            "no report-quantity signals (ignition_time, peak_hrr, time_to_peak_hrr, \
+                         total_heat_release) in the calibration run's cases/: the band is the parameter band \
+                         only, without test scatter or model error"
                 .into(),
         );
     }
@@ -857,7 +870,12 @@ pub fn predict(
                 upper: quantile(&present, 1.0 - tail),
                 mean,
                 standard_deviation: variance.sqrt(),
-                ..prediction_band(empty_distribution(k), variance.sqrt(), errors.map(|e| e[k]), z)
+                ..prediction_band(
+                    empty_distribution(k),
+                    variance.sqrt(),
+                    errors.map(|e| e[k]),
+                    z,
+                )
             }
         })
         .collect();

@@ -639,10 +639,9 @@ fn finish(
         Err(e) => (None, Some(e.to_string())),
     };
     let mut provenance = provenance.clone();
-    provenance.not_converged = crate::fit::engine::convergence(
-        outcome.state.stop_reason.as_deref().unwrap_or("finished"),
-    )
-    .err();
+    provenance.not_converged =
+        crate::fit::engine::convergence(outcome.state.stop_reason.as_deref().unwrap_or("finished"))
+            .err();
     let provenance = &provenance;
     write_best_model(
         dir,

@@ -9,5 +9,6 @@ mod pmma_fit;
 mod predict;
 mod properties;
 mod tui;
+mod twins;
 mod util;
 mod verification;

@@ -125,11 +125,8 @@ fn write_description(dir: &Path, data: &Path, lab: &Lab, entry: &Entry) -> PathB
 /// Fits one lab on both irradiances and simulates the calibrated model at each.
 fn calibrate(folder: &Path, lab: &Lab) -> Calibrated {
     let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
-    let dir = std::env::temp_dir().join(format!(
-        "emberfit-pmma-{}-{}",
-        lab.name,
-        std::process::id()
-    ));
+    let dir =
+        std::env::temp_dir().join(format!("emberfit-pmma-{}-{}", lab.name, std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
     let descriptions: Vec<(f64, PathBuf)> = lab
@@ -278,7 +275,11 @@ fn check_lab(test_name: &str, lab_index: usize, known_misses: &[(f64, &str, f64)
     for (flux, measured, modelled) in &fit.rows {
         let checks = [
             ("peak_hrr", measured.peak_hrr_kw_m2, modelled.peak_hrr_kw_m2),
-            ("time_to_peak", measured.time_to_peak_s, modelled.time_to_peak_s),
+            (
+                "time_to_peak",
+                measured.time_to_peak_s,
+                modelled.time_to_peak_s,
+            ),
             ("ignition", measured.ignition_s, modelled.ignition_s),
             ("thr", measured.thr_mj_m2, modelled.thr_mj_m2),
         ];
@@ -299,7 +300,9 @@ fn check_lab(test_name: &str, lab_index: usize, known_misses: &[(f64, &str, f64)
                 model.mean, data.mean, data.sd
             );
             if error.abs() > tolerance {
-                failures.push(format!("{flux} kW/m² {name}: error {error:+.1}, allowed ±{tolerance:.1}"));
+                failures.push(format!(
+                    "{flux} kW/m² {name}: error {error:+.1}, allowed ±{tolerance:.1}"
+                ));
             }
         }
     }
@@ -324,7 +327,10 @@ fn pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests() {
     check_lab(
         "pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests",
         0,
-        &[(65.0, "time_to_peak", 30.0), (65.0, "peak_hrr", 0.05 * 1442.0)],
+        &[
+            (65.0, "time_to_peak", 30.0),
+            (65.0, "peak_hrr", 0.05 * 1442.0),
+        ],
     );
 }
 
