@@ -4,8 +4,8 @@
 //! Watts, Nonlinear Regression Analysis, 1988), 95 % intervals, correlations and warnings.
 //! Residuals of a curve are correlated in time (a smoothed derivative, a model-form misfit
 //! that lasts tens of seconds): each part (case × signal) counts as its effective number of
-//! independent residuals n·(1 − ρ)/(1 + ρ), ρ the lag-one autocorrelation of its residuals at
-//! the optimum, so s² and (JᵀJ)⁻¹ are those of n_eff independent residuals.
+//! independent residuals n/τ, τ the integrated autocorrelation time of its residuals at the
+//! optimum, so s² and (JᵀJ)⁻¹ are those of n_eff independent residuals.
 
 use nalgebra::{DMatrix, DVector};
 use rayon::prelude::*;
@@ -281,9 +281,36 @@ pub fn analyse<M: Model>(
     })
 }
 
+/// The integrated autocorrelation time τ = 1 + 2·Σₖ ρₖ of a residual series (ρₖ its
+/// autocorrelation at lag k about zero), summed while ρₖ stays positive (the initial positive
+/// sequence, after Geyer, Statistical Science 7 (1992) 473; common practice): n/τ independent
+/// residuals. Unlike the AR(1) formula it also sees correlation that lasts a smoothing window
+/// and then stops. At least 1.
+fn integrated_autocorrelation_time(residuals: &[f64]) -> f64 {
+    let n = residuals.len();
+    let square: f64 = residuals.iter().map(|r| r * r).sum();
+    if n < 3 || square <= 0.0 {
+        return 1.0;
+    }
+    let mut tau = 1.0;
+    for lag in 1..n / 2 {
+        let rho = residuals[..n - lag]
+            .iter()
+            .zip(&residuals[lag..])
+            .map(|(a, b)| a * b)
+            .sum::<f64>()
+            / square;
+        if rho <= 0.0 {
+            break;
+        }
+        tau += 2.0 * rho;
+    }
+    tau
+}
+
 /// n_eff/n for every residual row: per part (case × signal, in the objective's order), from
-/// the lag-one autocorrelation of the part's residuals (`job::effective_fraction`); 1 for a
-/// part of one residual and for the prior rows.
+/// the integrated autocorrelation time of the part's residuals; 1 for a part of one residual
+/// and for the prior rows.
 fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Vec<f64> {
     let mut factors = Vec::with_capacity(residuals.len());
     let mut at = 0;
@@ -291,10 +318,8 @@ fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Ve
         for signal in &case.signals {
             let n = signal.value.len().min(residuals.len().saturating_sub(at));
             let part = &residuals[at..at + n];
-            let square: f64 = part.iter().map(|r| r * r).sum();
-            let lagged: f64 = part.windows(2).map(|w| w[0] * w[1]).sum();
-            let fraction = if n > 1 && square > 0.0 {
-                super::job::effective_fraction(lagged / square).max(1.0 / n as f64)
+            let fraction = if n > 1 {
+                (1.0 / integrated_autocorrelation_time(part)).clamp(1.0 / n as f64, 1.0)
             } else {
                 1.0
             };
