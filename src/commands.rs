@@ -96,6 +96,10 @@ fn predict(args: PredictArgs) -> Result<()> {
                     "name": q.name, "unit": q.unit, "best": q.best,
                     "median": finite(q.median), "lower": finite(q.lower), "upper": finite(q.upper),
                     "mean": finite(q.mean), "standard_deviation": finite(q.standard_deviation),
+                    "prediction_lower": finite(q.prediction_lower),
+                    "prediction_upper": finite(q.prediction_upper),
+                    "relative_test_scatter": finite(q.relative_test_scatter),
+                    "relative_model_error": finite(q.relative_model_error),
                     "n_without": q.n_missing(),
                 })
             })
@@ -109,6 +113,7 @@ fn predict(args: PredictArgs) -> Result<()> {
                 "n_rejected": prediction.n_rejected,
                 "quantities": quantities,
                 "notes": prediction.notes,
+                "caution": emberfit::export::report::CAUTION,
             })
         );
         return Ok(());
@@ -123,9 +128,16 @@ fn predict(args: PredictArgs) -> Result<()> {
         ),
         None => println!("best fit only (give --band 95 for an uncertainty band)"),
     }
+    if prediction.band_percent.is_some() {
+        println!(
+            "  parameter band: the fitted parameters' uncertainty alone; prediction band (test \
+             scatter and model error): also the repeats' scatter and the model's error at the \
+             calibration conditions (docs/predictions.md)"
+        );
+    }
     println!(
-        "  {:<28}{:>12}{:>12}{:>24}",
-        "quantity", "best fit", "median", "band"
+        "  {:<28}{:>12}{:>12}{:>24}{:>26}",
+        "quantity", "best fit", "median", "parameter band", "prediction band"
     );
     for q in &prediction.quantities {
         let show = |v: f64| {
@@ -136,13 +148,22 @@ fn predict(args: PredictArgs) -> Result<()> {
             }
         };
         println!(
-            "  {:<28}{:>12}{:>12}{:>24}",
+            "  {:<28}{:>12}{:>12}{:>24}{:>26}",
             format!("{} ({})", q.name, q.unit),
             q.best
                 .map_or_else(|| "no ignition".into(), |v| format!("{v:.2}")),
             show(q.median),
             if q.lower.is_finite() {
                 format!("{} … {}", show(q.lower), show(q.upper))
+            } else {
+                "-".into()
+            },
+            if q.prediction_lower.is_finite() {
+                format!(
+                    "{} … {}",
+                    show(q.prediction_lower),
+                    show(q.prediction_upper)
+                )
             } else {
                 "-".into()
             }
@@ -158,6 +179,7 @@ fn predict(args: PredictArgs) -> Result<()> {
             prediction.time_s.len()
         );
     }
+    println!("{}", emberfit::export::report::CAUTION);
     Ok(())
 }
 
@@ -611,6 +633,11 @@ fn fit_summary_table(
             significant(part.cost, 5)
         ));
     }
+    let interval_heading = if summary.converged {
+        "95 % interval"
+    } else {
+        "95 % (provisional)"
+    };
     let label = |i: usize, name: &str| {
         labels
             .get(i)
@@ -626,7 +653,7 @@ fn fit_summary_table(
         .clamp(9, 22);
     out.push_str(&format!(
         "  {:<label_width$} {:>10} {:<9} {:<22} {}\n",
-        "parameter", "value", "unit", "95 % interval", "rank"
+        "parameter", "value", "unit", interval_heading, "rank"
     ));
     for (i, p) in summary.parameters.iter().enumerate() {
         let interval = match (p.lower_95, p.upper_95) {
@@ -649,6 +676,12 @@ fn fit_summary_table(
             }
         }
     }
+    if let Some(reason) = &summary.not_converged_reason {
+        out.push_str(&format!(
+            "  NOT CONVERGED ({reason}): the values and intervals are those of the best point so \
+             far; resume the run or give a larger budget before relying on them\n"
+        ));
+    }
     if let Some(problem) = &summary.identifiability_problem {
         for line in wrapped(&format!("intervals not computed: {problem}"), WIDTH - 2) {
             out.push_str(&format!("  {line}\n"));
@@ -667,10 +700,7 @@ fn fit_summary_table(
             }
         }
     }
-    for line in wrapped(
-        "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.",
-        WIDTH - 2,
-    ) {
+    for line in wrapped(emberfit::export::report::CAUTION, WIDTH - 2) {
         out.push_str(&format!("  {line}\n"));
     }
     out

@@ -41,6 +41,12 @@ pub struct CalibrationFile {
     pub emberfit_version: String,
     pub date: String,
     pub objective: f64,
+    /// False when the fit ended before converging (a budget, its time, a stop request, or
+    /// still running): the values and intervals are provisional. Absent in older files.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub converged: Option<bool>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub not_converged_reason: Option<String>,
     /// SHA-256 of every file the fit read, by path.
     #[serde(default)]
     pub data_sha256: std::collections::BTreeMap<String, String>,

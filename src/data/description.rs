@@ -198,6 +198,10 @@ pub struct TestDescription {
     pub irradiance_kw_m2: f64,
     /// Exposed specimen area that per-area values refer to, m².
     pub exposed_area_m2: f64,
+    /// Area of the specimen face that burns, m², when it differs from `exposed_area_m2` (a
+    /// whole 100 mm slab under an edge frame whose opening the lab divided by); `None` means
+    /// the same as `exposed_area_m2`.
+    pub specimen_area_m2: Option<f64>,
     /// Specimen mass before the test, g; `None` means the mass column's start.
     pub initial_mass_g: Option<f64>,
     /// Specimen thickness, mm.
@@ -236,6 +240,7 @@ struct RawDescription {
     label: Option<String>,
     irradiance_kw_m2: Spanned<f64>,
     exposed_area_m2: Spanned<f64>,
+    specimen_area_m2: Option<Spanned<f64>>,
     initial_mass_g: Option<Spanned<f64>>,
     thickness_mm: Option<Spanned<f64>>,
     #[serde(default)]
@@ -472,6 +477,20 @@ impl TestDescription {
                 format!("must be in m2 (a cone specimen is about 0.01), got {exposed_area_m2}"),
             ));
         }
+        let specimen_area_m2 = match &raw.specimen_area_m2 {
+            Some(value) => {
+                let area = check.positive(value, "specimen_area_m2")?;
+                if area > 1.0 {
+                    return Err(check.invalid(
+                        value,
+                        "specimen_area_m2",
+                        format!("must be in m2 (a cone specimen is about 0.01), got {area}"),
+                    ));
+                }
+                Some(area)
+            }
+            None => None,
+        };
         let initial_mass_g = raw
             .initial_mass_g
             .as_ref()
@@ -768,6 +787,7 @@ impl TestDescription {
             label: raw.label,
             irradiance_kw_m2,
             exposed_area_m2,
+            specimen_area_m2,
             initial_mass_g,
             thickness_mm,
             layers,
@@ -801,6 +821,7 @@ impl TestDescription {
             label: None,
             irradiance_kw_m2,
             exposed_area_m2,
+            specimen_area_m2: None,
             initial_mass_g: None,
             thickness_mm: None,
             layers: Vec::new(),

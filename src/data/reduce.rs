@@ -28,8 +28,11 @@ pub struct Reduced {
     pub source: PathBuf,
     /// Set irradiance, kW/m².
     pub irradiance_kw_m2: f64,
-    /// Exposed area, m².
+    /// Exposed area, m² (what the per-area curves are per).
     pub exposed_area_m2: f64,
+    /// Area of the specimen face that burns, m² (`exposed_area_m2` unless the description
+    /// says otherwise).
+    pub specimen_area_m2: f64,
     /// Time from exposure start, s.
     pub time_s: Vec<f64>,
     /// Heat release rate per exposed area, kW/m² (lab's column or oxygen consumption).
@@ -749,6 +752,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         source: test.source.clone(),
         irradiance_kw_m2: test.irradiance_kw_m2,
         exposed_area_m2: area_m2,
+        specimen_area_m2: test.specimen_area_m2.unwrap_or(area_m2),
         time_s,
         hrr_kw_m2,
         mass_g,

@@ -16,6 +16,8 @@ pub struct Provenance {
     pub date: String,
     pub objective: f64,
     pub data_sha256: Vec<(String, String)>,
+    /// `None` when the fit converged; otherwise why not (still running, a budget, a stop).
+    pub not_converged: Option<String>,
 }
 
 /// One fitted value with its interval, for `[[calibration.parameter]]`.
@@ -259,6 +261,10 @@ pub fn calibrated_material_toml(
     );
     calibration.insert("date", value(provenance.date.as_str()));
     calibration.insert("objective", value(provenance.objective));
+    calibration.insert("converged", value(provenance.not_converged.is_none()));
+    if let Some(reason) = &provenance.not_converged {
+        calibration.insert("not_converged_reason", value(reason.as_str()));
+    }
     let mut hashes = Table::new();
     for (path, hash) in &provenance.data_sha256 {
         hashes.insert(path, value(hash.as_str()));

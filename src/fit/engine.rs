@@ -329,6 +329,37 @@ pub fn optimise_on<M: Model, E: Evaluator>(
 /// The reason given when the observer asked the run to stop.
 pub const STOP_REQUESTED: &str = "stopped on request";
 
+/// Whether a run that ended for `reason` (the engine's `stop_reason`) converged: the global
+/// search stopped on stagnation or on the target objective, and the local refinement (when
+/// there was one) converged at least once. `Err` gives the reason it did not converge (a
+/// budget, the time, a stop request).
+pub fn convergence(reason: &str) -> Result<(), String> {
+    let global = reason.split("; ").next().unwrap_or("");
+    let global_converged =
+        global.starts_with("no improvement in") || global.starts_with("reached the target");
+    let local_converged = match reason.find("local refinement") {
+        None => true,
+        Some(at) => {
+            let local = &reason[at..];
+            local.ends_with("converged") && !local.contains("(0 converged)")
+        }
+    };
+    if reason.is_empty() || reason.contains(STOP_REQUESTED) {
+        Err(format!(
+            "not converged: {}",
+            if reason.is_empty() {
+                "ended early"
+            } else {
+                reason
+            }
+        ))
+    } else if global_converged && local_converged {
+        Ok(())
+    } else {
+        Err(format!("not converged: {reason}"))
+    }
+}
+
 fn stop_reason(
     state: &EngineState,
     settings: &EngineSettings,
@@ -695,6 +726,7 @@ mod tests {
                 crate::case::load_scenario(&path).expect("demo scenario loads"),
             )),
             exposed_area_m2: 0.01,
+            specimen_area_m2: 0.01,
             signals: vec![SignalData {
                 kind: SignalKind::Mlr,
                 weight: 1.0,
@@ -703,6 +735,7 @@ mod tests {
                 sigma: vec![1.0; 50],
                 sigma_source: "sigma",
                 probe: None,
+                effective_points: 50.0,
             }],
             test_files: vec![],
         }

@@ -2,6 +2,10 @@
 //! optimum (central differences in fit space, evaluated in parallel), the covariance
 //! s²·(JᵀJ)⁻¹ with s² = Σr²/(n − p) (the usual linearised least-squares estimate, e.g. Bates &
 //! Watts, Nonlinear Regression Analysis, 1988), 95 % intervals, correlations and warnings.
+//! Residuals of a curve are correlated in time (a smoothed derivative, a model-form misfit
+//! that lasts tens of seconds): each part (case × signal) counts as its effective number of
+//! independent residuals n/τ, τ the integrated autocorrelation time of its residuals at the
+//! optimum, so s² and (JᵀJ)⁻¹ are those of n_eff independent residuals.
 
 use nalgebra::{DMatrix, DVector};
 
@@ -73,7 +77,9 @@ pub struct Identifiability {
     /// Covariance in fit space, row-major.
     pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
-    /// s² = Σr²/(n − p).
+    /// Σ over parts of the effective number of independent residuals (≤ `n_residuals`).
+    pub effective_residuals: f64,
+    /// s² = Σ fₖ·r²/(n_eff − p), fₖ = n_eff/n of each residual's part.
     pub residual_variance: f64,
     /// Singular values of J, largest first (a tiny one means a direction the data cannot see).
     pub singular_values: Vec<f64>,
@@ -115,13 +121,19 @@ pub fn analyse_on<M: Model, E: Evaluator>(
 ) -> Result<Identifiability, IdentifiabilityError> {
     let parameters = objective.parameters();
     let p = parameters.len();
-    let base = objective
+    let raw_base = objective
         .residuals(values)
         .map_err(IdentifiabilityError::Model)?;
-    let n = base.len();
+    let n = raw_base.len();
     if n <= p {
         return Err(IdentifiabilityError::TooFewResiduals { n, p });
     }
+    let row_factor = part_factors(objective, &raw_base);
+    let effective_residuals: f64 = row_factor.iter().sum();
+    let root: Vec<f64> = row_factor.iter().map(|f| f.sqrt()).collect();
+    let scale_rows =
+        |r: Vec<f64>| -> Vec<f64> { r.iter().zip(&root).map(|(r, f)| r * f).collect() };
+    let base = scale_rows(raw_base.clone());
     // Central differences with a step of 1e-3 of each parameter's range in fit space, kept
     // inside the bounds (one-sided at a bound). All shifted points go out as one batch.
     let stencils: Vec<(f64, f64, f64)> = parameters
@@ -153,6 +165,7 @@ pub fn analyse_on<M: Model, E: Evaluator>(
             results
                 .next()
                 .unwrap_or_else(|| Err("the evaluator returned too few results".into()))
+                .map(scale_rows)
         } else {
             Ok(base.clone())
         }
@@ -177,7 +190,8 @@ pub fn analyse_on<M: Model, E: Evaluator>(
             jacobian[(i, j)] = value;
         }
     }
-    let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / (n - p) as f64;
+    let degrees_of_freedom = (effective_residuals - p as f64).max(1.0);
+    let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / degrees_of_freedom;
     let svd = jacobian.clone().svd(true, true);
     let mut singular_values: Vec<f64> = svd.singular_values.iter().copied().collect();
     singular_values.sort_by(|a, b| b.total_cmp(a));
@@ -291,7 +305,58 @@ pub fn analyse_on<M: Model, E: Evaluator>(
             .map(|i| (0..p).map(|j| covariance[(i, j)]).collect())
             .collect(),
         n_residuals: n,
+        effective_residuals,
         residual_variance,
         singular_values,
     })
+}
+
+/// The integrated autocorrelation time τ = 1 + 2·Σₖ ρₖ of a residual series (ρₖ its
+/// autocorrelation at lag k about zero), summed while ρₖ stays positive (the initial positive
+/// sequence, after Geyer, Statistical Science 7 (1992) 473; common practice): n/τ independent
+/// residuals. Unlike the AR(1) formula it also sees correlation that lasts a smoothing window
+/// and then stops. At least 1.
+fn integrated_autocorrelation_time(residuals: &[f64]) -> f64 {
+    let n = residuals.len();
+    let square: f64 = residuals.iter().map(|r| r * r).sum();
+    if n < 3 || square <= 0.0 {
+        return 1.0;
+    }
+    let mut tau = 1.0;
+    for lag in 1..n / 2 {
+        let rho = residuals[..n - lag]
+            .iter()
+            .zip(&residuals[lag..])
+            .map(|(a, b)| a * b)
+            .sum::<f64>()
+            / square;
+        if rho <= 0.0 {
+            break;
+        }
+        tau += 2.0 * rho;
+    }
+    tau
+}
+
+/// n_eff/n for every residual row: per part (case × signal, in the objective's order), from
+/// the integrated autocorrelation time of the part's residuals; 1 for a part of one residual
+/// and for the prior rows.
+fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Vec<f64> {
+    let mut factors = Vec::with_capacity(residuals.len());
+    let mut at = 0;
+    for case in objective.cases {
+        for signal in &case.signals {
+            let n = signal.value.len().min(residuals.len().saturating_sub(at));
+            let part = &residuals[at..at + n];
+            let fraction = if n > 1 {
+                (1.0 / integrated_autocorrelation_time(part)).clamp(1.0 / n as f64, 1.0)
+            } else {
+                1.0
+            };
+            factors.extend(std::iter::repeat_n(fraction, n));
+            at += n;
+        }
+    }
+    factors.resize(residuals.len(), 1.0);
+    factors
 }

@@ -165,6 +165,14 @@ pub enum SignalKind {
     Mass,
     /// Time to ignition, s.
     IgnitionTime,
+    /// Peak heat release rate, kW/m² (one value per case: the repeats' mean).
+    PeakHrr,
+    /// Time of the peak heat release rate, s.
+    TimeToPeakHrr,
+    /// Total heat released over the record, MJ/m².
+    TotalHeatRelease,
+    /// Mean mass loss rate between 10 % and 90 % of the mass loss, g/(m²·s) (ISO 5660-1).
+    AverageMlr,
     /// Exposed-surface temperature, K.
     SurfaceTemperature,
     /// Temperature of the specimen's unexposed face (at the backing), K.
@@ -186,6 +194,10 @@ impl SignalKind {
             SignalKind::Hrr => "hrr",
             SignalKind::Mass => "mass",
             SignalKind::IgnitionTime => "ignition_time",
+            SignalKind::PeakHrr => "peak_hrr",
+            SignalKind::TimeToPeakHrr => "time_to_peak_hrr",
+            SignalKind::TotalHeatRelease => "total_heat_release",
+            SignalKind::AverageMlr => "average_mlr",
             SignalKind::SurfaceTemperature => "surface_temperature",
             SignalKind::BackTemperature => "back_temperature",
             SignalKind::InDepthTemperature => "in_depth_temperature",
@@ -197,8 +209,10 @@ impl SignalKind {
 
     pub fn unit(self) -> &'static str {
         match self {
-            SignalKind::Mlr => "g/(m²·s)",
-            SignalKind::Hrr => "kW/m²",
+            SignalKind::Mlr | SignalKind::AverageMlr => "g/(m²·s)",
+            SignalKind::Hrr | SignalKind::PeakHrr => "kW/m²",
+            SignalKind::TimeToPeakHrr => "s",
+            SignalKind::TotalHeatRelease => "MJ/m²",
             SignalKind::Mass => "g",
             SignalKind::IgnitionTime => "s",
             SignalKind::SurfaceTemperature
@@ -206,6 +220,30 @@ impl SignalKind {
             | SignalKind::InDepthTemperature => "K",
             SignalKind::MassFraction => "–",
             SignalKind::DscHeatFlow | SignalKind::MccHrr => "W/g",
+        }
+    }
+
+    /// A test-report quantity (one value per case, the repeats' mean) rather than a curve.
+    pub fn is_scalar(self) -> bool {
+        matches!(
+            self,
+            SignalKind::IgnitionTime
+                | SignalKind::PeakHrr
+                | SignalKind::TimeToPeakHrr
+                | SignalKind::TotalHeatRelease
+                | SignalKind::AverageMlr
+        )
+    }
+
+    /// This quantity in one test's report.
+    fn of_report(self, report: &crate::data::report::Report) -> Option<f64> {
+        match self {
+            SignalKind::IgnitionTime => report.ignition_time_s,
+            SignalKind::PeakHrr => report.peak_hrr_kw_m2,
+            SignalKind::TimeToPeakHrr => report.time_to_peak_hrr_s,
+            SignalKind::TotalHeatRelease => report.total_heat_release_mj_m2,
+            SignalKind::AverageMlr => report.avg_mlr_10_90_g_m2s,
+            _ => None,
         }
     }
 
@@ -242,6 +280,14 @@ struct SettingsFile {
     local_max_evaluations: Option<Spanned<i64>>,
     local_starts: Option<Spanned<i64>>,
     output_interval_s: Option<Spanned<f64>>,
+    curve_weighting: Option<CurveWeightingFile>,
+}
+
+#[derive(Debug, Clone, Copy, Deserialize)]
+#[serde(rename_all = "snake_case")]
+enum CurveWeightingFile {
+    IndependentPoints,
+    PerSample,
 }
 
 /// Measured data of one signal, on the data's own time base.
@@ -258,6 +304,13 @@ pub struct SignalData {
     pub sigma_source: &'static str,
     /// For an in-depth temperature: where the model reads it.
     pub probe: Option<SignalProbe>,
+    /// Effective number of independent residuals among `time_s.len()`: neighbouring samples
+    /// of a curve are correlated, so a curve from repeats counts as n·(1 − ρ)/(1 + ρ) points,
+    /// ρ the lag-one autocorrelation of the repeats' standardised deviations from their mean
+    /// (equal to the sample count for a single test, a scalar, or a stated `sigma`). `weight`
+    /// already includes the factor effective/total when `settings.curve_weighting` is
+    /// `"independent_points"`.
+    pub effective_points: f64,
 }
 
 /// The model side of an in-depth temperature signal.
@@ -287,14 +340,29 @@ impl SignalData {
 pub struct FitCase {
     pub name: String,
     pub setup: CaseSetup,
-    /// Exposed area of the cone specimen, m² (0 for a milligram case).
+    /// Exposed area of the cone specimen, m² (0 for a milligram case): what the measured
+    /// per-area curves are per.
     pub exposed_area_m2: f64,
+    /// Area of the specimen face that burns, m² (the test description's `specimen_area_m2`,
+    /// else the exposed area; 0 for a milligram case).
+    pub specimen_area_m2: f64,
     pub signals: Vec<SignalData>,
     /// The test descriptions and data files this case's data come from.
     pub test_files: Vec<PathBuf>,
 }
 
 impl FitCase {
+    /// Burning area over the area the data are per: the model's per-area rates (per m² of
+    /// specimen) times this are comparable with the data (1 unless the lab divided by an
+    /// edge frame's opening while the whole slab burnt).
+    pub fn area_ratio(&self) -> f64 {
+        if self.exposed_area_m2 > 0.0 && self.specimen_area_m2 > 0.0 {
+            self.specimen_area_m2 / self.exposed_area_m2
+        } else {
+            1.0
+        }
+    }
+
     /// The cone scenario, for a cone case.
     pub fn cone_scenario(&self) -> Option<&LoadedScenario> {
         match &self.setup {
@@ -353,6 +421,9 @@ pub struct Settings {
     /// Nelder–Mead runs from this many distinct good points of the final population.
     pub local_starts: usize,
     pub output_interval_s: f64,
+    /// Whether a curve from repeats weighs as its effective number of independent points
+    /// (`SignalData::effective_points`) rather than as every sample.
+    pub weigh_independent_points: bool,
 }
 
 /// A validated fit job.
@@ -438,7 +509,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
             raw,
             base,
             scenario,
-            settings.output_interval_s,
+            &settings,
             &mut warnings,
         )?);
     }
@@ -920,6 +991,10 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
             Some(v) => source.positive(v, "settings.output_interval_s")?,
             None => 1.0,
         },
+        weigh_independent_points: !matches!(
+            raw.curve_weighting,
+            Some(CurveWeightingFile::PerSample)
+        ),
     })
 }
 
@@ -929,9 +1004,10 @@ fn build_case(
     raw: &CaseFile,
     base: &Path,
     scenario: &LoadedScenario,
-    output_interval_s: f64,
+    settings: &Settings,
     warnings: &mut Vec<crate::data::Notice>,
 ) -> Result<FitCase, CaseError> {
+    let output_interval_s = settings.output_interval_s;
     let key = |field: &str| format!("case[{idx}].{field}");
     if raw.tests.is_empty() {
         return Err(source.inconsistent(format!("case `{}` names no tests", raw.name)));
@@ -994,6 +1070,7 @@ fn build_case(
         None
     };
     let exposed_area_m2 = first.exposed_area_m2;
+    let specimen_area_m2 = first.specimen_area_m2;
     let mut signals = Vec::new();
     let mut latest_s: f64 = 0.0;
     for (signal_idx, raw_signal) in raw.signals.iter().enumerate() {
@@ -1045,18 +1122,19 @@ fn build_case(
         let (time_s, value, spread): (Vec<f64>, Vec<f64>, Option<Vec<f64>>) = match raw_signal
             .kind()
         {
-            SignalKind::IgnitionTime => {
-                let times: Vec<f64> = reduced
+            kind if kind.is_scalar() => {
+                let values: Vec<f64> = reduced
                     .iter()
-                    .filter_map(|r| r.report.ignition_time_s)
+                    .filter_map(|r| kind.of_report(&r.report))
+                    .filter(|v| v.is_finite())
                     .collect();
-                if times.is_empty() {
-                    return Err(missing("ignition time"));
+                if values.is_empty() {
+                    return Err(missing(&kind.name().replace('_', " ")));
                 }
-                let mean = times.iter().sum::<f64>() / times.len() as f64;
-                let spread = (times.len() > 1).then(|| {
-                    let var = times.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
-                        / (times.len() - 1) as f64;
+                let mean = values.iter().sum::<f64>() / values.len() as f64;
+                let spread = (values.len() > 1).then(|| {
+                    let var = values.iter().map(|t| (t - mean).powi(2)).sum::<f64>()
+                        / (values.len() - 1) as f64;
                     vec![var.sqrt()]
                 });
                 (vec![mean], vec![mean], spread)
@@ -1080,8 +1158,8 @@ fn build_case(
         let mut kept_value = Vec::new();
         let mut kept_spread = Vec::new();
         for (i, (&t, &v)) in time_s.iter().zip(&value).enumerate() {
-            let in_window = raw_signal.kind() == SignalKind::IgnitionTime
-                || (t >= window_start.max(0.0) && t <= window_end);
+            let in_window =
+                raw_signal.kind().is_scalar() || (t >= window_start.max(0.0) && t <= window_end);
             if in_window && v.is_finite() {
                 kept_time.push(t);
                 kept_value.push(v);
@@ -1135,7 +1213,7 @@ fn build_case(
                 )
             }
             (None, false) => {
-                let scale = if raw_signal.kind() == SignalKind::IgnitionTime {
+                let scale = if raw_signal.kind().is_scalar() {
                     0.1 * peak
                 } else {
                     peak
@@ -1168,6 +1246,25 @@ fn build_case(
             }
             None => None,
         };
+        let n_points = kept_time.len() as f64;
+        let effective_points = match (&repeats, sigma_source) {
+            (Some(set), "repeats") if !raw_signal.kind().is_scalar() => {
+                let lag_one = repeat_deviation_autocorrelation(
+                    &reduced,
+                    set,
+                    raw_signal.kind(),
+                    depth_mm,
+                    (&kept_time, &kept_value, &sigma),
+                );
+                n_points * effective_fraction(lag_one)
+            }
+            _ => n_points,
+        };
+        let weight = if settings.weigh_independent_points {
+            weight * effective_points / n_points
+        } else {
+            weight
+        };
         signals.push(SignalData {
             kind: raw_signal.kind(),
             weight,
@@ -1176,6 +1273,7 @@ fn build_case(
             sigma,
             sigma_source,
             probe,
+            effective_points,
         });
     }
     if signals.is_empty() {
@@ -1206,14 +1304,62 @@ fn build_case(
         name: raw.name.clone(),
         setup: CaseSetup::Cone(Box::new(case_scenario)),
         exposed_area_m2,
+        specimen_area_m2,
         signals,
         test_files,
     })
 }
 
+/// n_eff/n of an AR(1) series with lag-one autocorrelation ρ: (1 − ρ)/(1 + ρ) (the variance
+/// inflation of a mean of correlated samples; Bartlett 1946, common practice), kept in
+/// [1e-3, 1].
+pub fn effective_fraction(lag_one: f64) -> f64 {
+    if !lag_one.is_finite() || lag_one <= 0.0 {
+        return 1.0;
+    }
+    let rho = lag_one.min(0.999);
+    ((1.0 - rho) / (1.0 + rho)).clamp(1e-3, 1.0)
+}
+
+/// Lag-one autocorrelation of the repeats' deviations from their mean, each divided by the
+/// signal's σ, pooled over the repeats, at the signal's kept times (`curve` = times, mean,
+/// σ); NaN when there is nothing to pool.
+fn repeat_deviation_autocorrelation(
+    reduced: &[Reduced],
+    set: &RepeatSet,
+    kind: SignalKind,
+    depth_mm: Option<f64>,
+    curve: (&[f64], &[f64], &[f64]),
+) -> f64 {
+    let (times_s, mean, sigma) = curve;
+    let (mut lagged, mut square) = (0.0, 0.0);
+    for (test, shift_s) in reduced.iter().zip(&set.shifts_s) {
+        let Some(values) = test_curve(test, kind, depth_mm) else {
+            continue;
+        };
+        let deviation: Vec<f64> = times_s
+            .iter()
+            .zip(mean.iter().zip(sigma))
+            .map(|(&t, (&m, &s))| {
+                (crate::data::oxygen::interpolate(&test.time_s, values, t - shift_s) - m) / s
+            })
+            .collect();
+        for pair in deviation.windows(2) {
+            if pair[0].is_finite() && pair[1].is_finite() {
+                lagged += pair[0] * pair[1];
+                square += pair[0] * pair[0];
+            }
+        }
+    }
+    if square > 0.0 {
+        lagged / square
+    } else {
+        f64::NAN
+    }
+}
+
 /// The curve of a cone signal in one reduced test (`depth_mm` picks an in-depth
-/// thermocouple); `None` when the test lacks it. The ignition time is not a curve: its entry
-/// here is the mass, never asked for.
+/// thermocouple); `None` when the test lacks it or the signal is a report quantity.
 fn test_curve(test: &Reduced, kind: SignalKind, depth_mm: Option<f64>) -> Option<&Vec<f64>> {
     match kind {
         SignalKind::Mlr => test.mlr_g_m2s.as_ref(),
@@ -1225,7 +1371,13 @@ fn test_curve(test: &Reduced, kind: SignalKind, depth_mm: Option<f64>) -> Option
             .iter()
             .find(|c| is_same_depth(c.depth_mm, depth_mm))
             .map(|c| &c.temperature_k),
-        SignalKind::Mass | SignalKind::IgnitionTime => test.mass_g.as_ref(),
+        SignalKind::Mass => test.mass_g.as_ref(),
+        // Report quantities are not curves (`SignalKind::is_scalar`).
+        SignalKind::IgnitionTime
+        | SignalKind::PeakHrr
+        | SignalKind::TimeToPeakHrr
+        | SignalKind::TotalHeatRelease
+        | SignalKind::AverageMlr => None,
         // Refused in cone cases before this (`milligram::check_cone_case`).
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
     }
@@ -1243,7 +1395,12 @@ fn repeat_curve(set: &RepeatSet, kind: SignalKind, depth_mm: Option<f64>) -> Opt
             .iter()
             .find(|(d, _)| is_same_depth(*d, depth_mm))
             .map(|(_, c)| c),
-        SignalKind::Mass | SignalKind::IgnitionTime => set.mass_g.as_ref(),
+        SignalKind::Mass => set.mass_g.as_ref(),
+        SignalKind::IgnitionTime
+        | SignalKind::PeakHrr
+        | SignalKind::TimeToPeakHrr
+        | SignalKind::TotalHeatRelease
+        | SignalKind::AverageMlr => None,
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => None,
     }
 }

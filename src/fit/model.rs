@@ -121,7 +121,7 @@ impl<'a> CaseModel<'a> {
                     .signals
                     .iter()
                     .map(|signal| SignalCurve {
-                        values: model_at_data_times(&history, case.exposed_area_m2, signal),
+                        values: model_at_data_times(&history, case, signal),
                     })
                     .collect())
             }
@@ -178,12 +178,24 @@ pub fn milligram_model_at_data_times(
         .collect()
 }
 
-/// The model's value of `signal` at each of its data times, in the signal's unit.
+/// The model's value of `signal` of `case` at each of its data times, in the signal's unit.
+/// The 1-D model is the column under the exposed area (the data's per-area rates are per that
+/// area). When the test's specimen is larger than its exposed area (a slab under an edge
+/// frame), the shielded rim is outside the 1-D model: it is taken as unburnt while the column
+/// burns (mass) and as releasing its energy within the record, at the same heat of combustion
+/// (total heat release scaled by [`FitCase::area_ratio`]); docs/calibration-pmma.md.
 pub fn model_at_data_times(
     history: &crate::physics::History,
-    area_m2: f64,
+    case: &FitCase,
     signal: &SignalData,
 ) -> Vec<f64> {
+    let ratio = case.area_ratio();
+    let area_m2 = case.exposed_area_m2;
+    let rim_area_m2 = (case.specimen_area_m2 - case.exposed_area_m2).max(0.0);
+    let rim_mass_g = history
+        .samples
+        .first()
+        .map_or(0.0, |s| s.mass_kg_m2 * rim_area_m2 * 1e3);
     let at = |pick: &dyn Fn(&crate::physics::Sample) -> f64, factor: f64| -> Vec<f64> {
         signal
             .time_s
@@ -197,9 +209,37 @@ pub fn model_at_data_times(
             let end_s = history.samples.last().map_or(0.0, |s| s.time_s);
             vec![history.summary.ignition_time_s.unwrap_or(end_s)]
         }
+        SignalKind::PeakHrr | SignalKind::TimeToPeakHrr => {
+            // The largest output sample, as the data's rule takes the largest HRR sample.
+            let peak = history
+                .samples
+                .iter()
+                .fold(None::<&crate::physics::Sample>, |best, s| match best {
+                    Some(b) if b.hrr_w_m2 >= s.hrr_w_m2 => Some(b),
+                    _ => Some(s),
+                });
+            let value = match (peak, signal.kind) {
+                (Some(p), SignalKind::PeakHrr) => p.hrr_w_m2 * 1e-3,
+                (Some(p), _) => p.time_s,
+                (None, _) => f64::NAN,
+            };
+            vec![value]
+        }
+        SignalKind::TotalHeatRelease => {
+            let joules: f64 = history
+                .samples
+                .windows(2)
+                .map(|w| 0.5 * (w[0].hrr_w_m2 + w[1].hrr_w_m2) * (w[1].time_s - w[0].time_s))
+                .sum();
+            vec![joules * 1e-6 * ratio]
+        }
+        SignalKind::AverageMlr => vec![average_mlr_10_90_g_m2s(history)],
         SignalKind::Mlr => at(&|s| s.mlr_kg_m2_s, 1e3),
         SignalKind::Hrr => at(&|s| s.hrr_w_m2, 1e-3),
-        SignalKind::Mass => at(&|s| s.mass_kg_m2, area_m2 * 1e3),
+        SignalKind::Mass => at(&|s| s.mass_kg_m2, area_m2 * 1e3)
+            .into_iter()
+            .map(|m| m + rim_mass_g)
+            .collect(),
         SignalKind::SurfaceTemperature => at(&|s| s.surface_temperature_k, 1.0),
         SignalKind::BackTemperature => at(&|s| s.back_temperature_k, 1.0),
         SignalKind::InDepthTemperature => match signal.probe {
@@ -219,5 +259,37 @@ pub fn model_at_data_times(
         SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => {
             vec![f64::NAN; signal.time_s.len()]
         }
+    }
+}
+
+/// The model's mean mass loss rate between 10 % and 90 % of its mass loss, g/(m²·s) (the rule
+/// of ISO 5660-1 the data reduction applies); NaN when the specimen lost no mass.
+pub fn average_mlr_10_90_g_m2s(history: &crate::physics::History) -> f64 {
+    let (Some(first), Some(last)) = (history.samples.first(), history.samples.last()) else {
+        return f64::NAN;
+    };
+    let lost = first.mass_kg_m2 - last.mass_kg_m2;
+    if lost <= 0.0 {
+        return f64::NAN;
+    }
+    let time_at_loss = |fraction: f64| {
+        let target = first.mass_kg_m2 - fraction * lost;
+        history
+            .samples
+            .windows(2)
+            .find(|w| w[1].mass_kg_m2 <= target)
+            .map(|w| {
+                let span = w[0].mass_kg_m2 - w[1].mass_kg_m2;
+                let part = if span > 0.0 {
+                    (w[0].mass_kg_m2 - target) / span
+                } else {
+                    0.0
+                };
+                w[0].time_s + part * (w[1].time_s - w[0].time_s)
+            })
+    };
+    match (time_at_loss(0.1), time_at_loss(0.9)) {
+        (Some(t10), Some(t90)) if t90 > t10 => 0.8 * lost / (t90 - t10) * 1e3,
+        _ => f64::NAN,
     }
 }

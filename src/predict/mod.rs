@@ -304,6 +304,170 @@ pub fn prepare_scenario(
     Ok(loaded.scenario)
 }
 
+/// The signals of a calibration run's `cases/` that give the four report quantities, in the
+/// order of `QUANTITY_NAMES`.
+const QUANTITY_SIGNALS: [&str; 4] = [
+    "ignition_time",
+    "peak_hrr",
+    "time_to_peak_hrr",
+    "total_heat_release",
+];
+
+/// Relative test scatter and relative model error of each report quantity at the calibration
+/// conditions, from the run directory beside `model_path` (`cases/<case>--<signal>.csv`:
+/// measured, sigma, model). `None` when no such file is there.
+fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
+    let cases = model_path.parent()?.join("cases");
+    let entries: Vec<PathBuf> = std::fs::read_dir(&cases)
+        .ok()?
+        .filter_map(|e| e.ok().map(|e| e.path()))
+        .collect();
+    let mut found = false;
+    let mut out = [(f64::NAN, f64::NAN); 4];
+    for (k, signal) in QUANTITY_SIGNALS.iter().enumerate() {
+        let suffix = format!("--{signal}.csv");
+        let (mut scatter, mut error, mut n) = (0.0, 0.0, 0.0);
+        for path in entries.iter().filter(|p| {
+            p.file_name()
+                .is_some_and(|n| n.to_string_lossy().ends_with(&suffix))
+        }) {
+            let Ok(text) = std::fs::read_to_string(path) else {
+                continue;
+            };
+            // time_s,measured,sigma,model,residual
+            for line in text.lines().skip(1) {
+                let v: Vec<f64> = line
+                    .split(',')
+                    .filter_map(|x| x.trim().parse().ok())
+                    .collect();
+                if v.len() >= 4 && v[1].abs() > 0.0 && v.iter().all(|x| x.is_finite()) {
+                    scatter += (v[2] / v[1]).powi(2);
+                    error += ((v[3] - v[1]) / v[1]).powi(2);
+                    n += 1.0;
+                }
+            }
+        }
+        if n > 0.0 {
+            found = true;
+            out[k] = ((scatter / n).sqrt(), (error / n).sqrt());
+        }
+    }
+    found.then_some(out)
+}
+
+/// Adds the prediction band to a quantity's distribution: the parameter band's sd combined
+/// with the relative scatter and model error (`errors` = (scatter, error)).
+fn prediction_band(
+    mut q: QuantityDistribution,
+    parameter_sd: f64,
+    errors: Option<(f64, f64)>,
+    z: f64,
+) -> QuantityDistribution {
+    if let (Some(best), Some((scatter, error))) = (q.best, errors) {
+        if scatter.is_finite() && error.is_finite() {
+            let sd =
+                (parameter_sd.powi(2) + (best * scatter).powi(2) + (best * error).powi(2)).sqrt();
+            q.prediction_lower = best - z * sd;
+            q.prediction_upper = best + z * sd;
+            q.relative_test_scatter = scatter;
+            q.relative_model_error = error;
+        }
+    }
+    q
+}
+
+/// What a prediction does not know, in sentences: conditions outside the calibrated range
+/// (irradiance, thickness of the exposed layer, and by how much), a run that ended before
+/// flame-out or burnout (so time to peak and total heat release stop at its end), no ignition
+/// (within how long), and a calibration that did not converge.
+pub fn condition_notes(
+    calibrated: &CalibratedModel,
+    scenario: &Scenario,
+    best: &History,
+) -> Vec<String> {
+    let mut notes = Vec::new();
+    if let Some(calibration) = &calibrated.model.file.calibration {
+        if calibration.converged == Some(false) {
+            notes.push(format!(
+                "the calibration did not converge ({}): its values and intervals are provisional",
+                calibration
+                    .not_converged_reason
+                    .as_deref()
+                    .unwrap_or("no reason given")
+            ));
+        }
+    }
+    if let Some(job) = &calibrated.job {
+        let cone: Vec<&Scenario> = job
+            .cases
+            .iter()
+            .filter_map(|c| c.cone_scenario())
+            .map(|l| &l.scenario)
+            .collect();
+        let range = |pick: &dyn Fn(&Scenario) -> Option<f64>| {
+            cone.iter()
+                .filter_map(|s| pick(s))
+                .fold(None, |r: Option<(f64, f64)>, v| {
+                    Some(r.map_or((v, v), |(a, b)| (a.min(v), b.max(v))))
+                })
+        };
+        let irradiance = |s: &Scenario| match &s.exposure.irradiance_w_m2 {
+            crate::physics::scenario::Schedule::Constant(w) => Some(w / 1e3),
+            crate::physics::scenario::Schedule::Table(_) => None,
+        };
+        let thickness = |s: &Scenario| s.layers.first().map(|l| l.thickness_m * 1e3);
+        for (what, unit, pick) in [
+            (
+                "irradiance",
+                "kW/m²",
+                &irradiance as &dyn Fn(&Scenario) -> Option<f64>,
+            ),
+            ("thickness of the exposed layer", "mm", &thickness),
+        ] {
+            if let (Some((low, high)), Some(value)) = (range(pick), pick(scenario)) {
+                let outside = if value < low - 1e-9 {
+                    Some(low - value)
+                } else if value > high + 1e-9 {
+                    Some(value - high)
+                } else {
+                    None
+                };
+                if let Some(by) = outside {
+                    let edge = if value < low { low } else { high };
+                    notes.push(format!(
+                        "the {what} {value:.3} {unit} lies outside the calibrated range \
+                         {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest \
+                         calibrated value): an extrapolation the calibration did not test",
+                        100.0 * by / edge.abs().max(1e-12)
+                    ));
+                }
+            }
+        }
+    }
+    let end_s = best.samples.last().map_or(0.0, |s| s.time_s);
+    match best.summary.ignition_time_s {
+        None => notes.push(format!(
+            "no ignition within the simulated {end_s:.0} s (a longer --duration may ignite)"
+        )),
+        Some(_) => {
+            let left = if best.summary.initial_mass_kg_m2 > 0.0 {
+                1.0 - best.summary.mass_lost_kg_m2 / best.summary.initial_mass_kg_m2
+            } else {
+                0.0
+            };
+            if best.summary.flameout_time_s.is_none() && left > 0.01 {
+                notes.push(format!(
+                    "the run ended at {end_s:.0} s while still flaming, with {:.0} % of the \
+                         specimen mass left: peak HRR, time to peak and total heat release are those \
+                         of the first {end_s:.0} s only (give a longer --duration)",
+                    100.0 * left
+                ));
+            }
+        }
+    }
+    notes
+}
+
 /// Reads a scenario file and prepares it (see [`prepare_scenario`]).
 pub fn load_prepared_scenario(
     calibrated: &CalibratedModel,
@@ -362,6 +526,16 @@ pub struct QuantityDistribution {
     pub upper: f64,
     pub mean: f64,
     pub standard_deviation: f64,
+    /// The prediction band (test scatter and model error): the parameter band's spread
+    /// combined with the repeats' relative scatter and the model's relative error at the
+    /// calibration conditions, best ± z·√(sd² + (best·scatter)² + (best·error)²). NaN when the
+    /// calibration run's report-quantity signals are not beside the model.
+    pub prediction_lower: f64,
+    pub prediction_upper: f64,
+    /// Relative test-to-test scatter (repeat sd / mean) at the calibration conditions.
+    pub relative_test_scatter: f64,
+    /// Relative model error (RMS of (model − data)/data over the calibration cases).
+    pub relative_model_error: f64,
 }
 
 impl QuantityDistribution {
@@ -567,6 +741,7 @@ pub fn predict_on<E: Evaluator>(
     let best_curves = curves_of(&best, &time_s);
     let best_quantities = report_quantities(&best);
     let mut notes = calibrated.notes.clone();
+    notes.extend(condition_notes(calibrated, scenario, &best));
     let empty_distribution = |k: usize| QuantityDistribution {
         name: QUANTITY_NAMES[k].0.to_string(),
         unit: QUANTITY_NAMES[k].1.to_string(),
@@ -577,6 +752,10 @@ pub fn predict_on<E: Evaluator>(
         upper: f64::NAN,
         mean: f64::NAN,
         standard_deviation: f64::NAN,
+        prediction_lower: f64::NAN,
+        prediction_upper: f64::NAN,
+        relative_test_scatter: f64::NAN,
+        relative_model_error: f64::NAN,
     };
     let Some(band_percent) = settings.band_percent else {
         return Ok(Prediction {
@@ -700,6 +879,16 @@ pub fn predict_on<E: Evaluator>(
         })
         .collect();
     let per_sample: Vec<[Option<f64>; 4]> = histories.iter().map(report_quantities).collect();
+    let errors = calibration_errors(&calibrated.path);
+    let z = crate::predict::sampling::normal_quantile(1.0 - tail);
+    if errors.is_none() {
+        notes.push(
+            "no report-quantity signals (ignition_time, peak_hrr, time_to_peak_hrr, \
+                         total_heat_release) in the calibration run's cases/: the band is the parameter band \
+                         only, without test scatter or model error"
+                .into(),
+        );
+    }
     let quantities = (0..4)
         .map(|k| {
             let values: Vec<Option<f64>> = per_sample.iter().map(|q| q[k]).collect();
@@ -715,7 +904,12 @@ pub fn predict_on<E: Evaluator>(
                 upper: quantile(&present, 1.0 - tail),
                 mean,
                 standard_deviation: variance.sqrt(),
-                ..empty_distribution(k)
+                ..prediction_band(
+                    empty_distribution(k),
+                    variance.sqrt(),
+                    errors.map(|e| e[k]),
+                    z,
+                )
             }
         })
         .collect();

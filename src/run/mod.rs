@@ -157,6 +157,13 @@ pub struct RunRecord {
 pub struct RunSummary {
     pub title: String,
     pub reason: String,
+    /// False when the fit ended on its budget, its time or a stop request before the search
+    /// converged (`fit::engine::convergence`): its estimate and intervals are provisional.
+    #[serde(default = "converged_by_default")]
+    pub converged: bool,
+    /// Why the fit did not converge (absent when it did).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub not_converged_reason: Option<String>,
     pub objective: f64,
     pub parts: Vec<PartInfo>,
     pub prior_cost: f64,
@@ -169,6 +176,9 @@ pub struct RunSummary {
     #[serde(default)]
     pub covariance: Vec<Vec<f64>>,
     pub n_residuals: usize,
+    /// The effective number of independent residuals the intervals are based on.
+    #[serde(default)]
+    pub effective_residuals: f64,
     pub residual_variance: f64,
     pub singular_values: Vec<f64>,
     /// When the identifiability analysis could not be done, why.
@@ -190,6 +200,10 @@ pub struct SummaryParameter {
     pub sensitivity: Option<f64>,
     pub sensitivity_rank: Option<usize>,
     pub warnings: Vec<String>,
+}
+
+fn converged_by_default() -> bool {
+    true
 }
 
 /// Reads a run's `summary.json` (e.g. for `prior_from` in a later job).
@@ -589,6 +603,7 @@ pub fn run_fit_on<E: Evaluator>(
         date: humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string(),
         objective: f64::NAN,
         data_sha256: hashes.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
+        not_converged: Some("the fit is still running".into()),
     };
     let model = CaseModel::new(&job);
     let mut recorder = Recorder {
@@ -784,6 +799,11 @@ fn finish<E: Evaluator>(
         Ok(a) => (Some(a), None),
         Err(e) => (None, Some(e.to_string())),
     };
+    let mut provenance = provenance.clone();
+    provenance.not_converged =
+        crate::fit::engine::convergence(outcome.state.stop_reason.as_deref().unwrap_or("finished"))
+            .err();
+    let provenance = &provenance;
     write_best_model(
         dir,
         job,
@@ -827,13 +847,17 @@ fn finish<E: Evaluator>(
         })
         .collect();
     write_parameters_csv(dir, &parameters)?;
+    let reason = outcome
+        .state
+        .stop_reason
+        .clone()
+        .unwrap_or_else(|| "finished".into());
+    let not_converged_reason = crate::fit::engine::convergence(&reason).err();
     let summary = RunSummary {
         title: job.title.clone(),
-        reason: outcome
-            .state
-            .stop_reason
-            .clone()
-            .unwrap_or_else(|| "finished".into()),
+        converged: not_converged_reason.is_none(),
+        not_converged_reason,
+        reason,
         objective: outcome.best.cost,
         parts: outcome
             .best
@@ -857,6 +881,7 @@ fn finish<E: Evaluator>(
             .as_ref()
             .map_or_else(Vec::new, |a| a.covariance.clone()),
         n_residuals: analysis.as_ref().map_or(0, |a| a.n_residuals),
+        effective_residuals: analysis.as_ref().map_or(0.0, |a| a.effective_residuals),
         residual_variance: analysis.as_ref().map_or(f64::NAN, |a| a.residual_variance),
         singular_values: analysis
             .as_ref()

@@ -18,13 +18,7 @@ use emberfit::data::{reduce, Reduced, TestDescription};
 /// The folder of the open PMMA data (MaCFP condensed-phase database, PMMA calibration data,
 /// MIT licence; see its PROVENANCE.md), or `None` with a message when the variable is unset.
 fn reference_data(test_name: &str) -> Option<PathBuf> {
-    match std::env::var_os("EMBERFIT_REFERENCE_DATA") {
-        Some(dir) => Some(PathBuf::from(dir)),
-        None => {
-            eprintln!("{test_name}: skipped, EMBERFIT_REFERENCE_DATA is not set");
-            None
-        }
-    }
+    crate::util::reference_data(test_name)
 }
 
 /// One cone test of the PMMA set, with the conditions its tests.toml gives.

@@ -12,5 +12,6 @@ mod predict;
 mod properties;
 mod templates;
 mod tui;
+mod twins;
 mod util;
 mod verification;

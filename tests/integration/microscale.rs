@@ -218,15 +218,7 @@ fn ictac_2011_two_step_data_show_activation_energy_drift() {
 }
 
 fn reference_folder() -> Option<PathBuf> {
-    match std::env::var_os("EMBERFIT_REFERENCE_DATA") {
-        Some(folder) => Some(PathBuf::from(folder)),
-        None => {
-            println!(
-                "skipped: EMBERFIT_REFERENCE_DATA is not set (point it at the open PMMA data)"
-            );
-            None
-        }
-    }
+    crate::util::reference_data("microscale PMMA test")
 }
 
 fn pmma_run(folder: &Path, file: &str) -> ConversionRun {

@@ -451,8 +451,9 @@ fn broken_milligram_jobs_name_file_line_and_key() {
 /// 10 K/min, 650 ± 7.5 K at 20 K/min): the checks, now through the fit job.
 #[test]
 fn macfp_pmma_tga_fit_job_at_two_heating_rates_predicts_the_third_peak() {
-    let Some(folder) = std::env::var_os("EMBERFIT_REFERENCE_DATA").map(PathBuf::from) else {
-        println!("skipped: EMBERFIT_REFERENCE_DATA is not set (point it at the open PMMA data)");
+    let Some(folder) = crate::util::reference_data(
+        "macfp_pmma_tga_fit_job_at_two_heating_rates_predicts_the_third_peak",
+    ) else {
         return;
     };
     let dir = scratch("pmma-job");

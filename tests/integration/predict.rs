@@ -688,13 +688,7 @@ fn grey_variance(path: &Path) -> f64 {
 }
 
 fn reference_data(test_name: &str) -> Option<PathBuf> {
-    match std::env::var_os("EMBERFIT_REFERENCE_DATA") {
-        Some(dir) => Some(PathBuf::from(dir)),
-        None => {
-            eprintln!("{test_name}: skipped, EMBERFIT_REFERENCE_DATA is not set");
-            None
-        }
-    }
+    crate::util::reference_data(test_name)
 }
 
 /// Writes a TEST.toml for one cone file of the PMMA set (conditions from its tests.toml).

@@ -104,7 +104,9 @@ struct KillOnDrop(u32);
 impl Drop for KillOnDrop {
     fn drop(&mut self) {
         if is_alive(self.0) {
-            let _ = Command::new("kill").args(["-KILL", &self.0.to_string()]).status();
+            let _ = Command::new("kill")
+                .args(["-KILL", &self.0.to_string()])
+                .status();
         }
     }
 }

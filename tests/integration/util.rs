@@ -176,3 +176,29 @@ pub fn wet(mut layer: Layer) -> Layer {
     layer.initial_mass_fractions = vec![0.9, 0.1, 0.0];
     layer
 }
+
+/// The folder of the open PMMA data (MaCFP condensed-phase working group, PMMA calibration
+/// data, MIT licence; see PROVENANCE.md inside it), named by `EMBERFIT_REFERENCE_DATA`.
+/// Without it a test says so and is skipped, except under `CI=true`, where a missing or
+/// unreadable folder fails the test (CI sets the path; a silent skip would pass untested).
+pub fn reference_data(test_name: &str) -> Option<std::path::PathBuf> {
+    let in_ci = std::env::var("CI").is_ok_and(|v| v == "true");
+    match std::env::var_os("EMBERFIT_REFERENCE_DATA") {
+        Some(dir) => {
+            let dir = std::path::PathBuf::from(dir);
+            assert!(
+                !in_ci || dir.join("tests.toml").is_file(),
+                "{test_name}: EMBERFIT_REFERENCE_DATA = {} has no tests.toml (CI=true)",
+                dir.display()
+            );
+            Some(dir)
+        }
+        None if in_ci => {
+            panic!("{test_name}: EMBERFIT_REFERENCE_DATA is not set, and CI=true needs the data")
+        }
+        None => {
+            eprintln!("{test_name}: skipped, EMBERFIT_REFERENCE_DATA is not set");
+            None
+        }
+    }
+}

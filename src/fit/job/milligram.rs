@@ -296,6 +296,7 @@ pub(super) fn build_milligram_case(
         name: raw.name.clone(),
         setup: CaseSetup::Milligram(setup),
         exposed_area_m2: 0.0,
+        specimen_area_m2: 0.0,
         signals,
         test_files,
     })
@@ -337,6 +338,7 @@ fn signal_data(
     Ok(SignalData {
         kind,
         weight,
+        effective_points: time_s.len() as f64,
         time_s,
         value,
         sigma,
