@@ -5,6 +5,7 @@ mod data;
 mod fit;
 mod microscale;
 mod milligram_fit;
+mod numerics;
 mod pmma_fit;
 mod predict;
 mod properties;
