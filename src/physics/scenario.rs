@@ -203,7 +203,7 @@ impl Default for Numerics {
             max_conversion_per_step: 0.5,
             initial_step_s: 0.05,
             max_step_s: 5.0,
-            min_step_s: 1e-7,
+            min_step_s: 1e-10,
             iteration_tolerance_k: 1e-2,
         }
     }

@@ -28,7 +28,7 @@ const MERGE_MASS_FRACTION: f64 = 1e-6;
 /// neighbours at once, like the face.
 const NEGLIGIBLE_MASS_FRACTION: f64 = 1e-3;
 /// Newton iterations on the non-linear terms before a step is retried shorter.
-const MAX_ITERATIONS: usize = 25;
+const MAX_ITERATIONS: usize = 40;
 /// A step never grows by more than this factor, nor shrinks by more on an error rejection.
 const MAX_GROWTH: f64 = 2.0;
 const MIN_SHRINK: f64 = 0.2;
@@ -569,6 +569,13 @@ impl<'a> Solver<'a> {
             if change <= numerics.iteration_tolerance_k {
                 converged = true;
                 break;
+            }
+            // T⁴ re-radiation also balances at a negative face temperature: keep the iterates
+            // on the physical branch (a strongly exothermic cell can throw the guess there).
+            for (value, &old) in work.solution_k.iter_mut().zip(&self.temperature_k) {
+                if *value <= 0.0 {
+                    *value = 0.5 * old;
+                }
             }
             std::mem::swap(&mut work.iterate_k, &mut work.solution_k);
         }
