@@ -23,6 +23,9 @@ pub const DEFAULT_AMBIENT_TEMPERATURE_K: f64 = 293.15;
 pub const DEFAULT_SPECIMEN_FIRST_CELL_M: f64 = 5.0e-5;
 /// Default thickness of the first cell of a backing layer, m (it only carries heat away).
 pub const DEFAULT_BACKING_FIRST_CELL_M: f64 = 5.0e-4;
+/// Largest irradiance a scenario file may give, kW/m² (the `--flux` cap; cone heaters reach
+/// about 100 kW/m², furnace and jet-fire exposures a few hundred).
+pub const MAX_IRRADIANCE_KW_M2: f64 = 500.0;
 /// Default ratio of a layer's last cell thickness to its first: cells grow geometrically away
 /// from the exposed side, where the gradients are.
 pub const DEFAULT_CELL_GROWTH: f64 = 8.0;
@@ -488,7 +491,17 @@ fn build_scenario(
 
     let exposure_file = &file.exposure;
     let irradiance_w_m2 = match (&exposure_file.irradiance_kw_m2, &exposure_file.irradiance_table) {
-        (Some(value), None) => Schedule::Constant(source.non_negative(value, "exposure.irradiance_kw_m2")? * 1e3),
+        (Some(value), None) => {
+            let irradiance_kw_m2 = source.non_negative(value, "exposure.irradiance_kw_m2")?;
+            if irradiance_kw_m2 > MAX_IRRADIANCE_KW_M2 {
+                return Err(source.invalid(
+                    &value.span(),
+                    "exposure.irradiance_kw_m2",
+                    format!("must be at most {MAX_IRRADIANCE_KW_M2} kW/m² (no fire test exposes a specimen to more), got {irradiance_kw_m2}"),
+                ));
+            }
+            Schedule::Constant(irradiance_kw_m2 * 1e3)
+        }
         (None, Some(table)) => {
             let points = table.get_ref();
             if points.is_empty() {
@@ -508,6 +521,13 @@ fn build_scenario(
                     &table.span(),
                     "exposure.irradiance_table",
                     format!("irradiance must be ≥ 0 kW/m², got {}", point[1]),
+                ));
+            }
+            if let Some(point) = points.iter().find(|p| p[1] > MAX_IRRADIANCE_KW_M2) {
+                return Err(source.invalid(
+                    &table.span(),
+                    "exposure.irradiance_table",
+                    format!("irradiance must be at most {MAX_IRRADIANCE_KW_M2} kW/m², got {}", point[1]),
                 ));
             }
             Schedule::Table(points.iter().map(|p| (p[0], p[1] * 1e3)).collect())
