@@ -82,10 +82,11 @@ impl EnergyBudget {
         self.stored_j_m2 += other.stored_j_m2;
     }
 
-    /// 2·self − full, term by term: the budget of a Richardson-extrapolated step, whose
-    /// state is 2·(two half steps) − (one full step). Each budget closes, so this one does.
-    pub(crate) fn extrapolated(&self, full: &EnergyBudget) -> EnergyBudget {
-        let mix = |half: f64, full: f64| 2.0 * half - full;
+    /// (1 + θ)·self − θ·full, term by term: the budget of a Richardson-extrapolated step,
+    /// whose state is (1 + θ)·(two half steps) − θ·(one full step). The weights sum to 1 and
+    /// each budget closes, so this one does.
+    pub(crate) fn extrapolated(&self, full: &EnergyBudget, theta: f64) -> EnergyBudget {
+        let mix = |half: f64, full: f64| half + theta * (half - full);
         EnergyBudget {
             absorbed_j_m2: mix(self.absorbed_j_m2, full.absorbed_j_m2),
             reradiated_j_m2: mix(self.reradiated_j_m2, full.reradiated_j_m2),

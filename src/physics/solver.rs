@@ -1,7 +1,8 @@
 //! The 1-D transient conduction–pyrolysis solver (physics.md §1; the numerics in
 //! docs/numerics.md): conservative finite volumes on a grid stretched toward the exposed face;
 //! each step is extrapolated backward Euler (one step of Δt and two of Δt/2, combined as
-//! 2·y_{Δt/2} − y_{Δt}, second order), the difference of the two giving the local error that
+//! y_{Δt/2} + θ·(y_{Δt/2} − y_{Δt}), θ = 1 for second order, less only where a mass would go
+//! negative), the difference of the two giving the local error that
 //! sets the next step; every implicit solve is Newton's method on the non-linear terms with a
 //! tridiagonal Jacobian; ignition and flame-out are located by shortening the step to them.
 //!
@@ -501,44 +502,47 @@ impl<'a> Solver<'a> {
         self.dt_s = (dt_s * factor.max(MIN_SHRINK))
             .max(numerics.min_step_s)
             .min(numerics.max_step_s);
-        // Richardson extrapolation, unless it would make a mass or a consumption negative (a
-        // reactant used up within the step): then the two half steps stand, first order for
-        // this step, and both mass and energy still close.
-        let combine = |half: f64, full: f64| 2.0 * half - full;
-        let mut can_extrapolate = work
-            .new_masses
-            .iter()
-            .zip(&work.full_masses)
-            .all(|(&h, &f)| combine(h, f) >= 0.0)
-            && work
-                .solution_k
-                .iter()
-                .zip(&work.full_k)
-                .all(|(&h, &f)| combine(h, f) > 0.0);
-        if can_extrapolate {
-            for idx in 0..work.consumed.len() {
-                let half = work.half_consumed[idx] + work.consumed[idx];
-                if combine(half, work.full_consumed[idx]) < 0.0 {
-                    can_extrapolate = false;
-                    break;
-                }
-            }
-        }
+        // Richardson extrapolation y_h + θ·(y_h − y_full), θ = 1 (second order) unless that
+        // would make a mass or a consumption negative (a reactant used up within the step):
+        // then θ is the largest value in [0, 1] that keeps them non-negative. θ is continuous
+        // in the state, so the result is a smooth function of the inputs (a fit's objective
+        // has no jumps from switching the extrapolation on and off). Weights 1 + θ and −θ
+        // sum to 1, so mass and energy still close.
         let mut budget = first_budget;
         budget.add(&second_budget);
         for idx in 0..work.consumed.len() {
             work.consumed[idx] += work.half_consumed[idx];
         }
-        if can_extrapolate {
-            budget = budget.extrapolated(&full_budget);
+        let limit = |theta: f64, half: f64, full: f64| {
+            // half + θ·(half − full) ≥ 0 needs θ ≤ half / (full − half) when full > half.
+            if full > half {
+                theta.min((half / (full - half)).max(0.0))
+            } else {
+                theta
+            }
+        };
+        let mut theta = 1.0f64;
+        for (&h, &f) in work.new_masses.iter().zip(&work.full_masses) {
+            theta = limit(theta, h, f);
+        }
+        for (&h, &f) in work.consumed.iter().zip(&work.full_consumed) {
+            theta = limit(theta, h, f);
+        }
+        for (&h, &f) in work.solution_k.iter().zip(&work.full_k) {
+            // Temperatures stay above half their first-order value.
+            theta = limit(theta, 0.5 * h, f - 0.5 * h);
+        }
+        if theta > 0.0 {
+            let combine = |half: f64, full: f64| half + theta * (half - full);
+            budget = budget.extrapolated(&full_budget, theta);
             for (h, f) in work.solution_k.iter_mut().zip(&work.full_k) {
                 *h = combine(*h, *f);
             }
             for (h, f) in work.new_masses.iter_mut().zip(&work.full_masses) {
-                *h = combine(*h, *f);
+                *h = combine(*h, *f).max(0.0);
             }
             for (h, f) in work.consumed.iter_mut().zip(&work.full_consumed) {
-                *h = combine(*h, *f);
+                *h = combine(*h, *f).max(0.0);
             }
         }
         Attempt::Accepted(self.step_result(work, budget))
