@@ -982,9 +982,8 @@ impl<'a> Solver<'a> {
                 }
             }
         }
-        if !self.is_flaming {
-            result.heat_release_j_m2 = 0.0;
-        }
+        // The heat of combustion of all the fuel released; `accept` keeps the part released
+        // while the flame was on.
         result
     }
 
@@ -1012,7 +1011,19 @@ impl<'a> Solver<'a> {
         let before = self.cumulative;
         self.cumulative[0] += result.specimen_gas_kg_m2;
         self.cumulative[1] += result.specimen_fuel_kg_m2;
-        self.cumulative[2] += result.heat_release_j_m2;
+        // The flame's part of the step: all of it, none, or the part after an ignition or
+        // before a flame-out inside the step, so the heat release is continuous in the event
+        // time (the step ends within the event tolerance of it).
+        let was_flaming = self.is_flaming;
+        let event_s = self.update_flame(previous_time_s, fuel_flux_now);
+        let flame_fraction = match (was_flaming, self.is_flaming, event_s) {
+            (true, true, _) => 1.0,
+            (false, true, Some(t)) => ((self.time_s - t) / dt_s).clamp(0.0, 1.0),
+            (true, false, Some(t)) => ((t - previous_time_s) / dt_s).clamp(0.0, 1.0),
+            (false, true, None) => 1.0,
+            _ => 0.0,
+        };
+        self.cumulative[2] += result.heat_release_j_m2 * flame_fraction;
         let duration_s = self.scenario.duration_s;
         let interval_s = self.scenario.output_interval_s;
         while self.next_edge_s <= self.time_s * (1.0 + 1e-12)
@@ -1026,7 +1037,6 @@ impl<'a> Solver<'a> {
             self.row_edges.push(edge);
             self.next_edge_s += interval_s;
         }
-        self.update_flame(previous_time_s, fuel_flux_now);
         self.last_fuel_flux_kg_m2_s = fuel_flux_now;
         self.last_surface_temperature_k = self.temperature_k[0];
         self.merge_burnt_cells();
@@ -1056,7 +1066,8 @@ impl<'a> Solver<'a> {
     /// Ignition and flame-out after a step that ended at `self.time_s`; `fuel_flux` is the
     /// instantaneous fuel mass flux there. Steps are shortened to end at these events
     /// (`event_inside_step`), so the crossing found here lies within the event tolerance.
-    fn update_flame(&mut self, previous_time_s: f64, fuel_flux: f64) {
+    /// Returns the time of the ignition or flame-out that happened, if one did.
+    fn update_flame(&mut self, previous_time_s: f64, fuel_flux: f64) -> Option<f64> {
         let may_ignite = !self.is_flaming
             && (self.ignition_time_s.is_none() || self.scenario.flameout.may_reignite);
         if may_ignite {
@@ -1083,6 +1094,7 @@ impl<'a> Solver<'a> {
             if let Some(time_s) = crossing {
                 self.ignite(time_s);
             }
+            crossing
         } else if self.is_flaming {
             let threshold = self.scenario.flameout.threshold_fuel_mass_flux_kg_m2_s;
             if fuel_flux >= threshold {
@@ -1099,7 +1111,11 @@ impl<'a> Solver<'a> {
                     )
                     .unwrap_or(self.time_s),
                 );
+                return self.flameout_time_s;
             }
+            None
+        } else {
+            None
         }
     }
 
