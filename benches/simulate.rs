@@ -1,49 +1,73 @@
-//! Speed of the forward model (issue 2): the thermoplastic template, 6 mm on insulation board,
-//! 50 kW/m², 600 s simulated, at the default resolution; then the cost at 30/60/120/240
-//! specimen cells to show it grows linearly. Run with `cargo bench --bench simulate`.
+//! Speed of the forward model (issue 14 item 5): the demo scenario
+//! (demo-cases/ridgeline-panel/scenario.toml, 6 mm facing on 26 mm of board) at 50 kW/m²,
+//! 600 s simulated, at the converged defaults; once with a fresh workspace per run
+//! (`simulate`) and once with one kept across runs as a fit does (`simulate_with`); then the
+//! cost at 1/2/4× the default cells to show how it grows. Prints the run's step counts and its
+//! distance from a 4× refined run. Run with `cargo bench --bench simulate`; goal ≤ 2 ms a run,
+//! bar ≤ 4 ms (docs/numerics.md has the figures measured).
 
 use std::path::Path;
 
 use criterion::{criterion_group, criterion_main, Criterion};
 use emberfit::case::load_scenario;
+use emberfit::physics::scenario::Schedule;
 use emberfit::physics::simulate;
+use emberfit::physics::solver::{simulate_with, Workspace};
 
-fn template_scenario() -> emberfit::case::LoadedScenario {
+fn demo_scenario() -> emberfit::physics::Scenario {
     let path =
-        Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/thermoplastic-on-board.toml");
-    match load_scenario(&path) {
-        Ok(loaded) => loaded,
+        Path::new(env!("CARGO_MANIFEST_DIR")).join("demo-cases/ridgeline-panel/scenario.toml");
+    let mut scenario = match load_scenario(&path) {
+        Ok(loaded) => loaded.scenario,
         Err(err) => panic!("bench scenario: {err}"),
-    }
+    };
+    scenario.exposure.irradiance_w_m2 = Schedule::Constant(50e3);
+    scenario.duration_s = 600.0;
+    scenario
 }
 
 fn forward_model(c: &mut Criterion) {
-    let loaded = template_scenario();
-    let default_history = simulate(&loaded.scenario).expect("bench scenario runs");
-    let mut fine = loaded.scenario.clone();
-    fine.layers[0].n_cells *= 4;
+    let scenario = demo_scenario();
+    let history = simulate(&scenario).expect("bench scenario runs");
+    let mut fine = scenario.clone();
+    for layer in &mut fine.layers {
+        layer.n_cells *= 4;
+    }
+    fine.numerics.temperature_tolerance_k /= 4.0;
+    fine.numerics.conversion_tolerance /= 4.0;
     fine.numerics.max_temperature_change_k /= 4.0;
     fine.numerics.max_conversion_per_step /= 4.0;
+    fine.numerics.iteration_tolerance_k /= 4.0;
     let fine_history = simulate(&fine).expect("fine run");
-    let peak = default_history.summary.peak_mlr_kg_m2_s;
-    let fine_peak = fine_history.summary.peak_mlr_kg_m2_s;
+    let (s, f) = (&history.summary, &fine_history.summary);
+    let percent = |a: f64, b: f64| 100.0 * (a - b) / b;
     println!(
-        "default resolution: {} specimen cells, {} steps; peak MLR {:.3} g/m2s vs {:.3} g/m2s at 4x finer ({:+.3} %)",
-        loaded.scenario.layers[0].n_cells,
-        default_history.summary.n_steps,
-        peak * 1e3,
-        fine_peak * 1e3,
-        100.0 * (peak - fine_peak) / fine_peak
+        "demo 50 kW/m2, 600 s: cells {:?}, {} steps ({} retried), {} linear solves; vs 4x refined: t_ig {:+.3} %, peak HRR {:+.3} %, t_peak {:+.3} %, peak MLR {:+.3} %, THR {:+.3} %",
+        scenario.layers.iter().map(|l| l.n_cells).collect::<Vec<_>>(),
+        s.n_steps,
+        s.n_rejected_steps,
+        s.n_iterations,
+        percent(s.ignition_time_s.unwrap_or(f64::NAN), f.ignition_time_s.unwrap_or(f64::NAN)),
+        percent(s.peak_hrr_w_m2, f.peak_hrr_w_m2),
+        percent(s.time_of_peak_hrr_s, f.time_of_peak_hrr_s),
+        percent(s.peak_mlr_kg_m2_s, f.peak_mlr_kg_m2_s),
+        percent(s.total_heat_release_j_m2, f.total_heat_release_j_m2),
     );
-    c.bench_function("thermoplastic 6 mm on board, 50 kW/m2, 600 s", |b| {
-        b.iter(|| simulate(&loaded.scenario).expect("runs"))
+    c.bench_function("demo 50 kW/m2 600 s, simulate", |b| {
+        b.iter(|| simulate(&scenario).expect("runs"))
     });
-    let mut group = c.benchmark_group("specimen cells");
-    for n_cells in [30, 60, 120, 240] {
-        let mut scenario = loaded.scenario.clone();
-        scenario.layers[0].n_cells = n_cells;
-        group.bench_function(format!("{n_cells} cells"), |b| {
-            b.iter(|| simulate(&scenario).expect("runs"))
+    let mut workspace = Workspace::default();
+    c.bench_function("demo 50 kW/m2 600 s, simulate_with (kept workspace)", |b| {
+        b.iter(|| simulate_with(&scenario, &mut workspace).expect("runs"))
+    });
+    let mut group = c.benchmark_group("cells x");
+    for factor in [1, 2, 4] {
+        let mut refined = scenario.clone();
+        for layer in &mut refined.layers {
+            layer.n_cells *= factor;
+        }
+        group.bench_function(format!("{factor}x default cells"), |b| {
+            b.iter(|| simulate(&refined).expect("runs"))
         });
     }
     group.finish();

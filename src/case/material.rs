@@ -290,16 +290,35 @@ pub(crate) fn build_material(source: &Source, file: &MaterialFile) -> Result<Mat
             Some(value) => source.non_negative(value, &key("order"))?,
             None => 1.0,
         };
+        // Plausible ranges (fitted single-step pyrolysis kinetics lie far inside both; common
+        // practice, no single source): outside them the rate is either instantaneous at room
+        // temperature or never reached, and the solver could only fail without naming the key.
+        let pre_exponential_per_s =
+            source.positive(&raw.pre_exponential_per_s, &key("pre_exponential_per_s"))?;
+        if !(1e-5..=1e30).contains(&pre_exponential_per_s) {
+            return Err(source.invalid(
+                &raw.pre_exponential_per_s.span(),
+                &key("pre_exponential_per_s"),
+                format!("must be within 1e-5..1e30 1/s, got {pre_exponential_per_s:e}"),
+            ));
+        }
+        let activation_energy_kj_mol = source.non_negative(
+            &raw.activation_energy_kj_mol,
+            &key("activation_energy_kj_mol"),
+        )?;
+        if !(1.0..=1000.0).contains(&activation_energy_kj_mol) {
+            return Err(source.invalid(
+                &raw.activation_energy_kj_mol.span(),
+                &key("activation_energy_kj_mol"),
+                format!("must be within 1..1000 kJ/mol, got {activation_energy_kj_mol}"),
+            ));
+        }
         reactions.push(Reaction {
             reactant,
             product,
             product_yield,
-            pre_exponential_per_s: source
-                .positive(&raw.pre_exponential_per_s, &key("pre_exponential_per_s"))?,
-            activation_energy_j_mol: source.non_negative(
-                &raw.activation_energy_kj_mol,
-                &key("activation_energy_kj_mol"),
-            )? * 1e3,
+            pre_exponential_per_s,
+            activation_energy_j_mol: activation_energy_kj_mol * 1e3,
             order,
             heat_of_reaction_j_kg: source
                 .finite(&raw.heat_of_reaction_kj_kg, &key("heat_of_reaction_kj_kg"))?

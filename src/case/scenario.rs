@@ -17,11 +17,18 @@ use crate::physics::scenario::{
 
 /// Ambient temperature when the file gives none, K (20 °C, a usual laboratory condition).
 pub const DEFAULT_AMBIENT_TEMPERATURE_K: f64 = 293.15;
-/// Default cell size in specimen layers, m: fine enough that halving it changes peak MLR by
-/// less than 1 % on the templates (tests/integration/verification.rs measures it).
-pub const DEFAULT_SPECIMEN_CELL_M: f64 = 2.0e-4;
-/// Default cell size in backing layers, m (they only need to carry heat away).
-pub const DEFAULT_BACKING_CELL_M: f64 = 1.0e-3;
+/// Default thickness of the first (front) cell of a specimen layer, m: with the default cell
+/// growth, fine enough that 4× the cells change the fit's figures by under 1 % on the
+/// templates (tests/integration/numerics.rs; docs/numerics.md, "Grid").
+pub const DEFAULT_SPECIMEN_FIRST_CELL_M: f64 = 5.0e-5;
+/// Default thickness of the first cell of a backing layer, m (it only carries heat away).
+pub const DEFAULT_BACKING_FIRST_CELL_M: f64 = 5.0e-4;
+/// Largest irradiance a scenario file may give, kW/m² (the `--flux` cap; cone heaters reach
+/// about 100 kW/m², furnace and jet-fire exposures a few hundred).
+pub const MAX_IRRADIANCE_KW_M2: f64 = 500.0;
+/// Default ratio of a layer's last cell thickness to its first: cells grow geometrically away
+/// from the exposed side, where the gradients are.
+pub const DEFAULT_CELL_GROWTH: f64 = 8.0;
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -60,6 +67,9 @@ pub struct LayerFile {
     pub thickness_mm: Spanned<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub cells: Option<Spanned<i64>>,
+    /// Thickness of the last cell over the first (1: uniform cells).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub cell_growth: Option<Spanned<f64>>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub role: Option<LayerRole>,
     /// Initial mass fractions by component name (default: all of the first component).
@@ -165,6 +175,10 @@ pub struct NumericsFile {
     pub min_step_s: Option<Spanned<f64>>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub iteration_tolerance_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub temperature_tolerance_k: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub conversion_tolerance: Option<Spanned<f64>>,
 }
 
 /// A scenario ready to run, with the files it came from.
@@ -255,6 +269,90 @@ fn apply_calibration(scenario: &mut Scenario, fitted: &super::material::Scenario
     }
 }
 
+/// The `[numerics]` settings that make a run impossible or endless, refused with the key and
+/// its line: the step limits must not contradict each other (`min_step_s` ≤ `max_step_s`,
+/// also when only one of them is given and the other is the default), and tolerances and caps
+/// must not be so small that no reasonable number of steps ends the run.
+fn check_numerics(
+    source: &Source,
+    file: &NumericsFile,
+    numerics: &Numerics,
+) -> Result<(), CaseError> {
+    use crate::physics::scenario::{
+        MIN_CONVERSION_CAP, MIN_CONVERSION_TOLERANCE, MIN_TEMPERATURE_CHANGE_CAP_K,
+        MIN_TEMPERATURE_TOLERANCE_K,
+    };
+    let refuse = |value: &Option<Spanned<f64>>, key: &str, problem: String| -> CaseError {
+        match value {
+            Some(value) => source.invalid(&value.span(), key, problem),
+            None => source.inconsistent(format!("`{key}` (default) {problem}")),
+        }
+    };
+    if numerics.min_step_s > numerics.max_step_s {
+        // Name the key the user wrote; if both, the minimum.
+        let (value, key) = if file.min_step_s.is_some() || file.max_step_s.is_none() {
+            (&file.min_step_s, "numerics.min_step_s")
+        } else {
+            (&file.max_step_s, "numerics.max_step_s")
+        };
+        return Err(refuse(
+            value,
+            key,
+            format!(
+                "makes the shortest step ({} s) longer than the longest ({} s); min_step_s must not exceed max_step_s",
+                numerics.min_step_s, numerics.max_step_s
+            ),
+        ));
+    }
+    if numerics.initial_step_s < numerics.min_step_s {
+        return Err(refuse(
+            &file.initial_step_s,
+            "numerics.initial_step_s",
+            format!(
+                "({} s) is shorter than min_step_s ({} s)",
+                numerics.initial_step_s, numerics.min_step_s
+            ),
+        ));
+    }
+    for (value, key, current, minimum) in [
+        (
+            &file.temperature_tolerance_k,
+            "numerics.temperature_tolerance_k",
+            numerics.temperature_tolerance_k,
+            MIN_TEMPERATURE_TOLERANCE_K,
+        ),
+        (
+            &file.conversion_tolerance,
+            "numerics.conversion_tolerance",
+            numerics.conversion_tolerance,
+            MIN_CONVERSION_TOLERANCE,
+        ),
+        (
+            &file.max_temperature_change_k,
+            "numerics.max_temperature_change_k",
+            numerics.max_temperature_change_k,
+            MIN_TEMPERATURE_CHANGE_CAP_K,
+        ),
+        (
+            &file.max_conversion_per_step,
+            "numerics.max_conversion_per_step",
+            numerics.max_conversion_per_step,
+            MIN_CONVERSION_CAP,
+        ),
+    ] {
+        if current < minimum {
+            return Err(refuse(
+                value,
+                key,
+                format!(
+                    "must be at least {minimum}, got {current}: smaller values need so many steps that the run cannot end"
+                ),
+            ));
+        }
+    }
+    Ok(())
+}
+
 fn optional(
     source: &Source,
     value: &Option<Spanned<f64>>,
@@ -298,6 +396,20 @@ fn build_scenario(
         } else {
             LayerRole::Backing
         });
+        let cell_growth = match &raw.cell_growth {
+            Some(growth) => {
+                let value = *growth.get_ref();
+                if !(value.is_finite() && (1.0..=100.0).contains(&value)) {
+                    return Err(source.invalid(
+                        &growth.span(),
+                        &key("cell_growth"),
+                        format!("must be within 1..100 (last cell over first), got {value}"),
+                    ));
+                }
+                value
+            }
+            None => DEFAULT_CELL_GROWTH,
+        };
         let n_cells = match &raw.cells {
             Some(cells) => {
                 let n = *cells.get_ref();
@@ -311,12 +423,12 @@ fn build_scenario(
                 n as usize
             }
             None => {
-                let cell_m = if role == LayerRole::Specimen {
-                    DEFAULT_SPECIMEN_CELL_M
+                let first_cell_m = if role == LayerRole::Specimen {
+                    DEFAULT_SPECIMEN_FIRST_CELL_M
                 } else {
-                    DEFAULT_BACKING_CELL_M
+                    DEFAULT_BACKING_FIRST_CELL_M
                 };
-                ((thickness_m / cell_m).round() as usize).clamp(5, 400)
+                crate::physics::scenario::cell_count_for(thickness_m, first_cell_m, cell_growth)
             }
         };
         let mut fractions = vec![0.0; material.components.len()];
@@ -368,6 +480,7 @@ fn build_scenario(
             initial_mass_fractions: fractions,
             is_specimen: role == LayerRole::Specimen,
             contact_resistance_m2_k_w: contact,
+            cell_growth,
         });
         materials.push(MaterialModel {
             file: material_file,
@@ -378,7 +491,17 @@ fn build_scenario(
 
     let exposure_file = &file.exposure;
     let irradiance_w_m2 = match (&exposure_file.irradiance_kw_m2, &exposure_file.irradiance_table) {
-        (Some(value), None) => Schedule::Constant(source.non_negative(value, "exposure.irradiance_kw_m2")? * 1e3),
+        (Some(value), None) => {
+            let irradiance_kw_m2 = source.non_negative(value, "exposure.irradiance_kw_m2")?;
+            if irradiance_kw_m2 > MAX_IRRADIANCE_KW_M2 {
+                return Err(source.invalid(
+                    &value.span(),
+                    "exposure.irradiance_kw_m2",
+                    format!("must be at most {MAX_IRRADIANCE_KW_M2} kW/m² (no fire test exposes a specimen to more), got {irradiance_kw_m2}"),
+                ));
+            }
+            Schedule::Constant(irradiance_kw_m2 * 1e3)
+        }
         (None, Some(table)) => {
             let points = table.get_ref();
             if points.is_empty() {
@@ -398,6 +521,13 @@ fn build_scenario(
                     &table.span(),
                     "exposure.irradiance_table",
                     format!("irradiance must be ≥ 0 kW/m², got {}", point[1]),
+                ));
+            }
+            if let Some(point) = points.iter().find(|p| p[1] > MAX_IRRADIANCE_KW_M2) {
+                return Err(source.invalid(
+                    &table.span(),
+                    "exposure.irradiance_table",
+                    format!("irradiance must be at most {MAX_IRRADIANCE_KW_M2} kW/m², got {}", point[1]),
                 ));
             }
             Schedule::Table(points.iter().map(|p| (p[0], p[1] * 1e3)).collect())
@@ -554,6 +684,20 @@ fn build_scenario(
     let defaults = Numerics::default();
     let n = &file.numerics;
     let numerics = Numerics {
+        temperature_tolerance_k: optional(
+            source,
+            &n.temperature_tolerance_k,
+            "numerics.temperature_tolerance_k",
+            defaults.temperature_tolerance_k,
+            Source::positive,
+        )?,
+        conversion_tolerance: optional(
+            source,
+            &n.conversion_tolerance,
+            "numerics.conversion_tolerance",
+            defaults.conversion_tolerance,
+            Source::fraction,
+        )?,
         max_temperature_change_k: optional(
             source,
             &n.max_temperature_change_k,
@@ -597,6 +741,7 @@ fn build_scenario(
             Source::positive,
         )?,
     };
+    check_numerics(source, n, &numerics)?;
     let scenario = Scenario {
         layers,
         exposure,

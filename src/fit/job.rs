@@ -1052,9 +1052,17 @@ fn build_case(
     };
     if let Some(thickness_mm) = thickness_mm {
         let layer = &mut case_scenario.scenario.layers[0];
-        let cell_m = layer.thickness_m / layer.n_cells as f64;
+        // Keep the grid rule: the same first cell and growth (docs/numerics.md, "Grid").
+        let first_cell_m = layer
+            .cell_thicknesses_m()
+            .next()
+            .unwrap_or(layer.thickness_m);
         layer.thickness_m = thickness_mm * 1e-3;
-        layer.n_cells = ((layer.thickness_m / cell_m).round() as usize).max(5);
+        layer.n_cells = crate::physics::scenario::cell_count_for(
+            layer.thickness_m,
+            first_cell_m * (1.0 + 1e-9),
+            layer.cell_growth,
+        );
     }
     case_scenario.scenario.output_interval_s = output_interval_s;
     let alignment = match raw.align {

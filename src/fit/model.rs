@@ -7,7 +7,7 @@ use rayon::prelude::*;
 
 use super::job::{CaseSetup, FitCase, FitJob, MilligramSetup, SignalData, SignalKind};
 use super::parameters::{apply_all, apply_to_material_all, FreeParameter};
-use crate::physics::simulate;
+use crate::physics::solver::{simulate_with, Workspace};
 use crate::physics::zero_d::{interpolate, simulate_zero_d, ZeroDHistory};
 
 /// Model values at the data times of one signal of one case.
@@ -63,10 +63,17 @@ impl<'a> CaseModel<'a> {
             layer.material = material.clone();
         }
         check_material(case, &material)?;
-        simulate(&scenario).map_err(|err| ModelError {
-            case: case.name.clone(),
-            message: err.to_string(),
-        })
+        // One solver workspace per worker thread, reused by every evaluation it runs (the
+        // result does not depend on it: `simulate_with` gives `simulate`'s bits).
+        thread_local! {
+            static WORKSPACE: std::cell::RefCell<Workspace> = std::cell::RefCell::new(Workspace::default());
+        }
+        WORKSPACE
+            .with(|workspace| simulate_with(&scenario, &mut workspace.borrow_mut()))
+            .map_err(|err| ModelError {
+                case: case.name.clone(),
+                message: err.to_string(),
+            })
     }
 
     /// Runs one milligram case's 0-D model with these parameter values (the job's material

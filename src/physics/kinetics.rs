@@ -43,6 +43,11 @@ pub struct StepMasses {
     pub masses: Vec<f64>,
     /// Mass of reactant consumed by each reaction during the step.
     pub consumed: Vec<f64>,
+    /// Per reaction, the fraction of its reactant's available mass left at the end of the
+    /// step (1 when none was available). For a first-order reactant this is 1/(1 + Δt·Σk), the
+    /// factor by which the step's consumption saturates: ∂(consumed)/∂k = consumed/k · this,
+    /// which the 1-D solver uses for the temperature derivative of the reaction heat.
+    pub remaining_fraction: Vec<f64>,
 }
 
 /// Advances component masses over `dt_s` at the rate constants given (one per reaction), by
@@ -64,6 +69,8 @@ pub fn advance_masses(
     out.masses.resize(n_components, 0.0);
     out.consumed.clear();
     out.consumed.resize(material.reactions.len(), 0.0);
+    out.remaining_fraction.clear();
+    out.remaining_fraction.resize(material.reactions.len(), 1.0);
     // Mass produced into each component during the step, filled as reactants are solved.
     let mut produced = [0.0f64; 16];
     let mut produced_vec;
@@ -114,6 +121,10 @@ pub fn advance_masses(
             total_consumed = available;
         }
         out.masses[component] = (available - total_consumed).max(0.0);
+        let remaining = out.masses[component] / available;
+        for (reaction_idx, _) in consuming() {
+            out.remaining_fraction[reaction_idx] = remaining;
+        }
         for (reaction_idx, reaction) in consuming() {
             if let Some(product) = reaction.product {
                 produced[product] += reaction.product_yield * out.consumed[reaction_idx];

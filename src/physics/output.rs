@@ -85,6 +85,21 @@ impl EnergyBudget {
         self.stored_j_m2 += other.stored_j_m2;
     }
 
+    /// (1 + θ)·self − θ·full, term by term: the budget of a Richardson-extrapolated step,
+    /// whose state is (1 + θ)·(two half steps) − θ·(one full step). The weights sum to 1 and
+    /// each budget closes, so this one does.
+    pub(crate) fn extrapolated(&self, full: &EnergyBudget, theta: f64) -> EnergyBudget {
+        let mix = |half: f64, full: f64| half + theta * (half - full);
+        EnergyBudget {
+            absorbed_j_m2: mix(self.absorbed_j_m2, full.absorbed_j_m2),
+            reradiated_j_m2: mix(self.reradiated_j_m2, full.reradiated_j_m2),
+            convected_j_m2: mix(self.convected_j_m2, full.convected_j_m2),
+            back_loss_j_m2: mix(self.back_loss_j_m2, full.back_loss_j_m2),
+            reaction_heat_j_m2: mix(self.reaction_heat_j_m2, full.reaction_heat_j_m2),
+            stored_j_m2: mix(self.stored_j_m2, full.stored_j_m2),
+        }
+    }
+
     /// absorbed − re-radiated − convected − back losses − reaction heat − stored, J/m².
     pub fn residual_j_m2(&self) -> f64 {
         self.absorbed_j_m2

@@ -29,6 +29,29 @@ pub struct Layer {
     pub is_specimen: bool,
     /// Thermal contact resistance between this layer and the one in front of it, m²·K/W.
     pub contact_resistance_m2_k_w: f64,
+    /// Thickness of the layer's last (deepest) cell over its first: 1 for a uniform grid,
+    /// above 1 for cells growing geometrically from the layer's front (the exposed side),
+    /// where the gradients are (docs/numerics.md, "Grid").
+    pub cell_growth: f64,
+}
+
+impl Layer {
+    /// Initial thickness of each of the layer's cells, front first, m: a geometric series of
+    /// ratio `cell_growth^(1/(n−1))` summing to the layer's thickness.
+    pub fn cell_thicknesses_m(&self) -> impl Iterator<Item = f64> + '_ {
+        let n = self.n_cells;
+        let ratio = if n > 1 && self.cell_growth != 1.0 {
+            self.cell_growth.powf(1.0 / (n - 1) as f64)
+        } else {
+            1.0
+        };
+        let first_m = if ratio == 1.0 {
+            self.thickness_m / n as f64
+        } else {
+            self.thickness_m * (ratio - 1.0) / (ratio.powi(n as i32) - 1.0)
+        };
+        (0..n).map(move |idx| first_m * ratio.powi(idx as i32))
+    }
 }
 
 /// A value that may change with time: constant or a (time s, value) table, linear between
@@ -145,12 +168,18 @@ pub struct Probe {
     pub depth_m: f64,
 }
 
-/// Step-size control and iteration tolerances.
+/// Step-size control and iteration tolerances (docs/numerics.md).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Numerics {
-    /// Largest temperature change of any cell or face in one step, K.
+    /// Local error tolerance on cell temperatures, K per step: the step is adapted so the
+    /// estimated local error of the first-order solution stays below it.
+    pub temperature_tolerance_k: f64,
+    /// Local error tolerance on the mass of a cell, as a fraction of its initial mass.
+    pub conversion_tolerance: f64,
+    /// Safety cap: largest temperature change of any cell in one step, K.
     pub max_temperature_change_k: f64,
-    /// Largest mass consumed in one cell in one step, as a fraction of its initial mass.
+    /// Safety cap: largest mass consumed in one cell in one step, as a fraction of its initial
+    /// mass.
     pub max_conversion_per_step: f64,
     /// First step, s.
     pub initial_step_s: f64,
@@ -163,15 +192,18 @@ pub struct Numerics {
 }
 
 impl Default for Numerics {
-    /// Defaults chosen so that halving the cell size and both step limits changes peak MLR
-    /// by less than 1% on the templates (measured in tests/integration/verification.rs).
+    /// Defaults chosen so that 4× the cells and 4× tighter tolerances change the ignition
+    /// time, peak HRR, its time, peak MLR and THR by less than 1 % on the templates
+    /// (tests/integration/numerics.rs; docs/numerics.md).
     fn default() -> Self {
         Numerics {
-            max_temperature_change_k: 8.0,
-            max_conversion_per_step: 0.1,
+            temperature_tolerance_k: 0.5,
+            conversion_tolerance: 0.02,
+            max_temperature_change_k: 50.0,
+            max_conversion_per_step: 0.5,
             initial_step_s: 0.05,
             max_step_s: 5.0,
-            min_step_s: 1e-7,
+            min_step_s: 1e-10,
             iteration_tolerance_k: 1e-2,
         }
     }
@@ -233,6 +265,12 @@ impl Scenario {
                 ));
             }
             require_non_negative(&what("contact resistance"), layer.contact_resistance_m2_k_w)?;
+            if !(layer.cell_growth.is_finite() && (1.0..=100.0).contains(&layer.cell_growth)) {
+                return Err(PhysicsError::invalid(
+                    &what("cell growth"),
+                    format!("must be within 1..100, got {}", layer.cell_growth),
+                ));
+            }
             if layer.is_specimen && layer_idx > 0 && !self.layers[layer_idx - 1].is_specimen {
                 return Err(PhysicsError::invalid(
                     &what("role"),
@@ -300,12 +338,88 @@ impl Scenario {
             }
         }
         let numerics = &self.numerics;
+        numerics.check()?;
+        Ok(())
+    }
+}
+
+/// The fewest cells (5..=400) for which a layer of `thickness_m` whose cells grow by
+/// `cell_growth` (last over first) has a first cell no thicker than `first_cell_m`.
+pub fn cell_count_for(thickness_m: f64, first_cell_m: f64, cell_growth: f64) -> usize {
+    let first_of = |n: usize| {
+        let ratio = if n > 1 {
+            cell_growth.powf(1.0 / (n - 1) as f64)
+        } else {
+            1.0
+        };
+        if ratio == 1.0 {
+            thickness_m / n as f64
+        } else {
+            thickness_m * (ratio - 1.0) / (ratio.powi(n as i32) - 1.0)
+        }
+    };
+    (5..=400)
+        .find(|&n| first_of(n) <= first_cell_m)
+        .unwrap_or(400)
+}
+
+/// Smallest tolerances and caps the solver accepts: below them a run needs so many steps that
+/// it cannot end (each step's cost is fixed, the step length scales as √tolerance).
+pub const MIN_TEMPERATURE_TOLERANCE_K: f64 = 1e-4;
+pub const MIN_CONVERSION_TOLERANCE: f64 = 1e-6;
+pub const MIN_TEMPERATURE_CHANGE_CAP_K: f64 = 1e-2;
+pub const MIN_CONVERSION_CAP: f64 = 1e-4;
+
+impl Numerics {
+    /// Rejects settings that make a run impossible (the step limits contradict each other)
+    /// or endless (caps so small that no reasonable number of steps ends the run).
+    pub fn check(&self) -> Result<(), PhysicsError> {
+        let numerics = self;
+        let at_least = |what: &str, value: f64, minimum: f64| {
+            if value.is_finite() && value >= minimum {
+                Ok(())
+            } else {
+                Err(PhysicsError::invalid(
+                    what,
+                    format!("must be at least {minimum}, got {value}"),
+                ))
+            }
+        };
+        at_least(
+            "temperature tolerance",
+            numerics.temperature_tolerance_k,
+            MIN_TEMPERATURE_TOLERANCE_K,
+        )?;
+        at_least(
+            "conversion tolerance",
+            numerics.conversion_tolerance,
+            MIN_CONVERSION_TOLERANCE,
+        )?;
+        at_least(
+            "max temperature change",
+            numerics.max_temperature_change_k,
+            MIN_TEMPERATURE_CHANGE_CAP_K,
+        )?;
+        at_least(
+            "max conversion per step",
+            numerics.max_conversion_per_step,
+            MIN_CONVERSION_CAP,
+        )?;
         require_positive("max temperature change", numerics.max_temperature_change_k)?;
         require_positive("max conversion per step", numerics.max_conversion_per_step)?;
         require_positive("initial step", numerics.initial_step_s)?;
         require_positive("max step", numerics.max_step_s)?;
         require_positive("min step", numerics.min_step_s)?;
         require_positive("iteration tolerance", numerics.iteration_tolerance_k)?;
+        if numerics.min_step_s > numerics.max_step_s {
+            return Err(PhysicsError::invalid(
+                "min step",
+                format!(
+                    "({} s) must not exceed the max step ({} s)",
+                    numerics.min_step_s, numerics.max_step_s
+                ),
+            ));
+        }
         Ok(())
     }
 }

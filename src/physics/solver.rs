@@ -1,13 +1,18 @@
-//! The 1-D transient conduction–pyrolysis solver (physics.md §1): conservative finite volumes,
-//! backward Euler with iteration on the non-linear terms, one tridiagonal solve per iteration,
-//! adaptive steps bounded by temperature change and conversion, and the events (ignition,
-//! flame-out) that switch the flame on and off.
+//! The 1-D transient conduction–pyrolysis solver (physics.md §1; the numerics in
+//! docs/numerics.md): conservative finite volumes on a grid stretched toward the exposed face;
+//! each step is extrapolated backward Euler (one step of Δt and two of Δt/2, combined as
+//! y_{Δt/2} + θ·(y_{Δt/2} − y_{Δt}), θ = 1 for second order, less only where a mass would go
+//! negative), the difference of the two giving the local error that
+//! sets the next step; every implicit solve is Newton's method on the non-linear terms with a
+//! tridiagonal Jacobian; ignition and flame-out are located by shortening the step to them.
 //!
 //! Unknowns of each solve are the exposed-face temperature (a node without heat capacity whose
 //! row is the face balance), the cell temperatures, and the back-face temperature. Masses are
 //! advanced implicitly by `kinetics::advance_masses` at each iterate's temperatures.
 
-use super::kinetics::{advance_masses, rate_constant_per_s, StepMasses, GAS_CONSTANT_J_MOL_K};
+use super::kinetics::{
+    advance_masses, rate_constant_per_s, reaction_rate, StepMasses, GAS_CONSTANT_J_MOL_K,
+};
 use super::material::Material;
 use super::output::{CellSnapshot, EnergyBudget, History, MassBudget, Sample, Summary};
 use super::scenario::{BackFace, IgnitionRule, Scenario, STEFAN_BOLTZMANN_W_M2_K4};
@@ -23,15 +28,43 @@ const MERGE_MASS_FRACTION: f64 = 1e-6;
 /// temperature-change limit on the step: with almost no heat capacity they follow their
 /// neighbours at once, like the face.
 const NEGLIGIBLE_MASS_FRACTION: f64 = 1e-3;
-/// Iterations on the non-linear terms before a step is retried shorter.
+/// Newton iterations on the non-linear terms before a step is retried shorter.
 const MAX_ITERATIONS: usize = 40;
+/// A step never grows by more than this factor, nor shrinks by more on an error rejection.
+const MAX_GROWTH: f64 = 2.0;
+const MIN_SHRINK: f64 = 0.2;
+/// Safety factor of the step controller.
+const SAFETY: f64 = 0.85;
+/// An event (ignition, flame-out) is located to within this fraction of the run time so far
+/// (and at least `EVENT_TOLERANCE_FLOOR_S`).
+const EVENT_TOLERANCE_RELATIVE: f64 = 1e-4;
+const EVENT_TOLERANCE_FLOOR_S: f64 = 1e-5;
 
 /// Runs the scenario to its end and returns the sampled curves and the summary.
 pub fn simulate(scenario: &Scenario) -> Result<History, PhysicsError> {
+    simulate_with(scenario, &mut Workspace::default())
+}
+
+/// Work arrays of the solver. A fit that runs many simulations keeps one per thread and passes
+/// it to `simulate_with`, so no evaluation allocates them again; the result does not depend on
+/// what the workspace held before.
+#[derive(Default)]
+pub struct Workspace {
+    work: Work,
+}
+
+/// `simulate` with a caller-kept workspace (the same result, bit for bit).
+pub fn simulate_with(
+    scenario: &Scenario,
+    workspace: &mut Workspace,
+) -> Result<History, PhysicsError> {
     scenario.check()?;
-    let mut solver = Solver::new(scenario);
-    solver.run()?;
-    Ok(solver.finish())
+    let mut solver = Solver::new(scenario, std::mem::take(&mut workspace.work));
+    let outcome = solver.run();
+    let (history, work) = solver.finish();
+    workspace.work = work;
+    outcome?;
+    Ok(history)
 }
 
 /// Cell properties at one iterate, all per unit exposed area.
@@ -65,16 +98,20 @@ struct Solver<'a> {
     has_exceeded_flameout_threshold: bool,
     ignition_time_s: Option<f64>,
     flameout_time_s: Option<f64>,
-    /// Fuel flux and surface temperature at the end of the last accepted step.
+    /// Fuel flux (instantaneous, from the state) and surface temperature at the end of the
+    /// last accepted step.
     last_fuel_flux_kg_m2_s: f64,
     last_surface_temperature_k: f64,
     energy: EnergyBudget,
     initial_mass_all_kg_m2: f64,
     released_gas_kg_m2: f64,
     specimen_initial_mass_kg_m2: f64,
-    total_heat_release_j_m2: f64,
-    peak_hrr: (f64, f64),
-    peak_mlr: (f64, f64),
+    /// Released so far by the specimen: gas (kg/m²), fuel (kg/m²), heat of combustion (J/m²).
+    cumulative: [f64; 3],
+    /// `cumulative` at each row's upper edge (the row time plus half an interval), from which
+    /// the rows' interval-mean rates are made at the end.
+    row_edges: Vec<[f64; 3]>,
+    next_edge_s: f64,
     rate_weighted_temperature: f64,
     n_steps: usize,
     n_rejected: usize,
@@ -84,6 +121,7 @@ struct Solver<'a> {
     last_dt_s: f64,
     samples: Vec<Sample>,
     previous_sample: Sample,
+    current_sample: Sample,
     next_output_s: f64,
     // Work arrays, reused between steps.
     work: Work,
@@ -104,6 +142,25 @@ struct Work {
     scratch: Vec<f64>,
     iterate_k: Vec<f64>,
     solution_k: Vec<f64>,
+    // The full step's solution, the start state while the second half step runs, and the
+    // first half step's consumption.
+    full_k: Vec<f64>,
+    full_masses: Vec<f64>,
+    full_consumed: Vec<f64>,
+    start_k: Vec<f64>,
+    start_masses: Vec<f64>,
+    half_consumed: Vec<f64>,
+    thicknesses_m: Vec<f64>,
+}
+
+/// What one attempted step came to.
+enum Attempt {
+    Accepted(StepResult),
+    /// Retry with this step; `converged` is false when an implicit solve failed.
+    Rejected {
+        retry_dt_s: f64,
+        converged: bool,
+    },
 }
 
 /// What one accepted step contributed.
@@ -117,7 +174,7 @@ struct StepResult {
 }
 
 impl<'a> Solver<'a> {
-    fn new(scenario: &'a Scenario) -> Self {
+    fn new(scenario: &'a Scenario, mut work: Work) -> Self {
         let stride = scenario
             .layers
             .iter()
@@ -134,8 +191,8 @@ impl<'a> Solver<'a> {
                 .zip(&layer.material.components)
                 .map(|(w, c)| w / c.density_kg_m3)
                 .sum();
-            let cell_mass = layer.thickness_m / layer.n_cells as f64 / specific_volume;
-            for _ in 0..layer.n_cells {
+            for cell_thickness_m in layer.cell_thicknesses_m() {
+                let cell_mass = cell_thickness_m / specific_volume;
                 cell_layer.push(layer_idx);
                 for component_idx in 0..stride {
                     let fraction = layer
@@ -179,25 +236,33 @@ impl<'a> Solver<'a> {
             initial_mass_all_kg_m2,
             released_gas_kg_m2: 0.0,
             specimen_initial_mass_kg_m2,
-            total_heat_release_j_m2: 0.0,
-            peak_hrr: (0.0, 0.0),
-            peak_mlr: (0.0, 0.0),
+            cumulative: [0.0; 3],
+            row_edges: Vec::with_capacity(
+                (scenario.duration_s / scenario.output_interval_s).min(1e7) as usize + 2,
+            ),
+            next_edge_s: 0.5 * scenario.output_interval_s,
             rate_weighted_temperature: 0.0,
             n_steps: 0,
             n_rejected: 0,
             n_iterations: 0,
-            last_change_k: Vec::new(),
+            last_change_k: std::mem::take(&mut work.full_consumed),
             last_dt_s: 0.0,
-            samples: Vec::new(),
+            samples: Vec::with_capacity(
+                (scenario.duration_s / scenario.output_interval_s).min(1e7) as usize + 2,
+            ),
             previous_sample: Sample::default(),
+            current_sample: Sample::default(),
             next_output_s: 0.0,
-            work: Work::default(),
+            work,
         };
+        solver.last_change_k.clear();
         if let IgnitionRule::AtTime(0.0) = scenario.ignition {
             solver.ignite(0.0);
         }
-        solver.previous_sample = solver.sample(0.0, [0.0, 0.0, 0.0], None);
-        solver.samples.push(solver.previous_sample.clone());
+        let mut first = Sample::default();
+        solver.fill_sample(0.0, None, &mut first);
+        solver.samples.push(first.clone());
+        solver.previous_sample = first;
         solver.next_output_s = scenario.output_interval_s;
         solver
     }
@@ -233,36 +298,119 @@ impl<'a> Solver<'a> {
                     dt_s = ignition_s - self.time_s;
                 }
             }
-            match self.try_step(dt_s)? {
-                Some(result) => self.accept(dt_s, result),
-                None => {
-                    self.n_rejected += 1;
-                    self.dt_s = 0.5 * dt_s;
-                    if self.dt_s < numerics.min_step_s {
-                        return Err(PhysicsError::NoConvergence {
-                            time_s: self.time_s,
-                            detail: format!(
-                                "time step fell below {} s (the surface is at {:.1} K)",
-                                numerics.min_step_s, self.temperature_k[0]
-                            ),
-                        });
+            match self.try_step(dt_s) {
+                Attempt::Accepted(result) => {
+                    // An event inside the step: redo the step so it ends just past the event.
+                    match self.event_inside_step(dt_s) {
+                        Some(event_s) if dt_s > numerics.min_step_s => {
+                            self.n_rejected += 1;
+                            let tolerance_s =
+                                (EVENT_TOLERANCE_RELATIVE * event_s).max(EVENT_TOLERANCE_FLOOR_S);
+                            self.dt_s = (event_s - self.time_s + 0.5 * tolerance_s)
+                                .max(numerics.min_step_s)
+                                .min(0.5 * dt_s.max(numerics.min_step_s));
+                        }
+                        _ => self.accept(dt_s, result),
                     }
+                }
+                Attempt::Rejected {
+                    retry_dt_s,
+                    converged,
+                } => {
+                    self.n_rejected += 1;
+                    if dt_s <= numerics.min_step_s * (1.0 + 1e-9) {
+                        return Err(self.stalled(converged));
+                    }
+                    self.dt_s = retry_dt_s.max(numerics.min_step_s);
                 }
             }
         }
         Ok(())
     }
 
-    /// Attempts one step of `dt_s`; `None` when it must be retried shorter. On success the new
-    /// state is in `work.solution_k` and `work.new_masses`.
-    fn try_step(&mut self, dt_s: f64) -> Result<Option<StepResult>, PhysicsError> {
+    /// The error when even the shortest step fails: names the time, the hottest cell and the
+    /// reaction releasing or taking the most heat there.
+    fn stalled(&self, converged: bool) -> PhysicsError {
+        let numerics = self.scenario.numerics;
+        let mut hottest = 0;
+        for cell_idx in 0..self.n_cells() {
+            if self.temperature_k[cell_idx + 1] > self.temperature_k[hottest + 1] {
+                hottest = cell_idx;
+            }
+        }
+        let mut detail = format!(
+            "{} at a step of {} s (numerics.min_step_s); the surface is at {:.1} K",
+            if converged {
+                "the local error stays above the tolerance"
+            } else {
+                "the implicit solve does not converge"
+            },
+            numerics.min_step_s,
+            self.temperature_k[0]
+        );
+        if self.n_cells() > 0 {
+            let temperature_k = self.temperature_k[hottest + 1];
+            let material = self.material(hottest);
+            let masses = &self.masses[hottest * self.stride..];
+            let strongest = material
+                .reactions
+                .iter()
+                .enumerate()
+                .map(|(idx, r)| {
+                    let k = rate_constant_per_s(
+                        r.pre_exponential_per_s,
+                        r.activation_energy_j_mol,
+                        temperature_k,
+                    );
+                    (
+                        idx,
+                        (k * masses[r.reactant] * r.heat_of_reaction_j_kg).abs(),
+                        k,
+                    )
+                })
+                .max_by(|a, b| a.1.total_cmp(&b.1));
+            detail += &format!(
+                "; the hottest cell is {} of {} (layer {}, {:.1} K)",
+                hottest + 1,
+                self.n_cells(),
+                self.cell_layer[hottest] + 1,
+                temperature_k
+            );
+            if let Some((idx, heat, k)) = strongest {
+                detail += &format!(
+                    ", where reaction {} (of `{}`) has a rate constant of {k:.3e} 1/s and a heat rate of {:.3e} W/m²",
+                    idx + 1,
+                    material.components[material.reactions[idx].reactant].name,
+                    heat
+                );
+            }
+        }
+        PhysicsError::NoConvergence {
+            time_s: self.time_s,
+            detail,
+        }
+    }
+
+    /// One step of `dt_s` by extrapolated backward Euler. On acceptance the new state is in
+    /// `work.solution_k`, `work.new_masses` and `work.consumed`, and `self.dt_s` is the next
+    /// step the error control proposes.
+    fn try_step(&mut self, dt_s: f64) -> Attempt {
+        let mut work = std::mem::take(&mut self.work);
+        let attempt = self.extrapolated_step(&mut work, dt_s);
+        self.work = work;
+        attempt
+    }
+
+    fn extrapolated_step(&mut self, work: &mut Work, dt_s: f64) -> Attempt {
         let numerics = self.scenario.numerics;
         let n_cells = self.n_cells();
         let n_nodes = n_cells + 2;
-        let time_new_s = self.time_s + dt_s;
-        let mut work = std::mem::take(&mut self.work);
-        // First iterate: the last step's trend carried forward (a cheap predictor that saves
-        // about one iteration per step); the converged answer does not depend on it.
+        let failed = Attempt::Rejected {
+            retry_dt_s: 0.5 * dt_s,
+            converged: false,
+        };
+        // First guess: the last step's trend carried forward; the converged answer does not
+        // depend on it.
         work.iterate_k.clear();
         work.iterate_k.extend_from_slice(&self.temperature_k);
         if self.last_change_k.len() == n_nodes && self.last_dt_s > 0.0 {
@@ -271,20 +419,154 @@ impl<'a> Solver<'a> {
                 *guess += ratio * change;
             }
         }
-        let mut converged = false;
+        let Some(full_budget) = self.implicit_solve(work, dt_s) else {
+            return failed;
+        };
+        work.full_k.clone_from(&work.solution_k);
+        work.full_masses.clone_from(&work.new_masses);
+        work.full_consumed.clone_from(&work.consumed);
+        // First half step, from a guess halfway to the full step's answer.
+        work.iterate_k.clear();
+        work.iterate_k.extend(
+            self.temperature_k
+                .iter()
+                .zip(&work.full_k)
+                .map(|(a, b)| 0.5 * (a + b)),
+        );
+        let half_dt_s = 0.5 * dt_s;
+        let Some(first_budget) = self.implicit_solve(work, half_dt_s) else {
+            return failed;
+        };
+        work.half_consumed.clone_from(&work.consumed);
+        // Second half step from the midpoint: the midpoint state goes into `self` for the
+        // solve, the start state waits in `work.start_*`.
+        std::mem::swap(&mut self.temperature_k, &mut work.solution_k);
+        std::mem::swap(&mut self.masses, &mut work.new_masses);
+        std::mem::swap(&mut work.start_k, &mut work.solution_k);
+        std::mem::swap(&mut work.start_masses, &mut work.new_masses);
+        let start_time_s = self.time_s;
+        self.time_s = start_time_s + half_dt_s;
+        work.iterate_k.clone_from(&work.full_k);
+        let second = self.implicit_solve(work, half_dt_s);
+        self.time_s = start_time_s;
+        std::mem::swap(&mut self.temperature_k, &mut work.start_k);
+        std::mem::swap(&mut self.masses, &mut work.start_masses);
+        let Some(second_budget) = second else {
+            return failed;
+        };
+        // Local error of the first-order solution (the two half steps) against the full step,
+        // and the safety caps on what one step may change.
+        let stride = self.stride;
+        let (mut temperature_error, mut mass_error) = (0.0f64, 0.0f64);
+        let (mut temperature_change, mut conversion) = (0.0f64, 0.0f64);
+        let reaction_stride = self.reaction_stride();
+        for cell_idx in 0..n_cells {
+            let reference = self.reference_mass[cell_idx];
+            let half = &work.new_masses[cell_idx * stride..][..stride];
+            let full = &work.full_masses[cell_idx * stride..][..stride];
+            let mass: f64 = half.iter().sum();
+            if mass >= NEGLIGIBLE_MASS_FRACTION * reference {
+                let node = cell_idx + 1;
+                temperature_error =
+                    temperature_error.max((work.solution_k[node] - work.full_k[node]).abs());
+                temperature_change = temperature_change
+                    .max((work.solution_k[node] - self.temperature_k[node]).abs());
+            }
+            let difference: f64 = half.iter().zip(full).map(|(a, b)| (a - b).abs()).sum();
+            mass_error = mass_error.max(difference / reference);
+            let consumed: f64 = (0..reaction_stride)
+                .map(|r| {
+                    let idx = cell_idx * reaction_stride + r;
+                    work.half_consumed[idx] + work.consumed[idx]
+                })
+                .sum();
+            conversion = conversion.max(consumed / reference);
+        }
+        let error_ratio = (temperature_error / numerics.temperature_tolerance_k)
+            .max(mass_error / numerics.conversion_tolerance);
+        let cap_ratio = (temperature_change / numerics.max_temperature_change_k)
+            .max(conversion / numerics.max_conversion_per_step);
+        if !error_ratio.is_finite() || !cap_ratio.is_finite() {
+            return failed;
+        }
+        // The error of backward Euler over a step grows as Δt², the caps' quantities as Δt.
+        let factor = (SAFETY / error_ratio.sqrt())
+            .min(SAFETY / cap_ratio)
+            .min(MAX_GROWTH);
+        if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
+            return Attempt::Rejected {
+                retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
+                converged: true,
+            };
+        }
+        self.dt_s = (dt_s * factor.max(MIN_SHRINK))
+            .max(numerics.min_step_s)
+            .min(numerics.max_step_s);
+        // Richardson extrapolation y_h + θ·(y_h − y_full), θ = 1 (second order) unless that
+        // would make a mass or a consumption negative (a reactant used up within the step):
+        // then θ is the largest value in [0, 1] that keeps them non-negative. θ is continuous
+        // in the state, so the result is a smooth function of the inputs (a fit's objective
+        // has no jumps from switching the extrapolation on and off). Weights 1 + θ and −θ
+        // sum to 1, so mass and energy still close.
+        let mut budget = first_budget;
+        budget.add(&second_budget);
+        for idx in 0..work.consumed.len() {
+            work.consumed[idx] += work.half_consumed[idx];
+        }
+        let limit = |theta: f64, half: f64, full: f64| {
+            // half + θ·(half − full) ≥ 0 needs θ ≤ half / (full − half) when full > half.
+            if full > half {
+                theta.min((half / (full - half)).max(0.0))
+            } else {
+                theta
+            }
+        };
+        let mut theta = 1.0f64;
+        for (&h, &f) in work.new_masses.iter().zip(&work.full_masses) {
+            theta = limit(theta, h, f);
+        }
+        for (&h, &f) in work.consumed.iter().zip(&work.full_consumed) {
+            theta = limit(theta, h, f);
+        }
+        for (&h, &f) in work.solution_k.iter().zip(&work.full_k) {
+            // Temperatures stay above half their first-order value.
+            theta = limit(theta, 0.5 * h, f - 0.5 * h);
+        }
+        if theta > 0.0 {
+            let combine = |half: f64, full: f64| half + theta * (half - full);
+            budget = budget.extrapolated(&full_budget, theta);
+            for (h, f) in work.solution_k.iter_mut().zip(&work.full_k) {
+                *h = combine(*h, *f);
+            }
+            for (h, f) in work.new_masses.iter_mut().zip(&work.full_masses) {
+                *h = combine(*h, *f).max(0.0);
+            }
+            for (h, f) in work.consumed.iter_mut().zip(&work.full_consumed) {
+                *h = combine(*h, *f).max(0.0);
+            }
+        }
+        Attempt::Accepted(self.step_result(work, budget))
+    }
+
+    /// One backward-Euler step of `dt_s` from the state in `self`, by Newton iteration from
+    /// the guess in `work.iterate_k`. The answer is in `work.solution_k`, `work.new_masses`
+    /// and `work.consumed`; `None` when it does not converge.
+    fn implicit_solve(&mut self, work: &mut Work, dt_s: f64) -> Option<EnergyBudget> {
+        let numerics = self.scenario.numerics;
+        let time_new_s = self.time_s + dt_s;
         let mut budget = EnergyBudget::default();
+        let mut converged = false;
         for _ in 0..MAX_ITERATIONS {
             self.n_iterations += 1;
-            self.evaluate_cells(&mut work, dt_s);
-            let face_absorbed_w_m2 = self.deposit_radiation(&mut work, time_new_s);
-            budget = self.assemble_and_solve(&mut work, dt_s, face_absorbed_w_m2);
+            self.evaluate_cells(work, dt_s);
+            let face_absorbed_w_m2 = self.deposit_radiation(work, time_new_s);
+            budget = self.assemble_and_solve(work, dt_s, face_absorbed_w_m2);
             let change = work
                 .solution_k
                 .iter()
                 .zip(&work.iterate_k)
                 .map(|(a, b)| (a - b).abs())
                 .fold(0.0, f64::max);
-            std::mem::swap(&mut work.iterate_k, &mut work.solution_k);
             if !change.is_finite() {
                 break;
             }
@@ -292,51 +574,99 @@ impl<'a> Solver<'a> {
                 converged = true;
                 break;
             }
-        }
-        // After the swap, `iterate_k` holds the last solution.
-        std::mem::swap(&mut work.iterate_k, &mut work.solution_k);
-        let outcome = if !converged || work.solution_k.iter().any(|t| !t.is_finite() || *t <= 0.0) {
-            None
-        } else {
-            // Cells only: the face and back nodes have no heat capacity and follow at once, as
-            // do cells that have lost almost all their mass.
-            let mut temperature_change: f64 = 0.0;
-            for cell_idx in 0..n_cells {
-                let mass: f64 = work.new_masses[cell_idx * self.stride..][..self.stride]
-                    .iter()
-                    .sum();
-                if mass >= NEGLIGIBLE_MASS_FRACTION * self.reference_mass[cell_idx] {
-                    let node = cell_idx + 1;
-                    temperature_change = temperature_change
-                        .max((work.solution_k[node] - self.temperature_k[node]).abs());
+            // T⁴ re-radiation also balances at a negative face temperature: keep the iterates
+            // on the physical branch (a strongly exothermic cell can throw the guess there).
+            for (value, &old) in work.solution_k.iter_mut().zip(&self.temperature_k) {
+                if *value <= 0.0 {
+                    *value = 0.5 * old;
                 }
             }
-            let mut conversion: f64 = 0.0;
-            for cell_idx in 0..n_cells {
-                let consumed: f64 = work.consumed[cell_idx * self.reaction_stride()..]
-                    [..self.reaction_stride()]
-                    .iter()
-                    .sum();
-                conversion = conversion.max(consumed / self.reference_mass[cell_idx]);
+            std::mem::swap(&mut work.iterate_k, &mut work.solution_k);
+        }
+        let valid = converged && work.solution_k.iter().all(|t| t.is_finite() && *t > 0.0);
+        valid.then_some(budget)
+    }
+
+    /// The fuel mass flux of the specimen at the state given (instantaneous rates), kg/(m²·s).
+    fn fuel_flux_kg_m2_s(&self, temperature_k: &[f64], masses: &[f64]) -> f64 {
+        let mut flux = 0.0;
+        for cell_idx in 0..self.n_cells() {
+            let layer = &self.scenario.layers[self.cell_layer[cell_idx]];
+            if !layer.is_specimen {
+                continue;
             }
-            let temperature_ratio = temperature_change / numerics.max_temperature_change_k;
-            let conversion_ratio = conversion / numerics.max_conversion_per_step;
-            let worst = temperature_ratio.max(conversion_ratio);
-            if worst > 1.0 && dt_s > numerics.min_step_s {
-                None
-            } else {
-                let growth = if worst > 0.0 {
-                    (0.9 / worst).min(2.0)
-                } else {
-                    2.0
-                };
-                self.dt_s = (dt_s * growth).clamp(numerics.min_step_s, numerics.max_step_s);
-                Some(self.step_result(&work, budget))
+            let cell_masses = &masses[cell_idx * self.stride..];
+            for reaction in &layer.material.reactions {
+                let k = rate_constant_per_s(
+                    reaction.pre_exponential_per_s,
+                    reaction.activation_energy_j_mol,
+                    temperature_k[cell_idx + 1],
+                );
+                let rate = reaction_rate(
+                    k,
+                    cell_masses[reaction.reactant],
+                    self.reference_mass[cell_idx],
+                    reaction.order,
+                );
+                flux += rate * (1.0 - reaction.product_yield) * reaction.gas.fuel_fraction;
             }
+        }
+        flux
+    }
+
+    /// The quantity the flame rule watches, at the candidate state in `work`, and its level:
+    /// `Some((value_before, value_after, level, upward))` when an event may happen this step.
+    fn watched_crossing(&self) -> Option<(f64, f64, f64, bool)> {
+        let work = &self.work;
+        let may_ignite = !self.is_flaming
+            && (self.ignition_time_s.is_none() || self.scenario.flameout.may_reignite);
+        if may_ignite {
+            match self.scenario.ignition {
+                IgnitionRule::CriticalFuelMassFlux(critical) => Some((
+                    self.last_fuel_flux_kg_m2_s,
+                    self.fuel_flux_kg_m2_s(&work.solution_k, &work.new_masses),
+                    critical,
+                    true,
+                )),
+                IgnitionRule::SurfaceTemperature(critical_k) => Some((
+                    self.last_surface_temperature_k,
+                    work.solution_k[0],
+                    critical_k,
+                    true,
+                )),
+                IgnitionRule::AtTime(_) | IgnitionRule::Never => None,
+            }
+        } else if self.is_flaming && self.has_exceeded_flameout_threshold {
+            Some((
+                self.last_fuel_flux_kg_m2_s,
+                self.fuel_flux_kg_m2_s(&work.solution_k, &work.new_masses),
+                self.scenario.flameout.threshold_fuel_mass_flux_kg_m2_s,
+                false,
+            ))
+        } else {
+            None
+        }
+    }
+
+    /// The time of an event that falls inside the candidate step of `dt_s` and not within the
+    /// event tolerance of its end.
+    fn event_inside_step(&self, dt_s: f64) -> Option<f64> {
+        let (before, after, level, upward) = self.watched_crossing()?;
+        let t0 = self.time_s;
+        let t1 = t0 + dt_s;
+        let event_s = if upward {
+            if before >= level {
+                return None;
+            }
+            crossing_time(t0, before, t1, after, level)?
+        } else {
+            if before < level {
+                return None;
+            }
+            crossing_time(t0, -before, t1, -after, -level)?
         };
-        debug_assert_eq!(work.solution_k.len(), n_nodes);
-        self.work = work;
-        Ok(outcome)
+        let tolerance_s = (EVENT_TOLERANCE_RELATIVE * event_s).max(EVENT_TOLERANCE_FLOOR_S);
+        (t1 - event_s > tolerance_s).then_some(event_s)
     }
 
     fn reaction_stride(&self) -> usize {
@@ -391,13 +721,16 @@ impl<'a> Solver<'a> {
                     work.consumed[cell_idx * reaction_stride + reaction_idx] = consumed;
                     let heat_w_m2 = consumed / dt_s * reaction.heat_of_reaction_j_kg;
                     properties.reaction_heat_w_m2 += heat_w_m2;
+                    // Newton: ∂(heat)/∂T through k(T), with the step's saturation (a reactant
+                    // used up within the step gives no more heat however hot the cell is).
+                    // Negative for exothermic reactions: the diagonal weakens and a runaway is
+                    // followed by shorter steps.
                     properties.reaction_heat_slope_w_m2_k += heat_w_m2
                         * reaction.activation_energy_j_mol
-                        / (GAS_CONSTANT_J_MOL_K * temperature_k * temperature_k);
+                        / (GAS_CONSTANT_J_MOL_K * temperature_k * temperature_k)
+                        * work.step_masses.remaining_fraction[reaction_idx];
                 }
             }
-            // Exothermic reactions would weaken the diagonal: their heat is lagged instead.
-            properties.reaction_heat_slope_w_m2_k = properties.reaction_heat_slope_w_m2_k.max(0.0);
             let new = &work.new_masses[cell_idx * self.stride..][..material.components.len()];
             let mut thickness_m = 0.0;
             let mut conductivity_volume = 0.0;
@@ -649,14 +982,14 @@ impl<'a> Solver<'a> {
                 }
             }
         }
-        if !self.is_flaming {
-            result.heat_release_j_m2 = 0.0;
-        }
+        // The heat of combustion of all the fuel released; `accept` keeps the part released
+        // while the flame was on.
         result
     }
 
     fn accept(&mut self, dt_s: f64, result: StepResult) {
         let mut work = std::mem::take(&mut self.work);
+        let fuel_flux_now = self.fuel_flux_kg_m2_s(&work.solution_k, &work.new_masses);
         self.last_change_k.clear();
         self.last_change_k.extend(
             work.solution_k
@@ -673,26 +1006,46 @@ impl<'a> Solver<'a> {
         self.n_steps += 1;
         self.energy.add(&result.budget);
         self.released_gas_kg_m2 += result.released_gas_kg_m2;
-        self.total_heat_release_j_m2 += result.heat_release_j_m2;
-        let mlr = result.specimen_gas_kg_m2 / dt_s;
-        let fuel_flux = result.specimen_fuel_kg_m2 / dt_s;
-        let hrr = result.heat_release_j_m2 / dt_s;
         self.rate_weighted_temperature += result.rate_weighted_temperature_sum;
-        if hrr > self.peak_hrr.0 {
-            self.peak_hrr = (hrr, self.time_s);
+        // Cumulative releases, linear within the step (its rates are the step means).
+        let before = self.cumulative;
+        self.cumulative[0] += result.specimen_gas_kg_m2;
+        self.cumulative[1] += result.specimen_fuel_kg_m2;
+        // The flame's part of the step: all of it, none, or the part after an ignition or
+        // before a flame-out inside the step, so the heat release is continuous in the event
+        // time (the step ends within the event tolerance of it).
+        let was_flaming = self.is_flaming;
+        let event_s = self.update_flame(previous_time_s, fuel_flux_now);
+        let flame_fraction = match (was_flaming, self.is_flaming, event_s) {
+            (true, true, _) => 1.0,
+            (false, true, Some(t)) => ((self.time_s - t) / dt_s).clamp(0.0, 1.0),
+            (true, false, Some(t)) => ((t - previous_time_s) / dt_s).clamp(0.0, 1.0),
+            (false, true, None) => 1.0,
+            _ => 0.0,
+        };
+        self.cumulative[2] += result.heat_release_j_m2 * flame_fraction;
+        let duration_s = self.scenario.duration_s;
+        let interval_s = self.scenario.output_interval_s;
+        while self.next_edge_s <= self.time_s * (1.0 + 1e-12)
+            && self.next_edge_s <= duration_s * (1.0 + 1e-12)
+        {
+            let fraction = ((self.next_edge_s - previous_time_s) / dt_s).clamp(0.0, 1.0);
+            let mut edge = [0.0; 3];
+            for idx in 0..3 {
+                edge[idx] = before[idx] + (self.cumulative[idx] - before[idx]) * fraction;
+            }
+            self.row_edges.push(edge);
+            self.next_edge_s += interval_s;
         }
-        if mlr > self.peak_mlr.0 {
-            self.peak_mlr = (mlr, self.time_s);
-        }
-        self.update_flame(previous_time_s, fuel_flux);
-        self.last_fuel_flux_kg_m2_s = fuel_flux;
+        self.last_fuel_flux_kg_m2_s = fuel_flux_now;
         self.last_surface_temperature_k = self.temperature_k[0];
         self.merge_burnt_cells();
         let gasification_k = (result.specimen_gas_kg_m2 > 0.0)
             .then(|| result.rate_weighted_temperature_sum / result.specimen_gas_kg_m2);
-        let current = self.sample(self.time_s, [mlr, fuel_flux, hrr], gasification_k);
+        let mut current = std::mem::take(&mut self.current_sample);
+        self.fill_sample(self.time_s, gasification_k, &mut current);
         while self.next_output_s <= self.time_s * (1.0 + 1e-12)
-            && self.next_output_s <= self.scenario.duration_s * (1.0 + 1e-12)
+            && self.next_output_s <= duration_s * (1.0 + 1e-12)
         {
             let fraction = if self.time_s > self.previous_sample.time_s {
                 ((self.next_output_s - self.previous_sample.time_s)
@@ -704,13 +1057,17 @@ impl<'a> Solver<'a> {
             let mut row = self.previous_sample.interpolate(&current, fraction);
             row.time_s = self.next_output_s;
             self.samples.push(row);
-            self.next_output_s += self.scenario.output_interval_s;
+            self.next_output_s += interval_s;
         }
-        self.previous_sample = current;
+        std::mem::swap(&mut self.previous_sample, &mut current);
+        self.current_sample = current;
     }
 
-    /// Ignition and flame-out after a step that ended at `self.time_s`.
-    fn update_flame(&mut self, previous_time_s: f64, fuel_flux: f64) {
+    /// Ignition and flame-out after a step that ended at `self.time_s`; `fuel_flux` is the
+    /// instantaneous fuel mass flux there. Steps are shortened to end at these events
+    /// (`event_inside_step`), so the crossing found here lies within the event tolerance.
+    /// Returns the time of the ignition or flame-out that happened, if one did.
+    fn update_flame(&mut self, previous_time_s: f64, fuel_flux: f64) -> Option<f64> {
         let may_ignite = !self.is_flaming
             && (self.ignition_time_s.is_none() || self.scenario.flameout.may_reignite);
         if may_ignite {
@@ -737,14 +1094,28 @@ impl<'a> Solver<'a> {
             if let Some(time_s) = crossing {
                 self.ignite(time_s);
             }
+            crossing
         } else if self.is_flaming {
             let threshold = self.scenario.flameout.threshold_fuel_mass_flux_kg_m2_s;
             if fuel_flux >= threshold {
                 self.has_exceeded_flameout_threshold = true;
             } else if self.has_exceeded_flameout_threshold {
                 self.is_flaming = false;
-                self.flameout_time_s = Some(self.time_s);
+                self.flameout_time_s = Some(
+                    crossing_time(
+                        previous_time_s,
+                        -self.last_fuel_flux_kg_m2_s,
+                        self.time_s,
+                        -fuel_flux,
+                        -threshold,
+                    )
+                    .unwrap_or(self.time_s),
+                );
+                return self.flameout_time_s;
             }
+            None
+        } else {
+            None
         }
     }
 
@@ -824,12 +1195,12 @@ impl<'a> Solver<'a> {
         self.temperature_k.remove(source + 1);
     }
 
-    /// The outputs of the current state.
-    /// `rates` are MLR, fuel MLR (kg/(m²·s)) and HRR (W/m²) of the step that ended now.
-    fn sample(&self, time_s: f64, rates: [f64; 3], gasification_k: Option<f64>) -> Sample {
-        let [mlr, fuel_flux, hrr] = rates;
+    /// The outputs of the current state into `out` (its rates are made at the end, from the
+    /// cumulative releases; see `finish`).
+    fn fill_sample(&mut self, time_s: f64, gasification_k: Option<f64>, out: &mut Sample) {
         let n_cells = self.n_cells();
-        let mut thicknesses = Vec::with_capacity(n_cells);
+        let mut thicknesses = std::mem::take(&mut self.work.thicknesses_m);
+        thicknesses.clear();
         let mut specimen_mass = 0.0;
         let mut specimen_thickness = 0.0;
         let mut last_specimen_cell = None;
@@ -863,44 +1234,38 @@ impl<'a> Solver<'a> {
         };
         let total_thickness: f64 = thicknesses.iter().sum();
         let initial_total: f64 = self.scenario.layers.iter().map(|l| l.thickness_m).sum();
-        let probes = self
-            .scenario
-            .probes
-            .iter()
-            .map(|probe| {
-                // Height above the (fixed) back face of the stack.
-                let height = initial_total - probe.depth_m;
-                if height >= total_thickness {
-                    return self.temperature_k[0];
+        let probes = self.scenario.probes.iter().map(|probe| {
+            // Height above the (fixed) back face of the stack.
+            let height = initial_total - probe.depth_m;
+            if height >= total_thickness {
+                return self.temperature_k[0];
+            }
+            let mut top = total_thickness;
+            let mut above = (total_thickness, self.temperature_k[0]);
+            for (thickness, &temperature_k) in thicknesses.iter().zip(&self.temperature_k[1..]) {
+                let centre = top - 0.5 * thickness;
+                let here = (centre, temperature_k);
+                if height >= centre {
+                    return interpolate_height(above, here, height);
                 }
-                let mut top = total_thickness;
-                let mut above = (total_thickness, self.temperature_k[0]);
-                for (thickness, &temperature_k) in thicknesses.iter().zip(&self.temperature_k[1..])
-                {
-                    let centre = top - 0.5 * thickness;
-                    let here = (centre, temperature_k);
-                    if height >= centre {
-                        return interpolate_height(above, here, height);
-                    }
-                    above = here;
-                    top -= thickness;
-                }
-                interpolate_height(above, (0.0, self.temperature_k[back_node]), height)
-            })
-            .collect();
-        Sample {
-            time_s,
-            mass_kg_m2: specimen_mass,
-            mlr_kg_m2_s: mlr,
-            fuel_mlr_kg_m2_s: fuel_flux,
-            hrr_w_m2: hrr,
-            surface_temperature_k: self.temperature_k[0],
-            back_temperature_k: specimen_back_k,
-            stack_back_temperature_k: self.temperature_k[back_node],
-            thickness_m: specimen_thickness,
-            gasification_temperature_k: gasification_k.unwrap_or(self.temperature_k[0]),
-            probe_temperatures_k: probes,
-        }
+                above = here;
+                top -= thickness;
+            }
+            interpolate_height(above, (0.0, self.temperature_k[back_node]), height)
+        });
+        out.probe_temperatures_k.clear();
+        out.probe_temperatures_k.extend(probes);
+        out.time_s = time_s;
+        out.mass_kg_m2 = specimen_mass;
+        out.mlr_kg_m2_s = 0.0;
+        out.fuel_mlr_kg_m2_s = 0.0;
+        out.hrr_w_m2 = 0.0;
+        out.surface_temperature_k = self.temperature_k[0];
+        out.back_temperature_k = specimen_back_k;
+        out.stack_back_temperature_k = self.temperature_k[back_node];
+        out.thickness_m = specimen_thickness;
+        out.gasification_temperature_k = gasification_k.unwrap_or(self.temperature_k[0]);
+        self.work.thicknesses_m = thicknesses;
     }
 
     /// Thickness of a cell from its component masses, m.
@@ -936,18 +1301,52 @@ impl<'a> Solver<'a> {
         }
     }
 
-    fn finish(self) -> History {
+    /// The rows' rates and the summary. Each row carries the interval-mean rates over the
+    /// output interval centred on its time (clipped to the run): the specimen's gas, fuel and
+    /// heat released over that span divided by its length, so the trapezoidal integral of the
+    /// rows is the total released. The summary's peaks are the highest row and the vertex of
+    /// the parabola through it and its neighbours (docs/numerics.md, "Outputs").
+    fn finish(mut self) -> (History, Work) {
+        let interval_s = self.scenario.output_interval_s;
+        let end_s = self.time_s;
+        let n_rows = self.samples.len();
+        for row_idx in 0..n_rows {
+            let time_s = self.samples[row_idx].time_s;
+            let (lower_s, lower) = if row_idx == 0 {
+                (0.0, [0.0; 3])
+            } else {
+                (time_s - 0.5 * interval_s, self.row_edges[row_idx - 1])
+            };
+            let (upper_s, upper) = match self.row_edges.get(row_idx) {
+                Some(edge) => (time_s + 0.5 * interval_s, *edge),
+                None => (end_s, self.cumulative),
+            };
+            let span_s = upper_s - lower_s;
+            let rate = |idx: usize| {
+                if span_s > 0.0 {
+                    (upper[idx] - lower[idx]) / span_s
+                } else {
+                    0.0
+                }
+            };
+            let row = &mut self.samples[row_idx];
+            row.mlr_kg_m2_s = rate(0);
+            row.fuel_mlr_kg_m2_s = rate(1);
+            row.hrr_w_m2 = rate(2);
+        }
+        let peak_mlr = peak_of(&self.samples, |s| s.mlr_kg_m2_s);
+        let peak_hrr = peak_of(&self.samples, |s| s.hrr_w_m2);
         let remaining_all: f64 = self.masses.iter().sum();
         let specimen_remaining = self.previous_sample.mass_kg_m2;
         let specimen_gas_total = self.specimen_initial_mass_kg_m2 - specimen_remaining;
         let summary = Summary {
             ignition_time_s: self.ignition_time_s,
             flameout_time_s: self.flameout_time_s,
-            peak_hrr_w_m2: self.peak_hrr.0,
-            time_of_peak_hrr_s: self.peak_hrr.1,
-            peak_mlr_kg_m2_s: self.peak_mlr.0,
-            time_of_peak_mlr_s: self.peak_mlr.1,
-            total_heat_release_j_m2: self.total_heat_release_j_m2,
+            peak_hrr_w_m2: peak_hrr.0,
+            time_of_peak_hrr_s: peak_hrr.1,
+            peak_mlr_kg_m2_s: peak_mlr.0,
+            time_of_peak_mlr_s: peak_mlr.1,
+            total_heat_release_j_m2: self.cumulative[2],
             initial_mass_kg_m2: self.specimen_initial_mass_kg_m2,
             mass_lost_kg_m2: specimen_gas_total,
             mean_gasification_temperature_k: if specimen_gas_total > 0.0 {
@@ -987,7 +1386,10 @@ impl<'a> Solver<'a> {
                 snapshot
             })
             .collect();
-        History {
+        let mut work = std::mem::take(&mut self.work);
+        // Keep the last step's change buffer with the workspace too.
+        work.full_consumed = std::mem::take(&mut self.last_change_k);
+        let history = History {
             final_cells,
             probe_names: self
                 .scenario
@@ -997,8 +1399,39 @@ impl<'a> Solver<'a> {
                 .collect(),
             samples: self.samples,
             summary,
+        };
+        (history, work)
+    }
+}
+
+/// The highest value of a row quantity and its time: the vertex of the parabola through the
+/// highest row and its two neighbours (rows are equally spaced), within half a row of it.
+fn peak_of(samples: &[Sample], quantity: impl Fn(&Sample) -> f64) -> (f64, f64) {
+    let mut best = 0;
+    for (idx, sample) in samples.iter().enumerate() {
+        if quantity(sample) > quantity(&samples[best]) {
+            best = idx;
         }
     }
+    let peak = quantity(&samples[best]);
+    let mut time_s = samples[best].time_s;
+    if peak > 0.0 && best > 0 && best + 1 < samples.len() {
+        let (a, b, c) = (
+            quantity(&samples[best - 1]),
+            peak,
+            quantity(&samples[best + 1]),
+        );
+        let spacing_s = samples[best].time_s - samples[best - 1].time_s;
+        let curvature = a - 2.0 * b + c;
+        if curvature < 0.0
+            && (samples[best + 1].time_s - samples[best].time_s - spacing_s).abs()
+                < 1e-9 * spacing_s.max(1.0)
+        {
+            time_s +=
+                (0.5 * spacing_s * (a - c) / curvature).clamp(-0.5 * spacing_s, 0.5 * spacing_s);
+        }
+    }
+    (peak, time_s)
 }
 
 fn interpolate_height(above: (f64, f64), below: (f64, f64), height: f64) -> f64 {

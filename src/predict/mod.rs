@@ -285,9 +285,17 @@ pub fn prepare_scenario(
             )));
         }
         let layer = &mut loaded.scenario.layers[0];
-        let cell_m = layer.thickness_m / layer.n_cells as f64;
+        // Keep the grid rule: the same first cell and growth (docs/numerics.md, "Grid").
+        let first_cell_m = layer
+            .cell_thicknesses_m()
+            .next()
+            .unwrap_or(layer.thickness_m);
         layer.thickness_m = thickness_mm * 1e-3;
-        layer.n_cells = ((layer.thickness_m / cell_m).round() as usize).clamp(5, 5000);
+        layer.n_cells = crate::physics::scenario::cell_count_for(
+            layer.thickness_m,
+            first_cell_m * (1.0 + 1e-9),
+            layer.cell_growth,
+        );
     }
     if let Some(duration_s) = conditions.duration_s {
         if !(duration_s.is_finite() && duration_s > 0.0 && duration_s <= 1e6) {

@@ -7,6 +7,7 @@ mod fuzz;
 mod hostile;
 mod microscale;
 mod milligram_fit;
+mod numerics;
 mod pmma_fit;
 mod predict;
 mod properties;

@@ -74,6 +74,8 @@ pub fn layer(material: Material, thickness_m: f64, n_cells: usize, is_specimen: 
         initial_mass_fractions: fractions,
         is_specimen,
         contact_resistance_m2_k_w: 0.0,
+        // Uniform cells: the verification tests set their grids explicitly.
+        cell_growth: 1.0,
     }
 }
 
