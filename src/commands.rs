@@ -677,10 +677,13 @@ fn fit_summary_table(
         }
     }
     if let Some(reason) = &summary.not_converged_reason {
-        out.push_str(&format!(
-            "  NOT CONVERGED ({reason}): the values and intervals are those of the best point so \
-             far; resume the run or give a larger budget before relying on them\n"
-        ));
+        let text = format!(
+            "NOT CONVERGED ({reason}): the values and intervals are those of the best point so \
+             far; resume the run or give a larger budget before relying on them"
+        );
+        for line in wrapped(&text, WIDTH - 2) {
+            out.push_str(&format!("  {line}\n"));
+        }
     }
     if let Some(problem) = &summary.identifiability_problem {
         for line in wrapped(&format!("intervals not computed: {problem}"), WIDTH - 2) {

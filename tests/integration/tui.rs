@@ -322,7 +322,7 @@ fn the_interface_follows_a_fit_that_outlives_its_terminal_and_a_watch_sees_it_en
     tmux.keys("watch", "p");
     tmux.wait_for(
         "watch",
-        &["read-only viewer: pause or stop the fit in its own terminal"],
+        &["read-only viewer: pause the fit in its own terminal; stop it with kill -INT"],
         Duration::from_secs(10),
     );
     tmux.keys("watch", "4");
@@ -454,22 +454,76 @@ fn watch_shows_the_stop_command_from_the_lock_and_asks_before_stopping() {
         println!("skipped: tmux is not installed (the CI script installs it)");
         return;
     };
+    // A copy of the live fixture whose run.lock names a live process of ours (a sleeping
+    // child standing in for the fit), so the viewer offers to stop it and really does.
     let fixture = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/fixtures/tui/live-run");
-    tmux.new_session("watch", &format!("exec {BIN} watch {}", fixture.display()));
+    let dir = scratch("lock");
+    let run = dir.join("live-run");
+    copy_dir(&fixture, &run);
+    let mut holder = Command::new("sleep")
+        .arg("120")
+        .spawn()
+        .expect("sleep runs");
+    let pid = holder.id();
+    std::fs::write(run.join("run.lock"), format!("{pid}\nhost = \"test\"\n")).unwrap();
+    tmux.new_session("watch", &format!("exec {BIN} watch {}", run.display()));
     tmux.wait_for(
         "watch",
-        &["(read-only)", "stop it", "kill -INT 4242", "s stop fit"],
+        &[
+            "(read-only)",
+            "stop it",
+            &format!("kill -INT {pid}"),
+            "s stop fit",
+        ],
         Duration::from_secs(20),
     );
     tmux.keys("watch", "s");
     tmux.wait_for(
         "watch",
-        &["stop the fit? y sends kill -INT 4242"],
+        &[&format!("stop the fit? y sends kill -INT {pid}")],
         Duration::from_secs(10),
     );
     tmux.keys("watch", "n");
     tmux.wait_for("watch", &["not stopped"], Duration::from_secs(10));
+    assert!(
+        holder.try_wait().unwrap().is_none(),
+        "stopped although the answer was no"
+    );
+    tmux.keys("watch", "s");
+    tmux.wait_for(
+        "watch",
+        &[&format!("stop the fit? y sends kill -INT {pid}")],
+        Duration::from_secs(10),
+    );
+    tmux.keys("watch", "y");
+    let start = Instant::now();
+    let status = loop {
+        if let Some(status) = holder.try_wait().unwrap() {
+            break status;
+        }
+        if start.elapsed() > Duration::from_secs(10) {
+            let _ = holder.kill();
+            panic!("y did not send the interrupt to the lock's holder");
+        }
+        std::thread::sleep(Duration::from_millis(100));
+    };
+    use std::os::unix::process::ExitStatusExt;
+    assert_eq!(status.signal(), Some(libc::SIGINT), "{status:?}");
     tmux.keys("watch", "q");
+    let _ = std::fs::remove_dir_all(&dir);
+}
+
+fn copy_dir(from: &Path, to: &Path) {
+    std::fs::create_dir_all(to).unwrap();
+    for entry in std::fs::read_dir(from).unwrap() {
+        let entry = entry.unwrap();
+        let target = to.join(entry.file_name());
+        if entry.file_type().unwrap().is_dir() {
+            copy_dir(&entry.path(), &target);
+        } else {
+            std::fs::copy(entry.path(), target).unwrap();
+        }
+    }
 }
 
 #[test]
