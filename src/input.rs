@@ -71,8 +71,8 @@ fn file_type_words(metadata: &std::fs::Metadata) -> &'static str {
     }
 }
 
-/// Reads a whole file as bytes through the guard.
-pub fn read_bytes(path: &Path, kind: InputKind) -> std::io::Result<Vec<u8>> {
+/// The metadata of `path` when it is a regular file; an error saying what it is otherwise.
+fn regular_metadata(path: &Path, kind: InputKind) -> std::io::Result<std::fs::Metadata> {
     // `metadata` follows symbolic links and does not open the file, so a FIFO is seen
     // before anything blocks on it.
     let metadata = std::fs::metadata(path)?;
@@ -86,6 +86,19 @@ pub fn read_bytes(path: &Path, kind: InputKind) -> std::io::Result<Vec<u8>> {
             ),
         ));
     }
+    Ok(metadata)
+}
+
+/// Opens a regular file for a reader that streams it (a followed progress log), refusing a
+/// FIFO, device or directory before anything can block on it.
+pub fn open_regular(path: &Path, kind: InputKind) -> std::io::Result<std::fs::File> {
+    regular_metadata(path, kind)?;
+    std::fs::File::open(path)
+}
+
+/// Reads a whole file as bytes through the guard.
+pub fn read_bytes(path: &Path, kind: InputKind) -> std::io::Result<Vec<u8>> {
+    let metadata = regular_metadata(path, kind)?;
     let limit = kind.max_bytes();
     if metadata.len() > limit {
         return Err(too_large(kind, limit));

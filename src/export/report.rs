@@ -91,9 +91,11 @@ struct CaseCurve {
 }
 
 fn read_text(path: &Path) -> Result<String, ReportError> {
-    std::fs::read_to_string(path).map_err(|source| ReportError::Read {
-        path: path.to_path_buf(),
-        source,
+    crate::input::read_text(path, crate::input::InputKind::RunFile).map_err(|source| {
+        ReportError::Read {
+            path: path.to_path_buf(),
+            source,
+        }
     })
 }
 

@@ -305,6 +305,9 @@ pub fn prepare_scenario(
         }
         loaded.scenario.duration_s = duration_s;
     }
+    // The same size estimate as every run (rows, memory, steps), after the overrides.
+    crate::case::budget::check_scenario_size(&loaded.scenario)
+        .map_err(|size| PredictError::Invalid(format!("the prediction run {}", size.problem)))?;
     loaded
         .scenario
         .check()
@@ -339,7 +342,7 @@ fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
             p.file_name()
                 .is_some_and(|n| n.to_string_lossy().ends_with(&suffix))
         }) {
-            let Ok(text) = std::fs::read_to_string(path) else {
+            let Ok(text) = crate::input::read_text(path, crate::input::InputKind::RunFile) else {
                 continue;
             };
             // time_s,measured,sigma,model,residual

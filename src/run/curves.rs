@@ -118,5 +118,6 @@ pub fn write_case_curves(
 
 /// Reads `cases/curves.json` (a viewer reads it leniently through its own copy of the fields).
 pub fn read_index(path: &Path) -> Option<CurveIndex> {
-    serde_json::from_slice(&std::fs::read(path).ok()?).ok()
+    serde_json::from_slice(&crate::input::read_bytes(path, crate::input::InputKind::RunFile).ok()?)
+        .ok()
 }

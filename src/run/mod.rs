@@ -768,7 +768,7 @@ fn resumed_options(
 /// written a few more that the resumed run will write again).
 fn trim_progress(dir: &RunDirectory, iteration: u64) -> Result<(), RunError> {
     let path = dir.progress();
-    let text = std::fs::read_to_string(&path).unwrap_or_default();
+    let text = crate::input::read_text(&path, crate::input::InputKind::RunFile).unwrap_or_default();
     let mut kept = String::new();
     for line in text.lines() {
         let Ok(event) = serde_json::from_str::<ProgressEvent>(line) else {

@@ -154,13 +154,14 @@ impl ProgressFollower {
     /// say what they could not read. `restarted` is true when the file shrank and was read
     /// again from its start (the reader should forget what it had).
     pub fn poll_lines(&mut self) -> std::io::Result<NewLines> {
-        let mut file = match File::open(&self.path) {
-            Ok(file) => file,
-            Err(err) if err.kind() == std::io::ErrorKind::NotFound => {
-                return Ok(NewLines::default())
-            }
-            Err(err) => return Err(err),
-        };
+        let mut file =
+            match crate::input::open_regular(&self.path, crate::input::InputKind::RunFile) {
+                Ok(file) => file,
+                Err(err) if err.kind() == std::io::ErrorKind::NotFound => {
+                    return Ok(NewLines::default())
+                }
+                Err(err) => return Err(err),
+            };
         let length = file.metadata()?.len();
         let restarted = length < self.offset;
         if restarted {
@@ -196,7 +197,7 @@ pub struct NewLines {
 
 /// Every complete event of a progress file.
 pub fn read_all(path: &Path) -> std::io::Result<Vec<ProgressEvent>> {
-    let file = File::open(path)?;
+    let file = crate::input::open_regular(path, crate::input::InputKind::RunFile)?;
     let mut events = Vec::new();
     for line in BufReader::new(file).lines() {
         let line = line?;

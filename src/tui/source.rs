@@ -82,7 +82,7 @@ impl RunSource {
         let summary = self.dir.summary();
         if self.has_changed(&summary).is_some() {
             is_changed = true;
-            match std::fs::read_to_string(&summary) {
+            match crate::input::read_text(&summary, crate::input::InputKind::RunFile) {
                 Ok(text) => state.set_summary_text(&text),
                 Err(err) => {
                     state
@@ -99,7 +99,7 @@ impl RunSource {
         let index = self.dir.cases().join(crate::run::curves::INDEX_FILE);
         if self.has_changed(&index).is_some() {
             is_changed = true;
-            match std::fs::read_to_string(&index) {
+            match crate::input::read_text(&index, crate::input::InputKind::RunFile) {
                 Ok(text) => state.set_curve_index_text(&text),
                 Err(err) => {
                     state.file_problems.insert(
@@ -126,7 +126,7 @@ impl RunSource {
                     .file_stem()
                     .map(|s| s.to_string_lossy().into_owned())
                     .unwrap_or_default();
-                match std::fs::read_to_string(&path) {
+                match crate::input::read_text(&path, crate::input::InputKind::RunFile) {
                     Ok(text) => state.set_case_curve_text(&stem, &text),
                     Err(err) => {
                         state.file_problems.insert(
