@@ -224,6 +224,23 @@ fn a_killed_rank_ends_the_job_and_the_fit_resumes_on_another_number_of_ranks() {
         "killed during the generations"
     );
 
+    // mpirun may return before the aborted rank 0 has gone; a resume while it still holds the
+    // run's lock is (rightly) refused, so wait for the holder to end, as a user would.
+    let lock = runs.join("killed/run.lock");
+    let waiting = Instant::now();
+    while let Some(pid) = std::fs::read_to_string(&lock)
+        .ok()
+        .and_then(|text| text.lines().next().and_then(|l| l.trim().parse::<u32>().ok()))
+    {
+        if !Path::new(&format!("/proc/{pid}")).exists() {
+            break;
+        }
+        assert!(
+            waiting.elapsed() < Duration::from_secs(30),
+            "the aborted rank 0 (pid {pid}) did not end"
+        );
+        std::thread::sleep(Duration::from_millis(50));
+    }
     let mut resume = fit_args(&runs_text, "killed", "2", budget);
     resume.push("--resume");
     run(on_ranks(3, &resume));
