@@ -228,10 +228,11 @@ fn a_killed_rank_ends_the_job_and_the_fit_resumes_on_another_number_of_ranks() {
     // run's lock is (rightly) refused, so wait for the holder to end, as a user would.
     let lock = runs.join("killed/run.lock");
     let waiting = Instant::now();
-    while let Some(pid) = std::fs::read_to_string(&lock)
-        .ok()
-        .and_then(|text| text.lines().next().and_then(|l| l.trim().parse::<u32>().ok()))
-    {
+    while let Some(pid) = std::fs::read_to_string(&lock).ok().and_then(|text| {
+        text.lines()
+            .next()
+            .and_then(|l| l.trim().parse::<u32>().ok())
+    }) {
         if !Path::new(&format!("/proc/{pid}")).exists() {
             break;
         }

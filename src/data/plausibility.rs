@@ -36,8 +36,9 @@ fn median_magnitude(values: &[f64]) -> f64 {
     magnitudes[magnitudes.len() / 2]
 }
 
-/// Cells far above both the column's median magnitude and their neighbours.
-fn outliers(path: &Path, column: &ColumnView<'_>, notices: &mut Vec<Notice>) {
+/// Cells far above both the column's median magnitude and their neighbours (cone and
+/// milligram-scale files alike).
+pub fn outliers(path: &Path, column: &ColumnView<'_>, notices: &mut Vec<Notice>) {
     let median = median_magnitude(column.values);
     let floor = median.max(1e-9) * OUTLIER_FACTOR;
     let values = column.values;
@@ -118,6 +119,61 @@ pub fn check_cone_signals(
             )));
         }
     }
+    notices
+}
+
+/// Sample temperatures outside this range, K, are taken for a wrong unit or a corrupt column
+/// in a milligram-scale file (instruments run from below room temperature to about 1800 K;
+/// common practice, no single source).
+pub const THERMOGRAM_TEMPERATURE_RANGE_K: (f64, f64) = (150.0, 2500.0);
+/// A TGA mass above this fraction of the first (or stated initial) mass is taken for a wrong
+/// unit or initial mass.
+pub const THERMOGRAM_MASS_FRACTION_MAX: f64 = 1.5;
+
+/// Plausibility of a TGA, DSC or MCC file after reading: the temperature column within
+/// [`THERMOGRAM_TEMPERATURE_RANGE_K`], a TGA mass fraction at most
+/// [`THERMOGRAM_MASS_FRACTION_MAX`] and not below zero, and no single absurd cell in the
+/// signal or temperature column. Warnings name file, line and column.
+pub fn check_thermogram_signals(
+    path: &Path,
+    temperature: &ColumnView<'_>,
+    signal: &ColumnView<'_>,
+    is_mass_fraction: bool,
+) -> Vec<Notice> {
+    let mut notices = Vec::new();
+    let (low_k, high_k) = THERMOGRAM_TEMPERATURE_RANGE_K;
+    if let Some(i) = temperature
+        .values
+        .iter()
+        .position(|t| !(low_k..=high_k).contains(t))
+    {
+        notices.push(Notice::warning(format!(
+            "{}:{}: column `{}`: a sample temperature of {} K lies outside {low_k}–{high_k} K: \
+             a wrong unit?",
+            path.display(),
+            temperature.lines.get(i).copied().unwrap_or(0),
+            temperature.header,
+            temperature.values[i]
+        )));
+    }
+    if is_mass_fraction {
+        if let Some(i) = signal
+            .values
+            .iter()
+            .position(|m| *m > THERMOGRAM_MASS_FRACTION_MAX || *m < -0.05)
+        {
+            notices.push(Notice::warning(format!(
+                "{}:{}: column `{}`: the mass is {:.3} of the initial mass (expected 0 to 1): \
+                 a wrong unit or initial mass?",
+                path.display(),
+                signal.lines.get(i).copied().unwrap_or(0),
+                signal.header,
+                signal.values[i]
+            )));
+        }
+    }
+    outliers(path, signal, &mut notices);
+    outliers(path, temperature, &mut notices);
     notices
 }
 

@@ -496,6 +496,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
                 base,
                 (&material_path, &material),
                 settings.output_interval_s,
+                &mut warnings,
             )?);
             continue;
         }

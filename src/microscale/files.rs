@@ -334,6 +334,7 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
         .map(|c| c.as_ref().map_or(&[][..], |c| c.values.as_slice()))
         .collect();
     let (mut time_s, mut temperature_k, mut raw) = (Vec::new(), Vec::new(), Vec::new());
+    let mut kept_lines = Vec::new();
     let mut n_incomplete = 0usize;
     for (row, line) in table.lines.iter().enumerate() {
         let (t, temp, value) = (columns[0][row], columns[1][row], columns[2][row]);
@@ -352,6 +353,7 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
         time_s.push(t);
         temperature_k.push(temp);
         raw.push(value);
+        kept_lines.push(*line);
     }
     if n_incomplete > 0 {
         notices.push(Notice::new(format!(
@@ -365,7 +367,7 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
             format!("needs at least 3 data rows, found {}", time_s.len()),
         ));
     }
-    let (values, initial_mass_mg) = match signal {
+    let (values, initial_mass_mg): (Vec<f64>, Option<f64>) = match signal {
         Signal::MassMg(factor) => {
             let first_mg = raw[0] * factor;
             if first_mg <= 0.0 {
@@ -382,6 +384,22 @@ pub fn parse_thermogram(path: &Path, text: &str) -> Result<Thermogram, Microscal
         Signal::MassFraction(factor) => (raw.iter().map(|m| m * factor).collect(), None),
         Signal::PerMassWg(factor) => (raw.iter().map(|q| q * factor).collect(), None),
     };
+    notices.extend(crate::data::plausibility::check_thermogram_signals(
+        path,
+        &crate::data::plausibility::ColumnView {
+            header: &names[temperature_col],
+            unit: &units[temperature_col],
+            values: &temperature_k,
+            lines: &kept_lines,
+        },
+        &crate::data::plausibility::ColumnView {
+            header: &signal_name,
+            unit: "",
+            values: &values,
+            lines: &kept_lines,
+        },
+        matches!(signal, Signal::MassMg(_) | Signal::MassFraction(_)),
+    ));
     Ok(Thermogram {
         path: path.to_path_buf(),
         kind,

@@ -131,6 +131,7 @@ pub(super) fn build_milligram_case(
     base: &Path,
     job_material: (&Path, &MaterialModel),
     output_interval_s: f64,
+    warnings: &mut Vec<crate::data::Notice>,
 ) -> Result<FitCase, CaseError> {
     let key = |field: &str| format!("case[{idx}].{field}");
     let cone_only = [
@@ -177,6 +178,7 @@ pub(super) fn build_milligram_case(
             format!("cannot use {}: {}", test_path.display(), error_chain(&err)),
         )
     })?;
+    warnings.extend(thermogram.notices.iter().filter(|n| n.is_warning).cloned());
     if let (Some(declared), Some(kind_span)) = (declared, raw.kind.as_ref().map(Spanned::span)) {
         if declared != thermogram.kind {
             return Err(source.invalid(
@@ -235,6 +237,24 @@ pub(super) fn build_milligram_case(
                     ),
                 )
             })?;
+            // The programme follows the file's time column: bound its run as every run is
+            // bounded (rows, memory), naming the file whose times ask for it.
+            if let Err(size) = crate::case::budget::check_run_size(
+                case.programme.duration_s(),
+                output_interval_s,
+                (8 * 8) as f64,
+                None,
+            ) {
+                return Err(source.invalid(
+                    &test.span(),
+                    &key("tests"),
+                    format!(
+                        "the heating programme read from the times of {} {}",
+                        test_path.display(),
+                        size.problem
+                    ),
+                ));
+            }
             let mut initial_mass_fractions = vec![0.0; material.material.components.len()];
             initial_mass_fractions[0] = 1.0;
             MilligramSetup {
