@@ -440,13 +440,7 @@ pub fn saturation_vapour_pressure_pa(temperature_c: f64) -> f64 {
 impl TestDescription {
     /// Reads and validates a TEST.toml file.
     pub fn load(path: &Path) -> Result<TestDescription, DataError> {
-        let text =
-            crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
-                DataError::Read {
-                    path: path.to_path_buf(),
-                    source,
-                }
-            })?;
+        let text = super::read_toml_text(path)?;
         Self::parse(path, &text)
     }
 

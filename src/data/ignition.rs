@@ -475,13 +475,7 @@ struct RawPoint {
 impl IgnitionList {
     /// Reads and validates an ignition list.
     pub fn load(path: &Path) -> Result<IgnitionList, DataError> {
-        let text =
-            crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
-                DataError::Read {
-                    path: path.to_path_buf(),
-                    source,
-                }
-            })?;
+        let text = super::read_toml_text(path)?;
         let raw: RawIgnitionList = toml::from_str(&text).map_err(|source| DataError::Syntax {
             path: path.to_path_buf(),
             source,

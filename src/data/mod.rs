@@ -139,3 +139,12 @@ pub enum DataError {
         problem: String,
     },
 }
+
+/// Reads a hand-written TOML file of the data module (a test description, an ignition list)
+/// through the input guard, as a [`DataError::Read`] naming the file when it fails.
+pub(crate) fn read_toml_text(path: &std::path::Path) -> Result<String, DataError> {
+    crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| DataError::Read {
+        path: path.to_path_buf(),
+        source,
+    })
+}

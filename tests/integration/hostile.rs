@@ -669,17 +669,7 @@ fn a_time_budget_in_the_global_stage_ends_with_a_summary() {
 /// and the process ends by itself (it waited for `q` for ever). Skipped without tmux.
 #[test]
 fn sigterm_ends_a_fit_that_shows_the_interface() {
-    let found = Command::new("tmux")
-        .arg("-V")
-        .output()
-        .is_ok_and(|o| o.status.success());
-    if !found {
-        // CI installs tmux (.ci/run): there a missing tmux is a failure, not a skip.
-        assert!(
-            std::env::var("CI").map_or(true, |v| v != "true"),
-            "tmux is not installed, and CI=true: this test must run"
-        );
-        println!("skipped: tmux is not installed (the CI script installs it)");
+    if !crate::util::tmux_available("sigterm_ends_a_fit_that_shows_the_interface") {
         return;
     }
     let runs = scratch("tui-sigterm");

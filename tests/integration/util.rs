@@ -204,3 +204,21 @@ pub fn reference_data(test_name: &str) -> Option<std::path::PathBuf> {
         }
     }
 }
+
+/// Whether tmux is on this machine, for the tests that drive the interface in it. Without it a
+/// test says so and is skipped, except under `CI=true` (.ci/run installs tmux), where a missing
+/// tmux fails the test.
+pub fn tmux_available(test_name: &str) -> bool {
+    let found = std::process::Command::new("tmux")
+        .arg("-V")
+        .output()
+        .is_ok_and(|o| o.status.success());
+    if !found {
+        assert!(
+            !std::env::var("CI").is_ok_and(|v| v == "true"),
+            "{test_name}: tmux is not installed, and CI=true: the test must run"
+        );
+        eprintln!("{test_name}: skipped, tmux is not installed (the CI script installs it)");
+    }
+    found
+}
