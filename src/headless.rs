@@ -254,6 +254,18 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         )),
         ProgressEvent::Failed { message } => Some(format!("fit failed: {message}")),
         ProgressEvent::Checkpoint { .. } => None,
+        // About ten lines over the sample.
+        ProgressEvent::Posterior {
+            step,
+            steps,
+            acceptance,
+            elapsed_s,
+        } => (*step == 1 || *step == *steps || step % (steps / 10).max(1) == 0).then(|| {
+            format!(
+                "[posterior] step {step:>5}/{steps}  {elapsed_s:>7.1} s  accepted {:.0} %",
+                100.0 * acceptance
+            )
+        }),
     }
 }
 

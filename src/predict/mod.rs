@@ -82,6 +82,9 @@ pub struct Uncertainty {
     /// Covariance in fit space (value, or log10 of it on a log scale), row-major.
     pub covariance: Vec<Vec<f64>>,
     pub source: CovarianceSource,
+    /// The run's posterior sample (fit-space coordinates), when it has one that matches:
+    /// the band's parameter sets are then taken from it instead of drawn from the covariance.
+    pub posterior: Option<Vec<Vec<f64>>>,
 }
 
 /// A material model ready to predict with, and what is known of its uncertainty.
@@ -192,6 +195,55 @@ impl CalibratedModel {
                 }
             }
         }
+        let posterior = summary
+            .as_ref()
+            .filter(|_| matches!(source, CovarianceSource::RunSummary(_)))
+            .and_then(|s| s.posterior.as_ref())
+            .and_then(|info| {
+                let file = path.parent().unwrap_or(Path::new(".")).join(&info.file);
+                match crate::run::read_posterior(&file) {
+                    Ok(sample)
+                        if sample.names.len() == p
+                            && sample
+                                .names
+                                .iter()
+                                .zip(&parameters)
+                                .all(|(a, b)| *a == b.name)
+                            && sample.samples.iter().all(|s| s.len() == p) =>
+                    {
+                        notes.push(format!(
+                            "band parameter sets from the posterior sample {} ({} points)",
+                            file.display(),
+                            sample.samples.len()
+                        ));
+                        Some(
+                            sample
+                                .samples
+                                .iter()
+                                .map(|s| {
+                                    parameters
+                                        .iter()
+                                        .zip(s)
+                                        .map(|(q, &v)| q.to_fit_space(v))
+                                        .collect()
+                                })
+                                .collect(),
+                        )
+                    }
+                    Ok(_) => {
+                        notes.push(format!(
+                            "{} does not match the model's parameters: band drawn from the \
+                             covariance",
+                            file.display()
+                        ));
+                        None
+                    }
+                    Err(e) => {
+                        notes.push(format!("{e}: band drawn from the covariance"));
+                        None
+                    }
+                }
+            });
         Ok(CalibratedModel {
             path: path.to_path_buf(),
             model,
@@ -201,6 +253,7 @@ impl CalibratedModel {
                 values,
                 covariance,
                 source,
+                posterior,
             }),
             notes,
         })
@@ -366,24 +419,44 @@ fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
     found.then_some(out)
 }
 
-/// Adds the prediction band to a quantity's distribution: the parameter band's sd combined
-/// with the relative scatter and model error (`errors` = (scatter, error)).
+/// Draws of the test scatter and model error per parameter set in the prediction band.
+const ERROR_DRAWS_PER_SET: usize = 64;
+
+/// Adds the prediction band to a quantity's distribution: every parameter set's value `v`
+/// times exp(e·ε), ε standard normal, e = √(scatter² + error²) the relative test scatter and
+/// model error (`errors`), `ERROR_DRAWS_PER_SET` times per set (seeded, so the band is the
+/// same every time); the band is the quantiles `tail` and 1 − `tail` of that mixture. It keeps
+/// the skew of the parameter sets' values (a posterior sample seldom gives a symmetric
+/// ignition time) and keeps the quantity's sign. Without errors the band is left unset.
 fn prediction_band(
     mut q: QuantityDistribution,
-    parameter_sd: f64,
+    present: &[f64],
     errors: Option<(f64, f64)>,
-    z: f64,
+    tail: f64,
+    seed: u64,
 ) -> QuantityDistribution {
-    if let (Some(best), Some((scatter, error))) = (q.best, errors) {
-        if scatter.is_finite() && error.is_finite() {
-            let sd =
-                (parameter_sd.powi(2) + (best * scatter).powi(2) + (best * error).powi(2)).sqrt();
-            q.prediction_lower = best - z * sd;
-            q.prediction_upper = best + z * sd;
-            q.relative_test_scatter = scatter;
-            q.relative_model_error = error;
+    use rand::SeedableRng;
+    use rand_distr::Distribution;
+    let Some((scatter, error)) = errors else {
+        return q;
+    };
+    if !(scatter.is_finite() && error.is_finite()) || present.is_empty() {
+        return q;
+    }
+    let e = (scatter * scatter + error * error).sqrt();
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let mut mixture: Vec<f64> = Vec::with_capacity(present.len() * ERROR_DRAWS_PER_SET);
+    for &v in present {
+        for _ in 0..ERROR_DRAWS_PER_SET {
+            let epsilon: f64 = rand_distr::StandardNormal.sample(&mut rng);
+            mixture.push(v * (e * epsilon).exp());
         }
     }
+    mixture.sort_by(f64::total_cmp);
+    q.prediction_lower = quantile(&mixture, tail);
+    q.prediction_upper = quantile(&mixture, 1.0 - tail);
+    q.relative_test_scatter = scatter;
+    q.relative_model_error = error;
     q
 }
 
@@ -448,7 +521,11 @@ pub fn condition_notes(
                     notes.push(format!(
                         "the {what} {value:.3} {unit} lies outside the calibrated range \
                          {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest \
-                         calibrated value): an extrapolation the calibration did not test",
+                         calibrated value): an extrapolation the calibration did not test; the \
+                         bands do not hold the model's error there (calibrated at one irradiance \
+                         of the open PMMA tests, the model missed the other's ignition time by up \
+                         to a factor 2 and its time to peak by up to 26 %: \
+                         docs/calibration-pmma.md §4)",
                         100.0 * by / edge.abs().max(1e-12)
                     ));
                 }
@@ -825,7 +902,12 @@ pub fn predict_on<E: Evaluator>(
             .map(|p| p.to_fit_space(p.upper))
             .collect(),
     };
-    let draws = draw(&normal, settings.n_samples, settings.seed)?;
+    let draws = match &uncertainty.posterior {
+        Some(sample) if !sample.is_empty() => {
+            sampling::from_sample(sample, settings.n_samples, settings.seed)
+        }
+        _ => draw(&normal, settings.n_samples, settings.seed)?,
+    };
     let n_rejected = draws.n_drawn - draws.points.len();
     let task = BandDraw {
         uncertainty,
@@ -891,7 +973,6 @@ pub fn predict_on<E: Evaluator>(
         .collect();
     let per_sample: Vec<[Option<f64>; 4]> = histories.iter().map(report_quantities).collect();
     let errors = calibration_errors(&calibrated.path);
-    let z = crate::predict::sampling::normal_quantile(1.0 - tail);
     if errors.is_none() {
         notes.push(
             "no report-quantity signals (ignition_time, peak_hrr, time_to_peak_hrr, \
@@ -917,9 +998,10 @@ pub fn predict_on<E: Evaluator>(
                 standard_deviation: variance.sqrt(),
                 ..prediction_band(
                     empty_distribution(k),
-                    variance.sqrt(),
+                    &present,
                     errors.map(|e| e[k]),
-                    z,
+                    tail,
+                    settings.seed.wrapping_add(k as u64),
                 )
             }
         })

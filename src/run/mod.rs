@@ -111,6 +111,11 @@ impl RunDirectory {
     pub fn summary(&self) -> PathBuf {
         self.root.join("summary.json")
     }
+
+    /// `posterior.json`: the posterior sample (`fit::posterior::Posterior`).
+    pub fn posterior(&self) -> PathBuf {
+        self.root.join("posterior.json")
+    }
     pub fn cases(&self) -> PathBuf {
         self.root.join("cases")
     }
@@ -183,6 +188,28 @@ pub struct RunSummary {
     pub singular_values: Vec<f64>,
     /// When the identifiability analysis could not be done, why.
     pub identifiability_problem: Option<String>,
+    /// trace(JᵀJ·C)/p of the sandwich covariance C (`fit::identifiability`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub likelihood_temperature: Option<f64>,
+    /// The posterior sample, when the job asked for one (`settings.posterior_steps`).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub posterior: Option<PosteriorInfo>,
+}
+
+/// What `summary.json` says of the posterior sample; the points are in `posterior.json`.
+#[derive(Debug, Clone, Serialize, Deserialize)]
+pub struct PosteriorInfo {
+    pub file: String,
+    pub walkers: usize,
+    pub steps: usize,
+    pub burn_in: usize,
+    /// Kept points (walkers × steps after burn-in).
+    pub points: usize,
+    pub acceptance: f64,
+    pub temperature: f64,
+    /// Lowest cost any walker met (below `objective`: the optimiser had not converged).
+    pub lowest_cost: f64,
+    pub stopped: bool,
 }
 
 #[derive(Debug, Clone, Serialize, Deserialize)]
@@ -200,6 +227,11 @@ pub struct SummaryParameter {
     pub sensitivity: Option<f64>,
     pub sensitivity_rank: Option<usize>,
     pub warnings: Vec<String>,
+    /// 2.5 and 97.5 % quantiles of the posterior sample (absent without one).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub posterior_95: Option<(f64, f64)>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub posterior_median: Option<f64>,
 }
 
 fn converged_by_default() -> bool {
@@ -208,6 +240,16 @@ fn converged_by_default() -> bool {
 
 /// Reads a run's `summary.json` (e.g. for `prior_from` in a later job).
 pub fn read_summary(path: &Path) -> Result<RunSummary, RunError> {
+    let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
+        .map_err(io("cannot read", path))?;
+    serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
+        path: path.to_path_buf(),
+        problem: e.to_string(),
+    })
+}
+
+/// Reads a run's `posterior.json` (the posterior sample, `fit::posterior`).
+pub fn read_posterior(path: &Path) -> Result<crate::fit::posterior::Posterior, RunError> {
     let bytes = crate::input::read_bytes(path, crate::input::InputKind::RunFile)
         .map_err(io("cannot read", path))?;
     serde_json::from_slice(&bytes).map_err(|e| RunError::Corrupt {
@@ -613,7 +655,7 @@ pub fn run_fit_on<E: Evaluator>(
         job: &job,
         start_text: &start_text,
         provenance: provenance.clone(),
-        stop,
+        stop: stop.clone(),
         pause,
         best_written: f64::INFINITY,
         io_error: None,
@@ -664,14 +706,27 @@ pub fn run_fit_on<E: Evaluator>(
         });
         return Err(err);
     }
+    let started = std::time::Instant::now();
+    let mut posterior_step = |step: usize, steps: usize, acceptance: f64| {
+        recorder.write_event(&ProgressEvent::Posterior {
+            step,
+            steps,
+            acceptance: if acceptance.is_finite() {
+                acceptance
+            } else {
+                0.0
+            },
+            elapsed_s: started.elapsed().as_secs_f64(),
+        });
+    };
     let summary = match finish(
         &dir,
         &job,
         &start_text,
         (&objective, evaluator),
         &model,
-        &outcome,
-        &provenance,
+        (&outcome, &provenance),
+        (&stop, &mut posterior_step),
     ) {
         Ok(summary) => summary,
         Err(err) => {
@@ -791,13 +846,45 @@ fn finish<E: Evaluator>(
     start_text: &str,
     (objective, evaluator): (&Objective<'_, CaseModel<'_>>, &E),
     model: &CaseModel<'_>,
-    outcome: &Outcome,
-    provenance: &Provenance,
+    (outcome, provenance): (&Outcome, &Provenance),
+    (stop, posterior_step): (&AtomicBool, &mut crate::fit::posterior::StepReport<'_>),
 ) -> Result<RunSummary, RunError> {
     let analysis = analyse_on(objective, evaluator, &outcome.best_values);
     let (analysis, problem) = match analysis {
         Ok(a) => (Some(a), None),
         Err(e) => (None, Some(e.to_string())),
+    };
+    let posterior = match (&job.settings.posterior, &analysis) {
+        (Some(settings), Some(analysis)) if !stop.load(Ordering::Relaxed) => {
+            match crate::fit::posterior::sample(
+                objective,
+                evaluator,
+                &outcome.best_values,
+                &analysis.covariance,
+                analysis.likelihood_temperature,
+                settings,
+                stop,
+                posterior_step,
+            ) {
+                Ok(sample) if !sample.samples.is_empty() => {
+                    let bytes = serde_json::to_vec(&sample).map_err(|e| RunError::Corrupt {
+                        path: dir.posterior(),
+                        problem: e.to_string(),
+                    })?;
+                    write_atomically(&dir.posterior(), &bytes)
+                        .map_err(io("cannot write", &dir.posterior()))?;
+                    Some(sample)
+                }
+                Ok(_) => None,
+                Err(e) => {
+                    return Err(RunError::Corrupt {
+                        path: dir.posterior(),
+                        problem: e.to_string(),
+                    })
+                }
+            }
+        }
+        _ => None,
     };
     let mut provenance = provenance.clone();
     provenance.not_converged =
@@ -840,6 +927,10 @@ fn finish<E: Evaluator>(
                     .filter(|v| v.is_finite()),
                 sensitivity: estimate.map(|e| e.sensitivity),
                 sensitivity_rank: estimate.map(|e| e.sensitivity_rank),
+                posterior_95: posterior
+                    .as_ref()
+                    .map(|s| (s.quantile(i, 0.025), s.quantile(i, 0.975))),
+                posterior_median: posterior.as_ref().map(|s| s.quantile(i, 0.5)),
                 warnings: estimate.map_or_else(Vec::new, |e| {
                     e.warnings.iter().map(|w| w.to_string()).collect()
                 }),
@@ -887,6 +978,18 @@ fn finish<E: Evaluator>(
             .as_ref()
             .map_or_else(Vec::new, |a| a.singular_values.clone()),
         identifiability_problem: problem,
+        likelihood_temperature: analysis.as_ref().map(|a| a.likelihood_temperature),
+        posterior: posterior.as_ref().map(|s| PosteriorInfo {
+            file: "posterior.json".into(),
+            walkers: s.walkers,
+            steps: s.steps,
+            burn_in: s.burn_in,
+            points: s.samples.len(),
+            acceptance: s.acceptance,
+            temperature: s.temperature,
+            lowest_cost: s.lowest_cost,
+            stopped: s.stopped,
+        }),
     };
     let bytes = serde_json::to_vec_pretty(&summary).map_err(|e| RunError::Corrupt {
         path: dir.summary(),

@@ -80,6 +80,13 @@ pub enum ProgressEvent {
     /// A stop was asked for (signal or key): the run finishes its iteration, writes its
     /// outputs and ends with `finished`. Lets every viewer say "stopping".
     Stopping,
+    /// One step of the posterior sample after the fit (`fit::posterior`).
+    Posterior {
+        step: usize,
+        steps: usize,
+        acceptance: f64,
+        elapsed_s: f64,
+    },
     Finished {
         reason: String,
         best_cost: f64,

@@ -22,6 +22,14 @@ pub const STRONG_CORRELATION: f64 = 0.95;
 /// unless its own iterations are slower (see [`ViewerState::stale_after`]).
 pub const MIN_STALE_AFTER: Duration = Duration::from_secs(60);
 
+/// One step of the posterior sample, as the log reported it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PosteriorStep {
+    pub step: usize,
+    pub steps: usize,
+    pub acceptance: f64,
+}
+
 /// The state of the fit as the run directory shows it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Status {
@@ -209,6 +217,8 @@ pub struct ViewerState {
     pub is_paused: bool,
     /// The run logged that a stop was asked for (by any process).
     pub is_stopping: bool,
+    /// The posterior sample's last step, while it runs after the fit.
+    pub posterior: Option<PosteriorStep>,
     pub n_failures: u64,
     pub last_failure: Option<String>,
     /// Iteration, evaluations and elapsed seconds of the last `checkpoint` line.
@@ -382,6 +392,12 @@ impl ViewerState {
             "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
             "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
             "stopping" => ProgressEvent::Stopping,
+            "posterior" => ProgressEvent::Posterior {
+                step: value.get("step").and_then(Value::as_u64).unwrap_or(0) as usize,
+                steps: value.get("steps").and_then(Value::as_u64).unwrap_or(0) as usize,
+                acceptance: number("acceptance"),
+                elapsed_s: number("elapsed_s"),
+            },
             _ => return None,
         };
         self.note_missing(&format!("`{kind}` lines"), missing);
@@ -455,6 +471,18 @@ impl ViewerState {
             ProgressEvent::Paused { .. } => self.is_paused = true,
             ProgressEvent::Resumed { .. } => self.is_paused = false,
             ProgressEvent::Stopping => self.is_stopping = true,
+            ProgressEvent::Posterior {
+                step,
+                steps,
+                acceptance,
+                ..
+            } => {
+                self.posterior = Some(PosteriorStep {
+                    step: *step,
+                    steps: *steps,
+                    acceptance: *acceptance,
+                })
+            }
             ProgressEvent::Finished {
                 reason,
                 best_cost,
