@@ -4,10 +4,9 @@ use std::path::Path;
 
 use anyhow::{bail, Context, Result};
 
-use emberfit::data::derivative::Smoothing;
-use emberfit::data::description::{ColumnName, HrrFromMass};
+use emberfit::data::description::ColumnName;
 use emberfit::data::ignition::{analyse, points_from_tests, IgnitionList, IgnitionSettings};
-use emberfit::data::{reduce as reduce_test, TestDescription};
+use emberfit::data::{reduce as reduce_test, DataError, TestDescription};
 use emberfit::export::write_atomically;
 use emberfit::present;
 
@@ -79,7 +78,9 @@ pub fn reduce(args: ReduceArgs) -> Result<()> {
     Ok(())
 }
 
-/// The test description a bare CSV and the flags make.
+/// The test description a bare CSV and the flags make. The limits on the values are those of
+/// `TestDescription::parse`, their one owner: the flags go through it as the keys of a
+/// TEST.toml would ([`checked_flag_values`]), and a refusal names the flag.
 fn description_from_flags(args: &ReduceArgs) -> Result<TestDescription> {
     let Some(area_m2) = args.area_m2 else {
         bail!("a CSV input needs --area-m2 (exposed area, e.g. 0.01 for a 100 mm square)");
@@ -87,13 +88,15 @@ fn description_from_flags(args: &ReduceArgs) -> Result<TestDescription> {
     let Some(flux_kw_m2) = args.flux_kw_m2 else {
         bail!("a CSV input needs --flux-kw-m2 (irradiance set on the heater, e.g. 50)");
     };
-    if !(area_m2 > 0.0 && area_m2 <= 1.0) {
-        bail!("--area-m2 must be > 0 and at most 1 m², got {area_m2}");
+    if args.combustion_efficiency.is_some() && args.heat_of_combustion_mj_kg.is_none() {
+        bail!("--combustion-efficiency needs --heat-of-combustion-mj-kg");
     }
-    if !(0.0..=200.0).contains(&flux_kw_m2) {
-        bail!("--flux-kw-m2 must be within 0..200 kW/m², got {flux_kw_m2}");
-    }
-    let mut test = TestDescription::for_csv(&args.input, area_m2, flux_kw_m2);
+    let checked = checked_flag_values(args, area_m2, flux_kw_m2)?;
+    let mut test = TestDescription::for_csv(
+        &args.input,
+        checked.exposed_area_m2,
+        checked.irradiance_kw_m2,
+    );
     let column = |given: &Option<String>, default: &str, unit: &Option<String>| {
         let name = given.clone().unwrap_or_else(|| default.to_string());
         (!name.eq_ignore_ascii_case("none")).then(|| ColumnName {
@@ -113,40 +116,86 @@ fn description_from_flags(args: &ReduceArgs) -> Result<TestDescription> {
     }
     test.columns.mass = column(&args.mass_column, "mass", &args.mass_unit);
     test.columns.hrr = column(&args.hrr_column, "hrr", &args.hrr_unit);
-    test.ignition_time_s = args.ignition_time_s;
-    if let Some(t) = args.ignition_time_s {
-        if t.is_nan() || t < 0.0 {
-            bail!("--ignition-time-s must be >= 0, got {t}");
-        }
-    }
-    test.time_offset_s = args.time_offset_s.unwrap_or(0.0);
+    test.ignition_time_s = checked.ignition_time_s;
+    test.time_offset_s = checked.time_offset_s;
     test.is_mass_tared = !args.not_tared;
-    if let Some(heat_mj_kg) = args.heat_of_combustion_mj_kg {
-        let efficiency = args.combustion_efficiency.unwrap_or(1.0);
-        if !(1.0..=60.0).contains(&heat_mj_kg) {
-            bail!("--heat-of-combustion-mj-kg must be within 1..60 MJ/kg, got {heat_mj_kg}");
-        }
-        if !(efficiency > 0.0 && efficiency <= 1.0) {
-            bail!("--combustion-efficiency must be > 0 and at most 1, got {efficiency}");
-        }
-        test.hrr_from_mass = Some(HrrFromMass {
-            heat_of_combustion_mj_kg: heat_mj_kg,
-            combustion_efficiency: efficiency,
-        });
-    } else if args.combustion_efficiency.is_some() {
-        bail!("--combustion-efficiency needs --heat-of-combustion-mj-kg");
-    }
-    if let Some(points) = args.smooth {
-        if points < 3 || points % 2 == 0 {
-            bail!("--smooth must be an odd number of points, at least 3, got {points}");
-        }
-        test.smoothing = Some(Smoothing {
-            window_points: points,
-            degree: 2,
-        });
-    }
+    test.hrr_from_mass = checked.hrr_from_mass;
+    test.smoothing = checked.smoothing;
     Ok(test)
 }
+
+/// Each value flag of `reduce FILE.csv` and the TEST.toml key whose limits it has.
+const FLAG_KEYS: [(&str, &str); 7] = [
+    ("--area-m2", "exposed_area_m2"),
+    ("--flux-kw-m2", "irradiance_kw_m2"),
+    ("--ignition-time-s", "ignition_time_s"),
+    ("--time-offset-s", "time_offset_s"),
+    (
+        "--heat-of-combustion-mj-kg",
+        "hrr_from_mass.heat_of_combustion_mj_kg",
+    ),
+    (
+        "--combustion-efficiency",
+        "hrr_from_mass.combustion_efficiency",
+    ),
+    ("--smooth", "processing.smoothing_window_points"),
+];
+
+/// The flags' values validated by `TestDescription::parse`, from the TEST.toml they would
+/// make; a value it refuses is reported under its flag (`--area-m2 must be …, got 2`).
+fn checked_flag_values(
+    args: &ReduceArgs,
+    area_m2: f64,
+    flux_kw_m2: f64,
+) -> Result<TestDescription> {
+    let mut file = toml::Table::new();
+    let data_file = args
+        .input
+        .file_name()
+        .map_or_else(|| "data.csv".into(), |n| n.to_string_lossy().into_owned());
+    file.insert("data_file".into(), data_file.into());
+    file.insert("irradiance_kw_m2".into(), flux_kw_m2.into());
+    file.insert("exposed_area_m2".into(), area_m2.into());
+    // A file needs its time column and a signal; the flags' columns are set on the
+    // description itself, not checked here.
+    let mut columns = toml::Table::new();
+    columns.insert("time".into(), "time".into());
+    columns.insert("mass".into(), "mass".into());
+    file.insert("columns".into(), columns.into());
+    if let Some(t) = args.ignition_time_s {
+        file.insert("ignition_time_s".into(), t.into());
+    }
+    if let Some(t) = args.time_offset_s {
+        file.insert("time_offset_s".into(), t.into());
+    }
+    if let Some(heat_mj_kg) = args.heat_of_combustion_mj_kg {
+        let mut hrr_from_mass = toml::Table::new();
+        hrr_from_mass.insert("heat_of_combustion_mj_kg".into(), heat_mj_kg.into());
+        if let Some(efficiency) = args.combustion_efficiency {
+            hrr_from_mass.insert("combustion_efficiency".into(), efficiency.into());
+        }
+        file.insert("hrr_from_mass".into(), hrr_from_mass.into());
+    }
+    if let Some(points) = args.smooth {
+        let points = i64::try_from(points).unwrap_or(i64::MAX);
+        let mut processing = toml::Table::new();
+        processing.insert("smoothing_window_points".into(), points.into());
+        file.insert("processing".into(), processing.into());
+    }
+    let text = toml::to_string(&file).context("checking the flags")?;
+    match TestDescription::parse(&args.input, &text) {
+        Ok(checked) => Ok(checked),
+        Err(DataError::Invalid { field, problem, .. }) => {
+            let flag = FLAG_KEYS
+                .iter()
+                .find(|(_, key)| *key == field)
+                .map_or(field.as_str(), |(flag, _)| flag);
+            bail!("{flag} {problem}")
+        }
+        Err(other) => Err(other).context("checking the flags"),
+    }
+}
+
 pub fn ignition(args: IgnitionArgs) -> Result<()> {
     let is_list = args.inputs.len() == 1 && is_ignition_list(&args.inputs[0])?;
     let (mut points, notices, mut settings) = if is_list {
@@ -190,4 +239,81 @@ fn is_ignition_list(path: &Path) -> Result<bool> {
     let table: toml::Table =
         toml::from_str(&text).with_context(|| format!("cannot parse {}", path.display()))?;
     Ok(!table.contains_key("data_file"))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use clap::Parser;
+
+    use crate::cli::{Cli, Command};
+
+    fn reduce_args(flags: &[&str]) -> ReduceArgs {
+        let mut argv = vec!["emberfit", "reduce", "lab/t-50.csv"];
+        argv.extend_from_slice(flags);
+        match Cli::try_parse_from(argv).map(|cli| cli.command) {
+            Ok(Command::Reduce(args)) => *args,
+            other => panic!("not a reduce command: {other:?}"),
+        }
+    }
+
+    fn refusal(flags: &[&str]) -> String {
+        let args = reduce_args(flags);
+        format!("{:#}", description_from_flags(&args).unwrap_err())
+    }
+
+    #[test]
+    fn a_value_the_test_file_would_refuse_is_refused_under_its_flag() {
+        let base = ["--area-m2", "0.01", "--flux-kw-m2", "50"];
+        assert_eq!(
+            refusal(&["--area-m2", "2", "--flux-kw-m2", "50"]),
+            "--area-m2 must be in m2 (a cone specimen is about 0.01), got 2"
+        );
+        assert!(refusal(&["--area-m2", "0.01", "--flux-kw-m2", "250"])
+            .starts_with("--flux-kw-m2 must be at most 200 kW/m²"));
+        let with = |extra: &[&'static str]| {
+            let mut flags = base.to_vec();
+            flags.extend_from_slice(extra);
+            refusal(&flags)
+        };
+        assert_eq!(
+            with(&["--ignition-time-s=-1"]),
+            "--ignition-time-s must be >= 0, got -1"
+        );
+        assert!(with(&["--heat-of-combustion-mj-kg", "90"])
+            .starts_with("--heat-of-combustion-mj-kg must be"));
+        assert!(with(&["--smooth", "4"]).starts_with("--smooth must be odd"));
+    }
+
+    #[test]
+    fn values_within_the_limits_are_kept_as_given() {
+        let args = reduce_args(&[
+            "--area-m2",
+            "0.0088",
+            "--flux-kw-m2",
+            "35",
+            "--ignition-time-s",
+            "12.5",
+            "--heat-of-combustion-mj-kg",
+            "25",
+            "--combustion-efficiency",
+            "0.9",
+            "--smooth",
+            "7",
+        ]);
+        let test = description_from_flags(&args).unwrap();
+        assert_eq!(test.exposed_area_m2, 0.0088);
+        assert_eq!(test.irradiance_kw_m2, 35.0);
+        assert_eq!(test.ignition_time_s, Some(12.5));
+        let hrr = test.hrr_from_mass.unwrap();
+        assert_eq!(
+            (hrr.heat_of_combustion_mj_kg, hrr.combustion_efficiency),
+            (25.0, 0.9)
+        );
+        assert_eq!(
+            test.smoothing.map(|s| (s.window_points, s.degree)),
+            Some((7, 2))
+        );
+        assert_eq!(test.data_file, std::path::Path::new("lab/t-50.csv"));
+    }
 }
