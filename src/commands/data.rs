@@ -1,4 +1,8 @@
 //! `reduce` and `ignition`: lab test files to report quantities and the ignition analysis.
+//!
+//! **Invariant:** the limits of a test's values are `data::description`'s: the flags of
+//! `reduce FILE.csv` are checked by `TestDescription::parse` as the TEST.toml keys they stand
+//! for, not here.
 
 use std::path::Path;
 

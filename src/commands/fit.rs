@@ -1,4 +1,7 @@
 //! `fit` and `watch`: start (or resume) a fit run and show it, or view a run directory.
+//!
+//! **Invariant:** the fit runs in a worker thread (`run::run_fit_on`); this thread only shows
+//! it (the interface, or `headless::Follow`'s lines) and prints `present::fit`'s table.
 
 use std::sync::atomic::Ordering;
 use std::sync::Arc;

@@ -1,5 +1,8 @@
 //! The milligram-scale commands: `simulate` on a scenario with a `[programme]` (TGA, DSC,
 //! MCC), and `isoconversional`.
+//!
+//! **Invariant:** the kinetics are `microscale`'s; output through `present::milligram`
+//! (screen) and `export` (files).
 
 use anyhow::{bail, Context, Result};
 

@@ -1,9 +1,11 @@
 //! One function per subcommand, grouped by family: each parses its arguments into library
 //! calls, calls the library and hands the result to `emberfit::present` to print.
 //!
-//! **Invariant:** no physics, no file format and no table layout here: files are read and
-//! written by the library (`case`, `data`, `run`, `export`), every table and JSON document is
-//! made by `present`, and signal handlers are installed by `crate::signals` only.
+//! **Invariant:** no table layout or JSON document (those are `present`'s), no signal handler
+//! (`crate::signals`), no physics or run-directory format of its own: files are read and
+//! written by the library (`case`, `data`, `run`, `export`). Two deliberate exceptions, both
+//! in `data.rs`: `is_ignition_list` peeks at a TOML's keys to tell a list from a test, and
+//! the `reduce` flags are written as TEST.toml keys so that file's own validator checks them.
 
 mod data;
 mod detach;

@@ -1,5 +1,9 @@
 //! `predict`, `compare` and `report`: what a calibrated model says at untested conditions,
 //! how it scores on held-out tests, and the report of a run.
+//!
+//! **Invariant:** a calibrated model is read only through `predict::CalibratedModel`, a run
+//! directory only through `export::report` (which reads it through `run`); output through
+//! `present::predict`.
 
 use anyhow::{bail, Context, Result};
 

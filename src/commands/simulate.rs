@@ -1,4 +1,7 @@
 //! `simulate` and `synthesize`: one scenario run, printed or turned into measured-like data.
+//!
+//! **Invariant:** one simulation per call, its output through `present::simulate` (screen)
+//! and `export` (files); the size budget of a changed duration is `case::budget`'s.
 
 use anyhow::{bail, Context, Result};
 

@@ -1,9 +1,10 @@
 //! Every table and JSON document the commands print, as pure functions from library results
 //! to text (`String`) or `serde_json::Value`: one file per command family.
 //!
-//! **Invariant:** no I/O, no clock and no errors: a printer reads values already computed
-//! and never calls the physics, the fit or a file reader (`use crate::` here names only
-//! result types and the shared number formats of `crate::headless`).
+//! **Invariant:** no I/O, no clock and no errors: a printer reads results already computed
+//! and never calls the physics, the fit or a file reader (`use crate::` here names result
+//! types, the shared number formats of `crate::headless`, the word wrap of `crate::tui::draw`
+//! and `export::report::CAUTION`). Each printer has a unit test on a small hand-made result.
 
 pub mod fit;
 pub mod ignition;

@@ -7,8 +7,13 @@
 //! cases/*.csv      measured vs model and residuals    summary.json     the final figures
 //! ```
 //!
-//! This module is the only one that knows these formats. Every file but the append-only log is
-//! replaced atomically, so a run killed at any moment resumes from its last checkpoint.
+//! **Invariant:** `run` is the only module that knows these formats, one submodule per file:
+//! `record` (run.toml), `checkpoint` (checkpoint.json, the serde of the engine's state),
+//! `best` (best.toml), `progress` (progress.jsonl, strict and lenient readers), `summary`
+//! (summary.json, parameters.csv), `curves` (cases/), `lock` (run.lock); this file runs a fit
+//! and writes job.toml. Viewers (tui, report, predict) read a run directory only through them.
+//! Every file but the append-only log is replaced atomically, so a run killed at any moment
+//! resumes from its last checkpoint.
 
 pub mod best;
 pub mod checkpoint;
