@@ -144,11 +144,8 @@ impl CalibratedModel {
             values.push(entry.value);
         }
         let p = parameters.len();
-        let summary_path = path.parent().unwrap_or(Path::new(".")).join("summary.json");
-        let summary: Option<RunSummary> =
-            crate::input::read_bytes(&summary_path, crate::input::InputKind::RunFile)
-                .ok()
-                .and_then(|bytes| serde_json::from_slice(&bytes).ok());
+        let (summary_path, summary): (PathBuf, Option<RunSummary>) =
+            crate::run::summary::summary_beside(path);
         let covariance_from_summary = summary.as_ref().and_then(|s| {
             let names_match = s.parameters.len() == p
                 && s.parameters
@@ -381,32 +378,33 @@ const QUANTITY_SIGNALS: [&str; 4] = [
 /// conditions, from the run directory beside `model_path` (`cases/<case>--<signal>.csv`:
 /// measured, sigma, model). `None` when no such file is there.
 fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
-    let cases = model_path.parent()?.join("cases");
-    let entries: Vec<PathBuf> = std::fs::read_dir(&cases)
-        .ok()?
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .collect();
+    let dir = crate::run::RunDirectory::new(model_path.parent()?);
+    let files = crate::run::curves::case_curve_files(&dir);
     let mut found = false;
     let mut out = [(f64::NAN, f64::NAN); 4];
     for (k, signal) in QUANTITY_SIGNALS.iter().enumerate() {
-        let suffix = format!("--{signal}.csv");
         let (mut scatter, mut error, mut n) = (0.0, 0.0, 0.0);
-        for path in entries.iter().filter(|p| {
-            p.file_name()
-                .is_some_and(|n| n.to_string_lossy().ends_with(&suffix))
+        for (_, path) in files.iter().filter(|(stem, _)| {
+            crate::run::curves::split_stem(stem).is_some_and(|(_, s)| s == *signal)
         }) {
             let Ok(text) = crate::input::read_text(path, crate::input::InputKind::RunFile) else {
                 continue;
             };
-            // time_s,measured,sigma,model,residual
-            for line in text.lines().skip(1) {
-                let v: Vec<f64> = line
-                    .split(',')
-                    .filter_map(|x| x.trim().parse().ok())
-                    .collect();
-                if v.len() >= 4 && v[1].abs() > 0.0 && v.iter().all(|x| x.is_finite()) {
-                    scatter += (v[2] / v[1]).powi(2);
-                    error += ((v[3] - v[1]) / v[1]).powi(2);
+            let Ok(curve) = crate::run::curves::parse_case_curve_strict(&text) else {
+                continue;
+            };
+            for i in 0..curve.time_s.len() {
+                let row = [
+                    curve.time_s[i],
+                    curve.measured[i],
+                    curve.sigma[i],
+                    curve.model[i],
+                    curve.residual[i],
+                ];
+                let (measured, sigma, model) = (row[1], row[2], row[3]);
+                if measured.abs() > 0.0 && row.iter().all(|x| x.is_finite()) {
+                    scatter += (sigma / measured).powi(2);
+                    error += ((model - measured) / measured).powi(2);
                     n += 1.0;
                 }
             }
