@@ -1,4 +1,4 @@
-//! The milligram scale (physics.md §3): reading TGA, DSC and MCC files, isoconversional and
+//! The milligram scale (docs/physics.md §3): reading TGA, DSC and MCC files, isoconversional and
 //! Kissinger analysis, milligram-scale scenario files (a heating programme instead of an
 //! irradiance) run through the 0-D model of `physics::zero_d`, and kinetic fits with the model
 //! curves and residuals that a later fit job can use. File formats are in

@@ -1,4 +1,4 @@
-//! Verification of the milligram-scale tools (physics.md §3): the 0-D model against Kissinger's
+//! Verification of the milligram-scale tools (docs/physics.md §3): the 0-D model against Kissinger's
 //! exact peak condition, the isoconversional methods on simulated data (ICTAC, Vyazovkin et al.
 //! 2011), and the kinetic fit on the open PMMA data when `EMBERFIT_REFERENCE_DATA` names its
 //! folder. Measured figures are printed (`cargo test --test integration microscale --

@@ -234,7 +234,7 @@ fn twin_tga_at_three_heating_rates_recovers_a_and_e_within_their_intervals() {
 
 /// Twin experiment (the source is the twin construction): with the kinetics fixed at their
 /// true values, an MCC run at 60 K/min (heat release rate = gas release × heat of combustion,
-/// physics.md §3) and a DSC run at 10 K/min (heat flow = rate × heat of reaction) simulated
+/// docs/physics.md §3) and a DSC run at 10 K/min (heat flow = rate × heat of reaction) simulated
 /// from Hc = 25 MJ/kg and ΔH = 800 kJ/kg, with noise, give back both heats inside their 95 %
 /// intervals, fitted together in one job.
 #[test]
