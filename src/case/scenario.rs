@@ -232,16 +232,6 @@ impl LoadedScenario {
         }
         Ok(())
     }
-
-    /// Replaces the material of every layer that uses the material file `path`.
-    pub fn replace_material(&mut self, path: &Path, model: &MaterialModel) {
-        for (idx, material_path) in self.material_paths.iter().enumerate() {
-            if material_path == path {
-                self.materials[idx] = model.clone();
-                self.scenario.layers[idx].material = model.material.clone();
-            }
-        }
-    }
 }
 
 /// Reads a scenario and the material files of its layers, and validates everything.

@@ -13,7 +13,7 @@ pub mod scenario;
 use std::path::PathBuf;
 
 pub use files::{read_thermogram, MeasurementKind, Thermogram};
-pub use fit::{fit_single_step, model_curve, residuals, MilligramCase, SingleStepFit};
+pub use fit::{fit_single_step, MilligramCase, SingleStepFit};
 pub use isoconversional::{analyse, ConversionRun, IsoconversionalReport, Method};
 pub use scenario::{
     is_milligram_scenario, load_milligram_scenario, simulate_programme, zero_d_csv,
