@@ -449,7 +449,7 @@ fn join_fit(
 /// interface would hide them), and refuses them with `--strict`. A job that cannot be read is
 /// left to the fit, which reports it the same way.
 fn check_fit_data(args: &FitArgs) -> Result<()> {
-    if let Ok(job) = emberfit::fit::job::load_job(&args.job) {
+    if let Ok(job) = emberfit::case::job::load_job(&args.job) {
         refuse_warnings_when_strict(&job.warnings, args.strict)?;
         print_notices(&job.warnings);
     }
@@ -490,7 +490,7 @@ fn fit_detached(args: &FitArgs) -> Result<()> {
     use std::process::{Command as Process, Stdio};
 
     // Refuse a bad job here, where the user can see the message.
-    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    emberfit::case::job::load_job(&args.job).context("reading the fit job")?;
     let name = run_name(args);
     emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
     if let Some(threads) = args.threads {
@@ -592,7 +592,7 @@ fn watch(args: WatchArgs) -> Result<()> {
 /// reads and validates (so `fit nothere.toml` says only that), and a new run does not land in
 /// an existing run directory (so no viewer replays the old run's log first).
 fn check_before_start(args: &FitArgs) -> Result<()> {
-    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    emberfit::case::job::load_job(&args.job).context("reading the fit job")?;
     if let Some(name) = &args.name {
         let directory = emberfit::run::RunDirectory::new(&args.runs_dir.join(name));
         if !args.resume && directory.root.exists() && !directory.holds_only_the_log() {
@@ -609,7 +609,7 @@ fn check_before_start(args: &FitArgs) -> Result<()> {
 /// each number is follow the table, wrapped).
 fn fit_summary_table(
     summary: &emberfit::run::RunSummary,
-    labels: &[emberfit::fit::label::ParameterLabel],
+    labels: &[emberfit::case::label::ParameterLabel],
 ) -> String {
     use emberfit::headless::{interval_text, significant};
     const WIDTH: usize = 80;

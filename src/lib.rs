@@ -13,5 +13,6 @@ pub mod microscale;
 pub mod physics;
 pub mod predict;
 pub mod run;
+pub mod source;
 pub mod synthetic;
 pub mod tui;

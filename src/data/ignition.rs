@@ -476,25 +476,10 @@ impl IgnitionList {
     /// Reads and validates an ignition list.
     pub fn load(path: &Path) -> Result<IgnitionList, DataError> {
         let text = super::read_toml_text(path)?;
-        let raw: RawIgnitionList = toml::from_str(&text).map_err(|source| DataError::Syntax {
-            path: path.to_path_buf(),
-            source,
-        })?;
-        let line_of = |span: std::ops::Range<usize>| {
-            text[..span.start.min(text.len())].matches('\n').count() + 1
-        };
+        let raw: RawIgnitionList = crate::source::parse(path, &text)?;
+        let spans: crate::source::Spans<'_, DataError> = crate::source::Spans::new(path, &text);
         let check = |value: &Spanned<f64>, field: &str, low: f64, high: f64| {
-            let v = *value.get_ref();
-            if (low..=high).contains(&v) {
-                Ok(v)
-            } else {
-                Err(DataError::Invalid {
-                    path: path.to_path_buf(),
-                    line: line_of(value.span()),
-                    field: field.to_string(),
-                    problem: format!("must be between {low} and {high}, got {v}"),
-                })
-            }
+            spans.within(value, field, low, high)
         };
         let folder = path.parent().unwrap_or_else(|| Path::new("."));
         let mut points = Vec::new();

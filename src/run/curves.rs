@@ -8,9 +8,9 @@ use std::path::Path;
 
 use serde::{Deserialize, Serialize};
 
+use crate::case::job::FitJob;
+use crate::case::model::CaseModel;
 use crate::export::write_atomically;
-use crate::fit::job::FitJob;
-use crate::fit::model::CaseModel;
 
 use super::{io, slug, RunDirectory, RunError};
 

@@ -8,8 +8,8 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 use std::sync::Arc;
 
-use emberfit::fit::job::load_job;
-use emberfit::fit::model::CaseModel;
+use emberfit::case::job::load_job;
+use emberfit::case::model::CaseModel;
 use emberfit::fit::objective::Objective;
 use emberfit::fit::parameters::Prior;
 use emberfit::physics::material::{Component, GasRelease, Material, PropertyLaw, Reaction};
@@ -363,7 +363,7 @@ fn prior_from_reads_a_summary_and_best_toml_serves_as_the_material() {
         })
     );
     let model = CaseModel::new(&loaded);
-    let objective = Objective::new(&model, &loaded.cases);
+    let objective = Objective::new(&model);
     let evaluation = objective.evaluate(&[start]);
     println!("prior cost at 3 standard errors: {}", evaluation.prior_cost);
     assert!(
