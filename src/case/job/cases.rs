@@ -439,8 +439,14 @@ fn build_signal(
     let kind = raw_signal.kind();
     let (weight, window) = weight_and_window(source, Some(raw_signal), &skey)?;
     let depth_mm = signal_depth_mm(source, raw, raw_signal, &skey)?;
-    let (time_s, value, spread) = measured_curve(source, raw, raw_signal, tests, depth_mm, &skey)?;
-    let kept = keep_in_window(kind, window, &time_s, &value, spread.as_deref());
+    let curve = measured_curve(source, raw, raw_signal, tests, depth_mm, &skey)?;
+    let kept = keep_in_window(
+        kind,
+        window,
+        &curve.time_s,
+        &curve.value,
+        curve.spread.as_deref(),
+    );
     if kept.time_s.is_empty() {
         return Err(source.inconsistent(format!(
             "case `{}`: signal `{}` has no data in its window",
@@ -456,7 +462,7 @@ fn build_signal(
     let (sigma, sigma_source) = weighting::sigma_policy(
         kind,
         stated_sigma,
-        spread.is_some().then_some(kept.spread.as_slice()),
+        curve.spread.is_some().then_some(kept.spread.as_slice()),
         scale,
         kept.time_s.len(),
     );
@@ -524,6 +530,13 @@ fn signal_depth_mm(
     }
 }
 
+/// A signal's measured times, values and (from repeats or several tests) spread.
+struct Curve {
+    time_s: Vec<f64>,
+    value: Vec<f64>,
+    spread: Option<Vec<f64>>,
+}
+
 /// Times, values and (from repeats) spread of a signal before its window: a report
 /// quantity's mean over the tests (spread: their standard deviation), a curve's repeat mean,
 /// or a single test's curve.
@@ -534,7 +547,7 @@ fn measured_curve(
     tests: &CaseTests<'_>,
     depth_mm: Option<f64>,
     skey: &dyn Fn(&str) -> String,
-) -> Result<(Vec<f64>, Vec<f64>, Option<Vec<f64>>), CaseError> {
+) -> Result<Curve, CaseError> {
     let kind = raw_signal.kind();
     let missing = |what: &str| {
         source.invalid(
@@ -566,21 +579,29 @@ fn measured_curve(
             return Err(missing(&kind.name().replace('_', " ")));
         }
         let (mean, spread) = mean_and_sample_deviation(&values);
-        return Ok((vec![mean], vec![mean], spread.map(|s| vec![s])));
+        return Ok(Curve {
+            time_s: vec![mean],
+            value: vec![mean],
+            spread: spread.map(|s| vec![s]),
+        });
     }
     match tests.repeats {
         Some(set) => {
             let curve = repeat_curve(set, kind, depth_mm).ok_or_else(|| missing(&what))?;
-            Ok((
-                set.time_s.clone(),
-                curve.mean.clone(),
-                Some(curve.standard_deviation.clone()),
-            ))
+            Ok(Curve {
+                time_s: set.time_s.clone(),
+                value: curve.mean.clone(),
+                spread: Some(curve.standard_deviation.clone()),
+            })
         }
         None => {
             let first = &tests.reduced[0];
             let curve = test_curve(first, kind, depth_mm).ok_or_else(|| missing(&what))?;
-            Ok((first.time_s.clone(), curve.clone(), None))
+            Ok(Curve {
+                time_s: first.time_s.clone(),
+                value: curve.clone(),
+                spread: None,
+            })
         }
     }
 }
