@@ -1,4 +1,4 @@
-//! The weighting of a fit's signals (docs/fit-jobs.md, "Weights and σ"): the σ that
+//! The weighting of a fit's signals (docs/fit-jobs.md, "The objective"): the σ that
 //! standardises each residual (a stated noise, the repeats' spread floored at 2 % of the
 //! signal's scale, or the scale itself), the scale (the largest magnitude, or for a
 //! temperature its rise), and the effective number of independent points of a curve from
