@@ -12,11 +12,11 @@ use std::time::Instant;
 
 use argmin::core::{CostFunction, Executor};
 use argmin::solver::particleswarm::ParticleSwarm;
+use emberfit::case::job::load_job;
+use emberfit::case::model::CaseModel;
 use emberfit::fit::engine::{
     initial_state, optimise, EngineSettings, EngineState, IterationReport, Observer,
 };
-use emberfit::fit::job::load_job;
-use emberfit::fit::model::CaseModel;
 use emberfit::fit::objective::Objective;
 use rayon::prelude::*;
 
@@ -50,7 +50,7 @@ fn main() {
     let job_path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/cases/bench-fit.toml");
     let job = load_job(&job_path).unwrap_or_else(|e| panic!("bench job: {e}"));
     let model = CaseModel::new(&job);
-    let objective = Objective::new(&model, &job.cases);
+    let objective = Objective::new(&model);
     let state = |seed| {
         initial_state(
             &job.parameters,
@@ -106,15 +106,12 @@ fn main() {
     pool.install(|| {
         // 2. Time to converge (DE then Nelder–Mead, the job's settings).
         let settings = EngineSettings {
-            population: job.settings.population,
-            max_evaluations: job.settings.max_evaluations as u64,
             time_budget_s: None,
             target_objective: 0.0,
-            stagnation_generations: job.settings.stagnation_generations as u64,
-            seed: job.settings.seed,
             local_refinement: true,
             local_max_evaluations: 400,
             local_starts: 1,
+            ..job.settings.engine.clone()
         };
         let started = Instant::now();
         let outcome = optimise(&objective, &settings, initial_state(&job.parameters, &settings), &mut Quiet);

@@ -14,5 +14,6 @@ pub mod physics;
 pub mod predict;
 pub mod present;
 pub mod run;
+pub mod source;
 pub mod synthetic;
 pub mod tui;

@@ -200,6 +200,29 @@ impl LoadedScenario {
         self.scenario.exposure.irradiance_w_m2 = Schedule::Constant(irradiance_w_m2);
     }
 
+    /// Gives the exposed layer (the first) a new thickness, m, and keeps its grid rule: the
+    /// same first cell and growth (docs/numerics.md, "Grid"), so a thicker layer gets more
+    /// cells, not coarser ones. The cell count is `cell_count_for`'s, 5..=400 (the one rule
+    /// every scenario's grid follows). The fit's `thickness_mm` and `predict --thickness-mm`
+    /// both come here.
+    pub fn set_exposed_layer_thickness_m(&mut self, thickness_m: f64) {
+        let Some(layer) = self.scenario.layers.first_mut() else {
+            return;
+        };
+        let first_cell_m = layer
+            .cell_thicknesses_m()
+            .next()
+            .unwrap_or(layer.thickness_m);
+        layer.thickness_m = thickness_m;
+        // The factor keeps the same count when the thickness is unchanged (rounding of the
+        // first cell's thickness would otherwise add one).
+        layer.n_cells = crate::physics::scenario::cell_count_for(
+            layer.thickness_m,
+            first_cell_m * (1.0 + 1e-9),
+            layer.cell_growth,
+        );
+    }
+
     /// Puts `model` into every specimen layer, with the exposure values a calibrated model
     /// carries. The layers' compositions name components, so the component list must match.
     pub fn use_specimen_material(&mut self, model: &MaterialModel) -> Result<(), CaseError> {
@@ -231,16 +254,6 @@ impl LoadedScenario {
             apply_calibration(&mut self.scenario, &calibration.scenario);
         }
         Ok(())
-    }
-
-    /// Replaces the material of every layer that uses the material file `path`.
-    pub fn replace_material(&mut self, path: &Path, model: &MaterialModel) {
-        for (idx, material_path) in self.material_paths.iter().enumerate() {
-            if material_path == path {
-                self.materials[idx] = model.clone();
-                self.scenario.layers[idx].material = model.material.clone();
-            }
-        }
     }
 }
 

@@ -1,4 +1,5 @@
-//! A file's text and path, for turning spans into line numbers and checks into errors.
+//! A file's text and path (owned), for turning spans into line numbers and checks into
+//! errors: the case reader's handle on the crate's one span validator, `crate::source::Spans`.
 
 use std::ops::Range;
 use std::path::{Path, PathBuf};
@@ -7,6 +8,7 @@ use serde::de::DeserializeOwned;
 use toml::Spanned;
 
 use super::CaseError;
+use crate::source::Spans;
 
 pub(crate) struct Source {
     pub path: PathBuf,
@@ -15,29 +17,23 @@ pub(crate) struct Source {
 
 impl Source {
     pub fn read(path: &Path) -> Result<Self, CaseError> {
-        let text =
-            crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
-                CaseError::Read {
-                    path: path.to_path_buf(),
-                    source,
-                }
-            })?;
         Ok(Source {
             path: path.to_path_buf(),
-            text,
+            text: crate::source::read_toml_text(path)?,
         })
     }
 
     pub fn parse<T: DeserializeOwned>(&self) -> Result<T, CaseError> {
-        toml::from_str(&self.text).map_err(|source| CaseError::Syntax {
-            path: self.path.clone(),
-            source,
-        })
+        crate::source::parse(&self.path, &self.text)
+    }
+
+    /// The span validator of this file (`crate::source::Spans`).
+    pub fn spans(&self) -> Spans<'_, CaseError> {
+        Spans::new(&self.path, &self.text)
     }
 
     pub fn line(&self, span: &Range<usize>) -> usize {
-        let end = span.start.min(self.text.len());
-        self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
+        self.spans().line(span)
     }
 
     pub fn invalid(
@@ -46,67 +42,31 @@ impl Source {
         field: &str,
         problem: impl Into<String>,
     ) -> CaseError {
-        CaseError::Invalid {
-            path: self.path.clone(),
-            line: self.line(span),
-            field: field.to_string(),
-            problem: problem.into(),
-        }
+        self.spans().invalid(span, field, problem)
     }
 
     pub fn inconsistent(&self, problem: impl Into<String>) -> CaseError {
-        CaseError::Inconsistent {
-            path: self.path.clone(),
-            problem: problem.into(),
-        }
+        self.spans().inconsistent(problem)
     }
 
     /// The value, if it is > 0 and finite.
     pub fn positive(&self, value: &Spanned<f64>, field: &str) -> Result<f64, CaseError> {
-        let v = *value.get_ref();
-        if v > 0.0 && v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(&value.span(), field, format!("must be > 0, got {v}")))
-        }
+        self.spans().positive(value, field)
     }
 
     /// The value, if it is ≥ 0 and finite.
     pub fn non_negative(&self, value: &Spanned<f64>, field: &str) -> Result<f64, CaseError> {
-        let v = *value.get_ref();
-        if v >= 0.0 && v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(&value.span(), field, format!("must be ≥ 0, got {v}")))
-        }
+        self.spans().non_negative(value, field)
     }
 
     /// The value, if it lies within 0..1.
     pub fn fraction(&self, value: &Spanned<f64>, field: &str) -> Result<f64, CaseError> {
-        let v = *value.get_ref();
-        if (0.0..=1.0).contains(&v) {
-            Ok(v)
-        } else {
-            Err(self.invalid(
-                &value.span(),
-                field,
-                format!("must be within 0..1, got {v}"),
-            ))
-        }
+        self.spans().fraction(value, field)
     }
 
     /// The value, if it is finite.
     pub fn finite(&self, value: &Spanned<f64>, field: &str) -> Result<f64, CaseError> {
-        let v = *value.get_ref();
-        if v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(
-                &value.span(),
-                field,
-                format!("must be a finite number, got {v}"),
-            ))
-        }
+        self.spans().finite(value, field)
     }
 }
 

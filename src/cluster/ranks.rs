@@ -22,9 +22,9 @@ use mpi::Threading;
 use serde::{Deserialize, Serialize};
 
 use super::ClusterError;
+use crate::case::job::load_job;
+use crate::case::model::CaseModel;
 use crate::fit::evaluator::{Costs, Evaluator, Local, Residuals, Task, TaskKind};
-use crate::fit::job::load_job;
-use crate::fit::model::CaseModel;
 use crate::fit::objective::Objective;
 
 /// Message tags: rank 0 → worker, worker → rank 0.
@@ -113,7 +113,7 @@ impl Ranks {
     pub fn serve_fit(&self, job_path: &std::path::Path) -> Result<(), ClusterError> {
         let job = load_job(job_path)?;
         let model = CaseModel::new(&job);
-        let objective = Objective::new(&model, &job.cases);
+        let objective = Objective::new(&model);
         let costs = Costs(&objective);
         let residuals = Residuals(&objective);
         self.serve(&[&costs, &residuals])

@@ -189,7 +189,7 @@ fn checked_flag_values(
     let text = toml::to_string(&file).context("checking the flags")?;
     match TestDescription::parse(&args.input, &text) {
         Ok(checked) => Ok(checked),
-        Err(DataError::Invalid { field, problem, .. }) => {
+        Err(DataError::Input(emberfit::source::FileError::Invalid { field, problem, .. })) => {
             let flag = FLAG_KEYS
                 .iter()
                 .find(|(_, key)| *key == field)

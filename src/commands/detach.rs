@@ -22,7 +22,7 @@ pub(super) fn fit_detached(args: &FitArgs) -> Result<()> {
     use std::process::{Command as Process, Stdio};
 
     // Refuse a bad job here, where the user can see the message.
-    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    emberfit::case::job::load_job(&args.job).context("reading the fit job")?;
     let name = run_name(args);
     emberfit::run::fingerprint::check_run_name(&name).map_err(anyhow::Error::msg)?;
     if let Some(threads) = args.threads {

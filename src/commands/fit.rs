@@ -181,7 +181,7 @@ fn join_fit(worker: std::thread::JoinHandle<Result<FitReport, RunError>>) -> Res
 /// interface would hide them), and refuses them with `--strict`. A job that cannot be read is
 /// left to the fit, which reports it the same way.
 fn check_fit_data(args: &FitArgs) -> Result<()> {
-    if let Ok(job) = emberfit::fit::job::load_job(&args.job) {
+    if let Ok(job) = emberfit::case::job::load_job(&args.job) {
         refuse_warnings_when_strict(&job.warnings, args.strict)?;
         print_notices(&job.warnings);
     }
@@ -192,7 +192,7 @@ fn check_fit_data(args: &FitArgs) -> Result<()> {
 /// reads and validates (so `fit nothere.toml` says only that), and a new run does not land in
 /// an existing run directory (so no viewer replays the old run's log first).
 fn check_before_start(args: &FitArgs) -> Result<()> {
-    emberfit::fit::job::load_job(&args.job).context("reading the fit job")?;
+    emberfit::case::job::load_job(&args.job).context("reading the fit job")?;
     if let Some(name) = &args.name {
         refuse_existing_run(&RunDirectory::new(&args.runs_dir.join(name)), args.resume)?;
     }

@@ -11,7 +11,7 @@ use super::DataError;
 /// Five-point derivative dy/dt at every sample, in units of `y` per second.
 ///
 /// Exact for polynomials up to fourth degree at every point, interior and ends (ISO 5660-1,
-/// physics.md §4). Needs at least five samples with strictly increasing times.
+/// docs/physics.md §4). Needs at least five samples with strictly increasing times.
 pub fn five_point_derivative(time_s: &[f64], values: &[f64]) -> Result<Vec<f64>, DataError> {
     check_samples(time_s, values, 5, "the five-point derivative")?;
     let n = time_s.len();
@@ -224,7 +224,7 @@ mod tests {
     }
 
     proptest::proptest! {
-        /// Exactness for any quartic on any increasing grid (physics.md §4 states it for the
+        /// Exactness for any quartic on any increasing grid (docs/physics.md §4 states it for the
         /// ISO formulas; the general weights keep it on uneven steps).
         #[test]
         fn any_quartic_on_any_grid_is_differentiated_exactly(

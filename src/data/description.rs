@@ -12,6 +12,7 @@ use toml::Spanned;
 use super::derivative::Smoothing;
 use super::oxygen::AMBIENT_DRY_OXYGEN;
 use super::DataError;
+use crate::source::Spans;
 
 /// Sample rule for the ignition time when none is given: HRR first reaches this fraction of its
 /// peak and stays at or above it for [`DEFAULT_IGNITION_HOLD_S`] (our stated rule; the same
@@ -371,65 +372,6 @@ struct RawProcessing {
     ignition_hold_s: Option<Spanned<f64>>,
 }
 
-/// Validation context: the file and its text, to turn spans into line numbers.
-struct Checker<'a> {
-    path: &'a Path,
-    text: &'a str,
-}
-
-impl Checker<'_> {
-    fn line_of<T>(&self, value: &Spanned<T>) -> usize {
-        let start = value.span().start.min(self.text.len());
-        self.text[..start].matches('\n').count() + 1
-    }
-
-    fn invalid<T>(&self, value: &Spanned<T>, field: &str, problem: String) -> DataError {
-        DataError::Invalid {
-            path: self.path.to_path_buf(),
-            line: self.line_of(value),
-            field: field.to_string(),
-            problem,
-        }
-    }
-
-    fn positive(&self, value: &Spanned<f64>, field: &str) -> Result<f64, DataError> {
-        let v = *value.get_ref();
-        if v > 0.0 && v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(value, field, format!("must be > 0, got {v}")))
-        }
-    }
-
-    fn non_negative(&self, value: &Spanned<f64>, field: &str) -> Result<f64, DataError> {
-        let v = *value.get_ref();
-        if v >= 0.0 && v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(value, field, format!("must be >= 0, got {v}")))
-        }
-    }
-
-    fn within(
-        &self,
-        value: &Spanned<f64>,
-        field: &str,
-        low: f64,
-        high: f64,
-    ) -> Result<f64, DataError> {
-        let v = *value.get_ref();
-        if (low..=high).contains(&v) {
-            Ok(v)
-        } else {
-            Err(self.invalid(
-                value,
-                field,
-                format!("must be between {low} and {high}, got {v}"),
-            ))
-        }
-    }
-}
-
 /// Saturation vapour pressure of water over a flat surface, Pa, by the Magnus form
 /// 610.94·exp(17.625·θ/(θ + 243.04)), θ in °C (Alduchov, O.A. and Eskridge, R.E., J. Appl.
 /// Meteor. 35 (1996) 601–609; quoted from memory).
@@ -446,17 +388,14 @@ impl TestDescription {
 
     /// Validates TEST.toml text; `path` locates the data file and appears in messages.
     pub fn parse(path: &Path, text: &str) -> Result<TestDescription, DataError> {
-        let raw: RawDescription = toml::from_str(text).map_err(|source| DataError::Syntax {
-            path: path.to_path_buf(),
-            source,
-        })?;
-        let check = Checker { path, text };
+        let raw: RawDescription = crate::source::parse(path, text)?;
+        let check: Spans<'_, DataError> = Spans::new(path, text);
         let folder = path.parent().unwrap_or_else(|| Path::new("."));
 
         let irradiance_kw_m2 = check.non_negative(&raw.irradiance_kw_m2, "irradiance_kw_m2")?;
         if irradiance_kw_m2 > 200.0 {
             return Err(check.invalid(
-                &raw.irradiance_kw_m2,
+                &raw.irradiance_kw_m2.span(),
                 "irradiance_kw_m2",
                 format!(
                     "must be at most 200 kW/m² (cone heaters reach 100), got {irradiance_kw_m2}"
@@ -466,7 +405,7 @@ impl TestDescription {
         let exposed_area_m2 = check.positive(&raw.exposed_area_m2, "exposed_area_m2")?;
         if exposed_area_m2 > 1.0 {
             return Err(check.invalid(
-                &raw.exposed_area_m2,
+                &raw.exposed_area_m2.span(),
                 "exposed_area_m2",
                 format!("must be in m2 (a cone specimen is about 0.01), got {exposed_area_m2}"),
             ));
@@ -476,7 +415,7 @@ impl TestDescription {
                 let area = check.positive(value, "specimen_area_m2")?;
                 if area > 1.0 {
                     return Err(check.invalid(
-                        value,
+                        &value.span(),
                         "specimen_area_m2",
                         format!("must be in m2 (a cone specimen is about 0.01), got {area}"),
                     ));
@@ -588,7 +527,7 @@ impl TestDescription {
                     (None, Some(file)) => OrificeConstant::FromCalibration(folder.join(file)),
                     (Some(c), Some(_)) => {
                         return Err(check.invalid(
-                            c,
+                            &c.span(),
                             "gas_analysis.orifice_constant",
                             "and `methane_calibration` are both given; keep one".to_string(),
                         ))
@@ -614,7 +553,7 @@ impl TestDescription {
                         "with_carbon_oxides" if has_carbon_oxides => GasMethod::WithCarbonOxides,
                         "with_carbon_oxides" => {
                             return Err(check.invalid(
-                                m,
+                                &m.span(),
                                 "gas_analysis.method",
                                 "`with_carbon_oxides` needs columns.carbon_dioxide and \
                                  columns.carbon_monoxide"
@@ -623,7 +562,7 @@ impl TestDescription {
                         }
                         other => {
                             return Err(check.invalid(
-                                m,
+                                &m.span(),
                                 "gas_analysis.method",
                                 format!(
                                     "must be `oxygen_only` or `with_carbon_oxides`, got `{other}`"
@@ -684,7 +623,7 @@ impl TestDescription {
             Some(b) => {
                 if *b.steady_to_s.get_ref() <= b.steady_from_s {
                     return Err(check.invalid(
-                        &b.steady_to_s,
+                        &b.steady_to_s.span(),
                         "methane_burner.steady_to_s",
                         format!(
                             "must be after steady_from_s = {}, got {}",
@@ -745,7 +684,7 @@ impl TestDescription {
                     None
                 } else if points < 3 || points % 2 == 0 || degree < 0 || points <= degree {
                     return Err(check.invalid(
-                        window,
+                        &window.span(),
                         "processing.smoothing_window_points",
                         format!(
                             "must be odd, at least 3 and above smoothing_degree = {degree}, \
@@ -773,7 +712,7 @@ impl TestDescription {
 
         let data_file = raw.data_file.get_ref();
         if data_file.trim().is_empty() {
-            return Err(check.invalid(&raw.data_file, "data_file", "is empty".to_string()));
+            return Err(check.invalid(&raw.data_file.span(), "data_file", "is empty".to_string()));
         }
         Ok(TestDescription {
             source: path.to_path_buf(),

@@ -1,4 +1,4 @@
-//! Ignition across irradiances (physics.md §4): straight-line fits of t_ig^(−n) against the
+//! Ignition across irradiances (docs/physics.md §4): straight-line fits of t_ig^(−n) against the
 //! irradiance for the thermally thick form (n = ½), Janssens' form for thick solids with heat
 //! losses (n = 0.547) and the thermally thin form (n = 1), giving the critical heat flux (the
 //! flux-axis intercept), the thermal response parameter and the apparent kρc, with R² and a
@@ -18,7 +18,7 @@ use super::{reduce, DataError, Notice, TestDescription};
 const STEFAN_BOLTZMANN_W_M2_K4: f64 = 5.670374419e-8;
 
 /// Janssens' exponent for thick solids with losses, 0.547 (Janssens, M., Fire and Materials 15
-/// (1991) 151–167; physics.md §4).
+/// (1991) 151–167; docs/physics.md §4).
 pub const JANSSENS_EXPONENT: f64 = 0.547;
 
 /// Janssens' coefficient in q̇''_e = q̇''_cr·[1 + 0.73·(kρc/(h_ig²·t_ig))^0.547] (Janssens 1991;
@@ -476,25 +476,10 @@ impl IgnitionList {
     /// Reads and validates an ignition list.
     pub fn load(path: &Path) -> Result<IgnitionList, DataError> {
         let text = super::read_toml_text(path)?;
-        let raw: RawIgnitionList = toml::from_str(&text).map_err(|source| DataError::Syntax {
-            path: path.to_path_buf(),
-            source,
-        })?;
-        let line_of = |span: std::ops::Range<usize>| {
-            text[..span.start.min(text.len())].matches('\n').count() + 1
-        };
+        let raw: RawIgnitionList = crate::source::parse(path, &text)?;
+        let spans: crate::source::Spans<'_, DataError> = crate::source::Spans::new(path, &text);
         let check = |value: &Spanned<f64>, field: &str, low: f64, high: f64| {
-            let v = *value.get_ref();
-            if (low..=high).contains(&v) {
-                Ok(v)
-            } else {
-                Err(DataError::Invalid {
-                    path: path.to_path_buf(),
-                    line: line_of(value.span()),
-                    field: field.to_string(),
-                    problem: format!("must be between {low} and {high}, got {v}"),
-                })
-            }
+            spans.within(value, field, low, high)
         };
         let folder = path.parent().unwrap_or_else(|| Path::new("."));
         let mut points = Vec::new();

@@ -71,36 +71,11 @@ impl fmt::Display for Notice {
 /// Everything that can stop a test file from being read or reduced.
 #[derive(Debug, thiserror::Error)]
 pub enum DataError {
-    /// The file could not be opened or read.
-    #[error("cannot read {}", path.display())]
-    Read {
-        /// File that failed.
-        path: PathBuf,
-        /// Operating-system error.
-        #[source]
-        source: std::io::Error,
-    },
-    /// The TOML description is not valid TOML or has a wrongly typed or unknown key.
-    #[error("cannot parse {}", path.display())] // toml's own message adds line and column
-    Syntax {
-        /// File that failed.
-        path: PathBuf,
-        /// Parser error with line and column.
-        #[source]
-        source: toml::de::Error,
-    },
-    /// A key of the TOML description has a value that cannot be used.
-    #[error("{}:{line}: `{field}` {problem}", path.display())]
-    Invalid {
-        /// TOML file.
-        path: PathBuf,
-        /// Line of the offending key (1-based).
-        line: usize,
-        /// Key path, e.g. `columns.mass.unit`.
-        field: String,
-        /// What is wrong and what was found.
-        problem: String,
-    },
+    /// A hand-written TOML file (a test description, an ignition list) that cannot be read or
+    /// parsed, or one of its keys with a value that cannot be used (`file:line: \`key\`
+    /// problem`); also a data file that cannot be read.
+    #[error(transparent)]
+    Input(#[from] crate::source::FileError),
     /// A required key of the TOML description is missing.
     #[error("{}: `{field}` {problem}", path.display())]
     Missing {
@@ -141,10 +116,7 @@ pub enum DataError {
 }
 
 /// Reads a hand-written TOML file of the data module (a test description, an ignition list)
-/// through the input guard, as a [`DataError::Read`] naming the file when it fails.
+/// through the input guard, as a [`DataError::Input`] naming the file when it fails.
 pub(crate) fn read_toml_text(path: &std::path::Path) -> Result<String, DataError> {
-    crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| DataError::Read {
-        path: path.to_path_buf(),
-        source,
-    })
+    Ok(crate::source::read_toml_text(path)?)
 }

@@ -1,4 +1,4 @@
-//! Heat release rate by oxygen consumption (physics.md §4): the O₂-only equation of ISO 5660-1,
+//! Heat release rate by oxygen consumption (docs/physics.md §4): the O₂-only equation of ISO 5660-1,
 //! the general form with CO₂ and CO of Janssens (1991), the exhaust mass flow from the orifice
 //! plate, the orifice constant from a methane calibration run, and the signal handling they
 //! need (analyser delay-time shift, pre-exposure baselines).

@@ -1,4 +1,4 @@
-//! Report quantities of a cone calorimeter test (ISO 5660-1 and physics.md §4) from reduced
+//! Report quantities of a cone calorimeter test (ISO 5660-1 and docs/physics.md §4) from reduced
 //! curves: time to ignition (given, or detected by a stated rule), peak HRR and its time, total
 //! heat release, average HRR over 60/180/300 s after ignition, mass lost, average MLR between
 //! 10 % and 90 % of the mass loss, effective heat of combustion, and smoke quantities.

@@ -105,10 +105,10 @@ pub struct Table {
 pub fn read_table(path: &Path, requests: &[ColumnRequest]) -> Result<Table, DataError> {
     let bytes =
         crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
-            DataError::Read {
+            DataError::Input(crate::source::FileError::Read {
                 path: path.to_path_buf(),
                 source,
-            }
+            })
         })?;
     match String::from_utf8(bytes) {
         Ok(text) => parse_table(path, &text, requests),

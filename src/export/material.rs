@@ -5,7 +5,10 @@
 use toml_edit::{value, Array, ArrayOfTables, DocumentMut, Item, Table};
 
 use crate::case::material::MaterialModel;
-use crate::fit::parameters::{FreeParameter, PropertyPart, Scale, Target};
+use crate::case::targets::{
+    reactions_without_own_heat_of_combustion, row_of, Kind, Place, PropertyPart, Target,
+};
+use crate::fit::parameters::{FreeParameter, Scale};
 use crate::physics::material::Material;
 
 /// Provenance and quality figures written into `[calibration]`.
@@ -123,12 +126,80 @@ fn array_entry<'d>(
         .ok_or_else(|| ExportError::Missing(format!("{key}[{index}]")))
 }
 
+/// Writes one fitted value at its target's key (`case::targets`' table says which key of
+/// which table): into the material document, or for a scenario value into `scenario_values`
+/// (`[calibration.scenario]`).
+fn write_target(
+    doc: &mut DocumentMut,
+    scenario_values: &mut Table,
+    start: &MaterialModel,
+    target: &Target,
+    fitted_value: f64,
+    fitted_material: &Material,
+) -> Result<(), ExportError> {
+    let row = target.row();
+    match target {
+        Target::Conductivity { component, part } | Target::SpecificHeat { component, part } => {
+            let entry = array_entry(doc, Place::Component.name(), *component)?;
+            match part {
+                PropertyPart::Value => set_in(entry, row.file_key, Some("value"), fitted_value),
+                PropertyPart::Exponent => {
+                    set_in(entry, row.file_key, Some("exponent"), fitted_value)
+                }
+                PropertyPart::Factor => scale_property(entry, row.file_key, fitted_value),
+            }
+        }
+        // A from the fitted material, which holds what the reparametrisations derived.
+        Target::PreExponential { reaction }
+        | Target::PeakTemperature { reaction, .. }
+        | Target::Log10RateAt { reaction, .. } => set_in(
+            array_entry(doc, Place::Reaction.name(), *reaction)?,
+            row_of(Kind::PreExponential).file_key,
+            None,
+            fitted_material.reactions[*reaction].pre_exponential_per_s,
+        ),
+        Target::HeatOfCombustion { reactions } => {
+            if *reactions == reactions_without_own_heat_of_combustion(start) {
+                doc.insert(row.file_key, value(fitted_value));
+            } else {
+                for &reaction in reactions {
+                    array_entry(doc, Place::Reaction.name(), reaction)?
+                        .insert(row.file_key, value(fitted_value));
+                }
+            }
+            Ok(())
+        }
+        Target::Density { component: index }
+        | Target::Emissivity { component: index }
+        | Target::Absorption { component: index }
+        | Target::ActivationEnergy { reaction: index }
+        | Target::Order { reaction: index }
+        | Target::HeatOfReaction { reaction: index }
+        | Target::Yield { reaction: index }
+        | Target::FuelFraction { reaction: index } => {
+            let entry = array_entry(doc, row.place.name(), *index)?;
+            if row.is_optional_in_file {
+                entry.insert(row.file_key, value(fitted_value));
+                Ok(())
+            } else {
+                set_in(entry, row.file_key, None, fitted_value)
+            }
+        }
+        Target::FlameHeatFlux | Target::ConvectiveCoefficient | Target::CriticalFuelMassFlux => {
+            scenario_values.insert(row.file_key, value(fitted_value));
+            Ok(())
+        }
+    }
+}
+
 /// The calibrated model as TOML text. `fitted_material` is the material with every value
-/// applied (so derived values such as A from a peak temperature are taken from it).
+/// applied (so derived values such as A from a peak temperature are taken from it);
+/// `targets[i]` are where parameter i's value goes.
 pub fn calibrated_material_toml(
     start: &MaterialModel,
     start_text: &str,
     parameters: &[FreeParameter],
+    targets: &[Vec<Target>],
     fitted: &[FittedValue],
     fitted_material: &Material,
     provenance: &Provenance,
@@ -150,103 +221,16 @@ pub fn calibrated_material_toml(
         value(format!("{base_title} — calibrated ({})", provenance.job)),
     );
     let mut scenario_values = Table::new();
-    for (parameter, fit) in parameters.iter().zip(fitted) {
-        for target in &parameter.targets {
-            match target {
-                Target::Density { component } => set_in(
-                    array_entry(&mut doc, "component", *component)?,
-                    "density_kg_m3",
-                    None,
-                    fit.value,
-                )?,
-                Target::Conductivity { component, part }
-                | Target::SpecificHeat { component, part } => {
-                    let key = if matches!(target, Target::Conductivity { .. }) {
-                        "conductivity_w_m_k"
-                    } else {
-                        "specific_heat_j_kg_k"
-                    };
-                    let entry = array_entry(&mut doc, "component", *component)?;
-                    match part {
-                        PropertyPart::Value => set_in(entry, key, Some("value"), fit.value)?,
-                        PropertyPart::Exponent => set_in(entry, key, Some("exponent"), fit.value)?,
-                        PropertyPart::Factor => scale_property(entry, key, fit.value)?,
-                    }
-                }
-                Target::Emissivity { component } => set_in(
-                    array_entry(&mut doc, "component", *component)?,
-                    "emissivity",
-                    None,
-                    fit.value,
-                )?,
-                Target::Absorption { component } => {
-                    array_entry(&mut doc, "component", *component)?
-                        .insert("absorption_per_m", value(fit.value));
-                }
-                Target::PreExponential { reaction }
-                | Target::PeakTemperature { reaction, .. }
-                | Target::Log10RateAt { reaction, .. } => {
-                    let a = fitted_material.reactions[*reaction].pre_exponential_per_s;
-                    set_in(
-                        array_entry(&mut doc, "reaction", *reaction)?,
-                        "pre_exponential_per_s",
-                        None,
-                        a,
-                    )?;
-                }
-                Target::ActivationEnergy { reaction } => set_in(
-                    array_entry(&mut doc, "reaction", *reaction)?,
-                    "activation_energy_kj_mol",
-                    None,
-                    fit.value,
-                )?,
-                Target::Order { reaction } => {
-                    array_entry(&mut doc, "reaction", *reaction)?.insert("order", value(fit.value));
-                }
-                Target::HeatOfReaction { reaction } => set_in(
-                    array_entry(&mut doc, "reaction", *reaction)?,
-                    "heat_of_reaction_kj_kg",
-                    None,
-                    fit.value,
-                )?,
-                Target::Yield { reaction } => set_in(
-                    array_entry(&mut doc, "reaction", *reaction)?,
-                    "yield",
-                    None,
-                    fit.value,
-                )?,
-                Target::FuelFraction { reaction } => {
-                    array_entry(&mut doc, "reaction", *reaction)?
-                        .insert("fuel_fraction", value(fit.value));
-                }
-                Target::HeatOfCombustion { reactions } => {
-                    let material_level: Vec<usize> = start
-                        .file
-                        .reactions
-                        .iter()
-                        .enumerate()
-                        .filter(|(_, r)| r.heat_of_combustion_mj_kg.is_none())
-                        .map(|(i, _)| i)
-                        .collect();
-                    if *reactions == material_level {
-                        doc.insert("heat_of_combustion_mj_kg", value(fit.value));
-                    } else {
-                        for &reaction in reactions {
-                            array_entry(&mut doc, "reaction", reaction)?
-                                .insert("heat_of_combustion_mj_kg", value(fit.value));
-                        }
-                    }
-                }
-                Target::FlameHeatFlux => {
-                    scenario_values.insert("flame_heat_flux_kw_m2", value(fit.value));
-                }
-                Target::ConvectiveCoefficient => {
-                    scenario_values.insert("convective_coefficient_w_m2_k", value(fit.value));
-                }
-                Target::CriticalFuelMassFlux => {
-                    scenario_values.insert("critical_fuel_mass_flux_g_m2s", value(fit.value));
-                }
-            }
+    for (parameter_targets, fit) in targets.iter().zip(fitted) {
+        for target in parameter_targets {
+            write_target(
+                &mut doc,
+                &mut scenario_values,
+                start,
+                target,
+                fit.value,
+                fitted_material,
+            )?;
         }
     }
     let mut calibration = Table::new();

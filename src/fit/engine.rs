@@ -670,19 +670,22 @@ fn refine_locally<M: Model>(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::fit::job::{FitCase, SignalData, SignalKind};
-    use crate::fit::model::{ModelError, SignalCurve};
+    use crate::fit::model::{MeasuredCase, MeasuredSignal, ModelError, SignalCurve};
     use crate::fit::parameters::{FreeParameter, Scale};
 
-    /// A fake simulator: the "curve" is a·t + b at 50 times; the data were made with
-    /// (a, b) = (2, −1), so that is the known optimum.
+    /// A fake simulator: the "curve" is a·t + b at t = 0..49; the data were made with
+    /// (a, b) = (2, −1), so that is the known optimum (zero residuals).
     struct Line {
         parameters: Vec<FreeParameter>,
+        data: Vec<MeasuredCase>,
     }
 
     impl Model for Line {
         fn parameters(&self) -> &[FreeParameter] {
             &self.parameters
+        }
+        fn data(&self) -> &[MeasuredCase] {
+            &self.data
         }
         fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
             Ok(vec![vec![SignalCurve {
@@ -691,13 +694,50 @@ mod tests {
         }
     }
 
-    /// The line model with both coefficients free in −10..10, starting at 5.
+    /// The line model with both coefficients free in −10..10, starting at 5, and its data.
     fn line_model() -> Line {
         Line {
             parameters: vec![
                 parameter("a", -10.0, 10.0, 5.0),
                 parameter("b", -10.0, 10.0, 5.0),
             ],
+            data: vec![MeasuredCase {
+                name: "line".into(),
+                signals: vec![MeasuredSignal {
+                    label: "y".into(),
+                    time_s: (0..50).map(|t| t as f64).collect(),
+                    value: (0..50).map(|t| 2.0 * t as f64 - 1.0).collect(),
+                    sigma: vec![1.0; 50],
+                    weight: 1.0,
+                }],
+            }],
+        }
+    }
+
+    /// A second fake simulator, nonlinear in its parameters: y = a·exp(−b·t) at t = 0, 0.5,
+    /// …, 9.5, data made with (a, b) = (3, 0.4). The least-squares optimum of noise-free
+    /// data is the generating pair.
+    struct Decay {
+        parameters: Vec<FreeParameter>,
+        data: Vec<MeasuredCase>,
+    }
+
+    impl Model for Decay {
+        fn parameters(&self) -> &[FreeParameter] {
+            &self.parameters
+        }
+        fn data(&self) -> &[MeasuredCase] {
+            &self.data
+        }
+        fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
+            let signal = &self.data[0].signals[0];
+            Ok(vec![vec![SignalCurve {
+                values: signal
+                    .time_s
+                    .iter()
+                    .map(|t| values[0] * (-values[1] * t).exp())
+                    .collect(),
+            }]])
         }
     }
 
@@ -710,31 +750,6 @@ mod tests {
             scale: Scale::Linear,
             start,
             prior: None,
-            targets: vec![],
-        }
-    }
-
-    fn line_case() -> FitCase {
-        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
-            .join("demo-cases/ridgeline-panel/scenario.toml");
-        FitCase {
-            name: "line".into(),
-            setup: crate::fit::job::CaseSetup::Cone(Box::new(
-                crate::case::load_scenario(&path).expect("demo scenario loads"),
-            )),
-            exposed_area_m2: 0.01,
-            specimen_area_m2: 0.01,
-            signals: vec![SignalData {
-                kind: SignalKind::Mlr,
-                weight: 1.0,
-                time_s: (0..50).map(|t| t as f64).collect(),
-                value: (0..50).map(|t| 2.0 * t as f64 - 1.0).collect(),
-                sigma: vec![1.0; 50],
-                sigma_source: "sigma",
-                probe: None,
-                effective_points: 50.0,
-            }],
-            test_files: vec![],
         }
     }
 
@@ -782,8 +797,7 @@ mod tests {
     #[test]
     fn finds_the_known_optimum_of_a_fake_model() {
         let model = line_model();
-        let cases = [line_case()];
-        let objective = Objective::new(&model, &cases);
+        let objective = Objective::new(&model);
         let outcome = optimise(
             &objective,
             &settings(),
@@ -834,8 +848,7 @@ mod tests {
         assert_eq!(local_starts(&state, 1), vec![vec![0.50, 0.50]]);
 
         let model = line_model();
-        let cases = [line_case()];
-        let objective = Objective::new(&model, &cases);
+        let objective = Objective::new(&model);
         let few_generations = EngineSettings {
             max_evaluations: 64,
             local_starts: 3,
@@ -859,8 +872,7 @@ mod tests {
     #[test]
     fn a_stopped_and_continued_run_ends_exactly_where_an_uninterrupted_one_does() {
         let model = line_model();
-        let cases = [line_case()];
-        let objective = Objective::new(&model, &cases);
+        let objective = Objective::new(&model);
         let whole = optimise(
             &objective,
             &settings(),
@@ -881,5 +893,37 @@ mod tests {
         let continued = optimise(&objective, &settings(), restored, &mut silent(None));
         assert_eq!(whole.best_values, continued.best_values);
         assert_eq!(whole.state.evaluations, continued.state.evaluations);
+    }
+
+    #[test]
+    fn finds_the_known_optimum_of_a_nonlinear_fake_model() {
+        let time_s: Vec<f64> = (0..20).map(|i| 0.5 * i as f64).collect();
+        let model = Decay {
+            parameters: vec![
+                parameter("a", 0.1, 10.0, 1.0),
+                parameter("b", 0.01, 2.0, 1.0),
+            ],
+            data: vec![MeasuredCase {
+                name: "decay".into(),
+                signals: vec![MeasuredSignal {
+                    label: "y".into(),
+                    value: time_s.iter().map(|t| 3.0 * (-0.4 * t).exp()).collect(),
+                    sigma: vec![0.01; time_s.len()],
+                    weight: 1.0,
+                    time_s,
+                }],
+            }],
+        };
+        let objective = Objective::new(&model);
+        let outcome = optimise(
+            &objective,
+            &settings(),
+            initial_state(&model.parameters, &settings()),
+            &mut silent(None),
+        );
+        let [a, b] = [outcome.best_values[0], outcome.best_values[1]];
+        assert!((a - 3.0).abs() < 1e-4 && (b - 0.4).abs() < 1e-5, "{a} {b}");
+        assert_eq!(outcome.best.parts.len(), 1);
+        assert_eq!(outcome.best.parts[0].case, "decay");
     }
 }

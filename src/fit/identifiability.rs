@@ -314,7 +314,7 @@ pub fn analyse_on<M: Model, E: Evaluator>(
 fn part_lengths<M: Model>(objective: &Objective<'_, M>, n: usize) -> Vec<usize> {
     let mut parts = Vec::new();
     let mut at = 0;
-    for case in objective.cases {
+    for case in objective.data() {
         for signal in &case.signals {
             let len = signal.value.len().min(n - at);
             if len > 0 {
@@ -454,7 +454,7 @@ fn integrated_autocorrelation_time(residuals: &[f64]) -> f64 {
 fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Vec<f64> {
     let mut factors = Vec::with_capacity(residuals.len());
     let mut at = 0;
-    for case in objective.cases {
+    for case in objective.data() {
         for signal in &case.signals {
             let n = signal.value.len().min(residuals.len().saturating_sub(at));
             let part = &residuals[at..at + n];

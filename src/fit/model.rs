@@ -1,14 +1,10 @@
-//! The seam between the fit and the physics: `Model` is all the engine needs from a
-//! simulator, and `CaseModel` implements it by mapping a parameter vector onto the job's
-//! material and scenarios and calling `physics::simulate` for every cone case, and the 0-D
-//! model `physics::zero_d` for every milligram-scale case.
+//! The seam between the fit and a simulator: `Model` is all the engine needs, over plain
+//! vectors. The data a model is fitted to are numbers per case and signal (times, values, σ,
+//! weight, a label for outputs); the engine never sees files, scenarios or test reductions.
+//! `case::model::CaseModel` implements `Model` for a fit job; the engine's tests use small
+//! fake models with a known answer.
 
-use rayon::prelude::*;
-
-use super::job::{CaseSetup, FitCase, FitJob, MilligramSetup, SignalData, SignalKind};
-use super::parameters::{apply_all, apply_to_material_all, FreeParameter};
-use crate::physics::solver::{simulate_with, Workspace};
-use crate::physics::zero_d::{interpolate, simulate_zero_d, ZeroDHistory};
+use super::parameters::FreeParameter;
 
 /// Model values at the data times of one signal of one case.
 #[derive(Debug, Clone, PartialEq)]
@@ -24,279 +20,36 @@ pub struct ModelError {
     pub message: String,
 }
 
+/// One measured signal as the objective sees it: values on their own time base, the σ that
+/// standardises each residual, and a weight.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeasuredSignal {
+    /// The signal's name in outputs (`mlr`, `in_depth_temperature_5mm`).
+    pub label: String,
+    /// Times of the values, s.
+    pub time_s: Vec<f64>,
+    pub value: Vec<f64>,
+    /// Standard deviation of each value, in the value's unit (> 0).
+    pub sigma: Vec<f64>,
+    /// Factor on the signal's sum of squared standardised residuals.
+    pub weight: f64,
+}
+
+/// The measured signals of one case, in the order of the model's curves for it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MeasuredCase {
+    pub name: String,
+    pub signals: Vec<MeasuredSignal>,
+}
+
 /// What the fit engine needs from a simulator, and nothing more.
 pub trait Model: Sync {
     /// Free parameters in vector order, with names and bounds for the log and the screen.
     fn parameters(&self) -> &[FreeParameter];
+    /// The data the model is compared with: per case, per signal, in the order of the curves
+    /// `predict` returns.
+    fn data(&self) -> &[MeasuredCase];
     /// Simulates one candidate (file-unit values) and returns, per case and signal, the model
     /// at the data times. Called from many threads at once.
     fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError>;
-}
-
-/// The job's cases, simulated by the 1-D solver (cone) or the 0-D model (milligram).
-pub struct CaseModel<'a> {
-    pub job: &'a FitJob,
-}
-
-impl<'a> CaseModel<'a> {
-    pub fn new(job: &'a FitJob) -> Self {
-        CaseModel { job }
-    }
-
-    /// Runs one case with these parameter values; returns the full history too (for exports).
-    pub fn simulate_case(
-        &self,
-        case: &FitCase,
-        values: &[f64],
-    ) -> Result<crate::physics::History, ModelError> {
-        let Some(loaded) = case.cone_scenario() else {
-            return Err(ModelError {
-                case: case.name.clone(),
-                message: "is a milligram-scale case: it runs the 0-D model, not a cone scenario"
-                    .into(),
-            });
-        };
-        let mut scenario = loaded.scenario.clone();
-        let mut material = self.job.material.material.clone();
-        apply_all(&self.job.parameters, values, &mut material, &mut scenario);
-        for layer in scenario.layers.iter_mut().filter(|l| l.is_specimen) {
-            layer.material = material.clone();
-        }
-        check_material(case, &material)?;
-        // One solver workspace per worker thread, reused by every evaluation it runs (the
-        // result does not depend on it: `simulate_with` gives `simulate`'s bits).
-        thread_local! {
-            static WORKSPACE: std::cell::RefCell<Workspace> = std::cell::RefCell::new(Workspace::default());
-        }
-        WORKSPACE
-            .with(|workspace| simulate_with(&scenario, &mut workspace.borrow_mut()))
-            .map_err(|err| ModelError {
-                case: case.name.clone(),
-                message: err.to_string(),
-            })
-    }
-
-    /// Runs one milligram case's 0-D model with these parameter values (the job's material
-    /// with every material target applied; scenario targets do not reach it).
-    pub fn simulate_milligram(
-        &self,
-        case: &FitCase,
-        setup: &MilligramSetup,
-        values: &[f64],
-    ) -> Result<ZeroDHistory, ModelError> {
-        let failed = |message: String| ModelError {
-            case: case.name.clone(),
-            message,
-        };
-        let mut material = self.job.material.material.clone();
-        apply_to_material_all(&self.job.parameters, values, &mut material);
-        check_material(case, &material)?;
-        simulate_zero_d(
-            &material,
-            &setup.initial_mass_fractions,
-            &setup.programme,
-            &setup.settings,
-        )
-        .map_err(|err| failed(err.to_string()))
-    }
-
-    /// The model at the data times of every signal of one case.
-    pub fn predict_case(
-        &self,
-        case: &FitCase,
-        values: &[f64],
-    ) -> Result<Vec<SignalCurve>, ModelError> {
-        match &case.setup {
-            CaseSetup::Milligram(setup) => {
-                let history = self.simulate_milligram(case, setup, values)?;
-                Ok(case
-                    .signals
-                    .iter()
-                    .map(|signal| SignalCurve {
-                        values: milligram_model_at_data_times(
-                            &history,
-                            setup,
-                            signal.kind,
-                            &signal.time_s,
-                        ),
-                    })
-                    .collect())
-            }
-            CaseSetup::Cone(_) => {
-                let history = self.simulate_case(case, values)?;
-                Ok(case
-                    .signals
-                    .iter()
-                    .map(|signal| SignalCurve {
-                        values: model_at_data_times(&history, case, signal),
-                    })
-                    .collect())
-            }
-        }
-    }
-}
-
-/// Values inside their bounds can still be unphysical together (e.g. a yield of 1 with a
-/// lighter char): the material's own validation says so, as a failure of this case.
-fn check_material(
-    case: &FitCase,
-    material: &crate::physics::material::Material,
-) -> Result<(), ModelError> {
-    crate::physics::material::Material::new(material.components.clone(), material.reactions.clone())
-        .map(|_| ())
-        .map_err(|err| ModelError {
-            case: case.name.clone(),
-            message: err.to_string(),
-        })
-}
-
-impl Model for CaseModel<'_> {
-    fn parameters(&self) -> &[FreeParameter] {
-        &self.job.parameters
-    }
-
-    fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
-        self.job
-            .cases
-            .par_iter()
-            .map(|case| self.predict_case(case, values))
-            .collect()
-    }
-}
-
-/// The 0-D model's value of a milligram signal at each data time (data time minus the
-/// programme's start is the model's time), in the signal's unit; NaN for a cone signal, which
-/// the job never pairs with a milligram case.
-pub fn milligram_model_at_data_times(
-    history: &ZeroDHistory,
-    setup: &MilligramSetup,
-    kind: SignalKind,
-    times_s: &[f64],
-) -> Vec<f64> {
-    let curve = match kind {
-        SignalKind::MassFraction => &history.mass_fraction,
-        SignalKind::DscHeatFlow => &history.dsc_w_g,
-        SignalKind::MccHrr => &history.mcc_w_g,
-        _ => return vec![f64::NAN; times_s.len()],
-    };
-    times_s
-        .iter()
-        .map(|&t| interpolate(&history.time_s, curve, t - setup.programme_start_s))
-        .collect()
-}
-
-/// The model's value of `signal` of `case` at each of its data times, in the signal's unit.
-/// The 1-D model is the column under the exposed area (the data's per-area rates are per that
-/// area). When the test's specimen is larger than its exposed area (a slab under an edge
-/// frame), the shielded rim is outside the 1-D model: it is taken as unburnt while the column
-/// burns (mass) and as releasing its energy within the record, at the same heat of combustion
-/// (total heat release scaled by [`FitCase::area_ratio`]); docs/calibration-pmma.md.
-pub fn model_at_data_times(
-    history: &crate::physics::History,
-    case: &FitCase,
-    signal: &SignalData,
-) -> Vec<f64> {
-    let ratio = case.area_ratio();
-    let area_m2 = case.exposed_area_m2;
-    let rim_area_m2 = (case.specimen_area_m2 - case.exposed_area_m2).max(0.0);
-    let rim_mass_g = history
-        .samples
-        .first()
-        .map_or(0.0, |s| s.mass_kg_m2 * rim_area_m2 * 1e3);
-    let at = |pick: &dyn Fn(&crate::physics::Sample) -> f64, factor: f64| -> Vec<f64> {
-        signal
-            .time_s
-            .iter()
-            .map(|&t| history.value_at(t, pick) * factor)
-            .collect()
-    };
-    match signal.kind {
-        SignalKind::IgnitionTime => {
-            // A specimen that never ignites is scored as igniting at the end of the run.
-            let end_s = history.samples.last().map_or(0.0, |s| s.time_s);
-            vec![history.summary.ignition_time_s.unwrap_or(end_s)]
-        }
-        SignalKind::PeakHrr | SignalKind::TimeToPeakHrr => {
-            // The largest output sample, as the data's rule takes the largest HRR sample.
-            let peak = history
-                .samples
-                .iter()
-                .fold(None::<&crate::physics::Sample>, |best, s| match best {
-                    Some(b) if b.hrr_w_m2 >= s.hrr_w_m2 => Some(b),
-                    _ => Some(s),
-                });
-            let value = match (peak, signal.kind) {
-                (Some(p), SignalKind::PeakHrr) => p.hrr_w_m2 * 1e-3,
-                (Some(p), _) => p.time_s,
-                (None, _) => f64::NAN,
-            };
-            vec![value]
-        }
-        SignalKind::TotalHeatRelease => {
-            let joules: f64 = history
-                .samples
-                .windows(2)
-                .map(|w| 0.5 * (w[0].hrr_w_m2 + w[1].hrr_w_m2) * (w[1].time_s - w[0].time_s))
-                .sum();
-            vec![joules * 1e-6 * ratio]
-        }
-        SignalKind::AverageMlr => vec![average_mlr_10_90_g_m2s(history)],
-        SignalKind::Mlr => at(&|s| s.mlr_kg_m2_s, 1e3),
-        SignalKind::Hrr => at(&|s| s.hrr_w_m2, 1e-3),
-        SignalKind::Mass => at(&|s| s.mass_kg_m2, area_m2 * 1e3)
-            .into_iter()
-            .map(|m| m + rim_mass_g)
-            .collect(),
-        SignalKind::SurfaceTemperature => at(&|s| s.surface_temperature_k, 1.0),
-        SignalKind::BackTemperature => at(&|s| s.back_temperature_k, 1.0),
-        SignalKind::InDepthTemperature => match signal.probe {
-            Some(probe) => at(
-                &|s| {
-                    s.probe_temperatures_k
-                        .get(probe.index)
-                        .copied()
-                        .unwrap_or(f64::NAN)
-                },
-                1.0,
-            ),
-            // The job loader always gives an in-depth signal its probe.
-            None => vec![f64::NAN; signal.time_s.len()],
-        },
-        // Milligram signals belong to milligram cases (`milligram_model_at_data_times`).
-        SignalKind::MassFraction | SignalKind::DscHeatFlow | SignalKind::MccHrr => {
-            vec![f64::NAN; signal.time_s.len()]
-        }
-    }
-}
-
-/// The model's mean mass loss rate between 10 % and 90 % of its mass loss, g/(m²·s) (the rule
-/// of ISO 5660-1 the data reduction applies); NaN when the specimen lost no mass.
-pub fn average_mlr_10_90_g_m2s(history: &crate::physics::History) -> f64 {
-    let (Some(first), Some(last)) = (history.samples.first(), history.samples.last()) else {
-        return f64::NAN;
-    };
-    let lost = first.mass_kg_m2 - last.mass_kg_m2;
-    if lost <= 0.0 {
-        return f64::NAN;
-    }
-    let time_at_loss = |fraction: f64| {
-        let target = first.mass_kg_m2 - fraction * lost;
-        history
-            .samples
-            .windows(2)
-            .find(|w| w[1].mass_kg_m2 <= target)
-            .map(|w| {
-                let span = w[0].mass_kg_m2 - w[1].mass_kg_m2;
-                let part = if span > 0.0 {
-                    (w[0].mass_kg_m2 - target) / span
-                } else {
-                    0.0
-                };
-                w[0].time_s + part * (w[1].time_s - w[0].time_s)
-            })
-    };
-    match (time_at_loss(0.1), time_at_loss(0.9)) {
-        (Some(t10), Some(t90)) if t90 > t10 => 0.8 * lost / (t90 - t10) * 1e3,
-        _ => f64::NAN,
-    }
 }

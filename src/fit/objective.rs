@@ -4,8 +4,7 @@
 
 use serde::{Deserialize, Serialize};
 
-use super::job::FitCase;
-use super::model::{Model, SignalCurve};
+use super::model::{MeasuredCase, Model, SignalCurve};
 use super::parameters::FreeParameter;
 
 /// Objective of a candidate that could not be simulated: far above any real fit, so the
@@ -32,19 +31,23 @@ pub struct Evaluation {
     pub failure: Option<String>,
 }
 
-/// Data side of the objective (the cases) bound to a model.
+/// The objective of a model: its curves against its data (`Model::data`), plus the priors.
 pub struct Objective<'a, M: Model> {
     pub model: &'a M,
-    pub cases: &'a [FitCase],
 }
 
 impl<'a, M: Model> Objective<'a, M> {
-    pub fn new(model: &'a M, cases: &'a [FitCase]) -> Self {
-        Objective { model, cases }
+    pub fn new(model: &'a M) -> Self {
+        Objective { model }
     }
 
     pub fn parameters(&self) -> &[FreeParameter] {
         self.model.parameters()
+    }
+
+    /// The measured data, per case and signal.
+    pub fn data(&self) -> &[MeasuredCase] {
+        self.model.data()
     }
 
     /// The standardised residual vector √w·(model − data)/σ over all cases and signals, then
@@ -52,7 +55,7 @@ impl<'a, M: Model> Objective<'a, M> {
     pub fn residuals(&self, values: &[f64]) -> Result<Vec<f64>, String> {
         let curves = self.model.predict(values).map_err(|e| e.to_string())?;
         let mut residuals = Vec::new();
-        for (case, case_curves) in self.cases.iter().zip(&curves) {
+        for (case, case_curves) in self.data().iter().zip(&curves) {
             for (signal, curve) in case.signals.iter().zip(case_curves) {
                 let root_weight = signal.weight.sqrt();
                 for ((model, data), sigma) in
@@ -92,7 +95,7 @@ impl<'a, M: Model> Objective<'a, M> {
 
     fn score(&self, values: &[f64], curves: &[Vec<SignalCurve>]) -> Evaluation {
         let mut parts = Vec::new();
-        for (case, case_curves) in self.cases.iter().zip(curves) {
+        for (case, case_curves) in self.data().iter().zip(curves) {
             for (signal, curve) in case.signals.iter().zip(case_curves) {
                 let sum: f64 = curve
                     .values
@@ -103,7 +106,7 @@ impl<'a, M: Model> Objective<'a, M> {
                     .sum();
                 parts.push(PartCost {
                     case: case.name.clone(),
-                    signal: signal.label(),
+                    signal: signal.label.clone(),
                     cost: signal.weight * sum,
                 });
             }

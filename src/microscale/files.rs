@@ -154,10 +154,10 @@ fn kind_from_name(name: &str) -> Option<MeasurementKind> {
 pub fn read_thermogram(path: &Path) -> Result<Thermogram, MicroscaleError> {
     let bytes =
         crate::input::read_bytes(path, crate::input::InputKind::Table).map_err(|source| {
-            MicroscaleError::Read {
+            MicroscaleError::File(crate::source::FileError::Read {
                 path: path.to_path_buf(),
                 source,
-            }
+            })
         })?;
     parse_thermogram(path, &String::from_utf8_lossy(&bytes))
 }

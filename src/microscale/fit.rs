@@ -1,6 +1,8 @@
-//! Model curves and residuals of milligram-scale cases for given kinetics (what the fit engine
-//! of issue 4 will call), and a single-step kinetic fit of our own: Kissinger's estimate as the
-//! start, refined by Nelder–Mead (argmin) on the conversion curves of several heating rates.
+//! A milligram-scale measurement prepared for the 0-D model (`MilligramCase`: data times,
+//! measured signal, the heating programme that reproduces the file's temperature), and a
+//! single-step kinetic fit of our own: Kissinger's estimate as the start, refined by
+//! Nelder–Mead (argmin) on the conversion curves of several heating rates. A fit job's
+//! milligram cases are simulated by `case::model`.
 
 use argmin::core::{CostFunction, Executor, State};
 use argmin::solver::neldermead::NelderMead;
@@ -31,8 +33,6 @@ pub struct MilligramCase {
     pub measured: Vec<f64>,
     /// Programme that reproduces the run's temperature; its time 0 is `time_s[0]`.
     pub programme: TemperatureProgramme,
-    /// Weight of this case's residuals in a joint fit (default 1).
-    pub weight: f64,
 }
 
 impl MilligramCase {
@@ -80,50 +80,8 @@ impl MilligramCase {
             time_s: run.time_s.clone(),
             measured: run.values.clone(),
             programme,
-            weight: 1.0,
         })
     }
-}
-
-/// The model's signal for `case` (mass fraction, DSC or MCC in W/g), interpolated at the case's
-/// data times.
-pub fn model_curve(
-    material: &Material,
-    initial_mass_fractions: &[f64],
-    case: &MilligramCase,
-    settings: &ZeroDSettings,
-) -> Result<Vec<f64>, PhysicsError> {
-    let history = simulate_zero_d(material, initial_mass_fractions, &case.programme, settings)?;
-    let signal = signal_of(&history, case.kind);
-    let first_s = case.time_s[0];
-    Ok(case
-        .time_s
-        .iter()
-        .map(|t| interpolate(&history.time_s, signal, t - first_s))
-        .collect())
-}
-
-fn signal_of(history: &ZeroDHistory, kind: MeasurementKind) -> &[f64] {
-    match kind {
-        MeasurementKind::Tga => &history.mass_fraction,
-        MeasurementKind::Dsc => &history.dsc_w_g,
-        MeasurementKind::Mcc => &history.mcc_w_g,
-    }
-}
-
-/// Weighted residuals weight·(model − measured) at the case's data times, in the signal's unit.
-pub fn residuals(
-    material: &Material,
-    initial_mass_fractions: &[f64],
-    case: &MilligramCase,
-    settings: &ZeroDSettings,
-) -> Result<Vec<f64>, PhysicsError> {
-    let model = model_curve(material, initial_mass_fractions, case, settings)?;
-    Ok(model
-        .iter()
-        .zip(&case.measured)
-        .map(|(m, d)| case.weight * (m - d))
-        .collect())
 }
 
 /// A material of one component that turns wholly to gas by one n-th order reaction: the
@@ -370,6 +328,24 @@ mod tests {
     use super::*;
     use std::path::PathBuf;
 
+    /// The 0-D model's mass fraction minus the measured one at the case's data times (the
+    /// programme's time 0 is the first data time, as `from_thermogram` builds it).
+    fn mass_fraction_residuals(
+        material: &Material,
+        case: &MilligramCase,
+        settings: &ZeroDSettings,
+    ) -> Vec<f64> {
+        let history = simulate_zero_d(material, &[1.0], &case.programme, settings).unwrap();
+        let first_s = case.time_s[0];
+        case.time_s
+            .iter()
+            .zip(&case.measured)
+            .map(|(&t, &measured)| {
+                interpolate(&history.time_s, &history.mass_fraction, t - first_s) - measured
+            })
+            .collect()
+    }
+
     fn tga_file(time_s: Vec<f64>, values: Vec<f64>) -> Thermogram {
         Thermogram {
             path: PathBuf::from("synthetic.csv"),
@@ -386,7 +362,7 @@ mod tests {
     /// m/m₀ = exp(−A·(t − t₀)) exactly: the model curve must follow it at the data times,
     /// which start at t₀ = 40 s, not at 0 (the programme's time 0 is the first data row).
     #[test]
-    fn model_curve_at_data_times_follows_the_exact_decay_for_zero_activation_energy() {
+    fn the_model_at_data_times_follows_the_exact_decay_for_zero_activation_energy() {
         let a = 2e-3;
         let time_s: Vec<f64> = (0..400).map(|i| 40.0 + 5.0 * f64::from(i)).collect();
         let values = time_s.iter().map(|t| (-a * (t - 40.0)).exp()).collect();
@@ -396,7 +372,7 @@ mod tests {
             output_interval_s: 5.0,
             ..ZeroDSettings::default()
         };
-        let residual = residuals(&material, &[1.0], &case, &settings).unwrap();
+        let residual = mass_fraction_residuals(&material, &case, &settings);
         assert_eq!(residual.len(), time_s.len());
         let worst = residual.iter().map(|r| r.abs()).fold(0.0, f64::max);
         assert!(worst < 1e-6, "{worst}");
@@ -417,7 +393,7 @@ mod tests {
         let case = MilligramCase::from_thermogram(&run).unwrap();
         assert_eq!(case.programme.heating_rate_k_s_at(50.0), 0.0);
         let material = single_step_material(a, e, 1.0).unwrap();
-        let residual = residuals(&material, &[1.0], &case, &ZeroDSettings::default()).unwrap();
+        let residual = mass_fraction_residuals(&material, &case, &ZeroDSettings::default());
         let worst = residual.iter().map(|r| r.abs()).fold(0.0, f64::max);
         assert!(worst < 1e-6, "{worst}");
     }

@@ -1,7 +1,7 @@
-//! The milligram scale (physics.md §3): reading TGA, DSC and MCC files, isoconversional and
+//! The milligram scale (docs/physics.md §3): reading TGA, DSC and MCC files, isoconversional and
 //! Kissinger analysis, milligram-scale scenario files (a heating programme instead of an
-//! irradiance) run through the 0-D model of `physics::zero_d`, and kinetic fits with the model
-//! curves and residuals that a later fit job can use. File formats are in
+//! irradiance) run through the 0-D model of `physics::zero_d`, and a single-step kinetic fit
+//! (a fit job's milligram cases are simulated by `case::model`). File formats are in
 //! docs/milligram-scale.md. This module does I/O only in `files` and `scenario`; the analysis
 //! and fit functions compute on values already read.
 
@@ -13,7 +13,7 @@ pub mod scenario;
 use std::path::PathBuf;
 
 pub use files::{read_thermogram, MeasurementKind, Thermogram};
-pub use fit::{fit_single_step, model_curve, residuals, MilligramCase, SingleStepFit};
+pub use fit::{fit_single_step, MilligramCase, SingleStepFit};
 pub use isoconversional::{analyse, ConversionRun, IsoconversionalReport, Method};
 pub use scenario::{
     is_milligram_scenario, load_milligram_scenario, simulate_programme, zero_d_csv,
@@ -23,32 +23,15 @@ pub use scenario::{
 /// Errors of the milligram-scale tools: always saying what is wrong and, for files, where.
 #[derive(Debug, thiserror::Error)]
 pub enum MicroscaleError {
-    #[error("cannot read {}", path.display())]
-    Read {
-        path: PathBuf,
-        #[source]
-        source: std::io::Error,
-    },
-    /// toml's own message carries the line, column and key.
-    #[error("cannot parse {}", path.display())]
-    Syntax {
-        path: PathBuf,
-        #[source]
-        source: toml::de::Error,
-    },
+    /// A file that cannot be read, a scenario that cannot be parsed, or a key of it with a
+    /// bad value (`file:line: \`key\` problem`): the crate's one file error.
+    #[error(transparent)]
+    File(#[from] crate::source::FileError),
     /// A data or scenario file whose content is wrong at a line (0 when no line applies).
     #[error("{}:{line}: {problem}", path.display())]
     Format {
         path: PathBuf,
         line: usize,
-        problem: String,
-    },
-    /// A key of a scenario file with a bad value.
-    #[error("{}:{line}: `{field}` {problem}", path.display())]
-    Invalid {
-        path: PathBuf,
-        line: usize,
-        field: String,
         problem: String,
     },
     /// The material file named by a scenario could not be loaded.

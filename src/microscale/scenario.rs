@@ -4,7 +4,6 @@
 //! names file, line and key; validation builds `physics::zero_d` inputs in SI.
 
 use std::collections::BTreeMap;
-use std::ops::Range;
 use std::path::{Path, PathBuf};
 
 use serde::Deserialize;
@@ -195,12 +194,7 @@ pub fn zero_d_csv(history: &ZeroDHistory) -> Result<Vec<u8>, csv::Error> {
 
 /// Reads a milligram-scale scenario and its material file, and validates both.
 pub fn load_milligram_scenario(path: &Path) -> Result<MilligramScenario, MicroscaleError> {
-    let text = crate::input::read_text(path, crate::input::InputKind::Toml).map_err(|source| {
-        MicroscaleError::Read {
-            path: path.to_path_buf(),
-            source,
-        }
-    })?;
+    let text = crate::source::read_toml_text(path)?;
     milligram_scenario_from_str(path, &text)
 }
 
@@ -209,12 +203,8 @@ pub fn milligram_scenario_from_str(
     path: &Path,
     text: &str,
 ) -> Result<MilligramScenario, MicroscaleError> {
-    let file: MilligramScenarioFile =
-        toml::from_str(text).map_err(|source| MicroscaleError::Syntax {
-            path: path.to_path_buf(),
-            source,
-        })?;
-    let checker = Checker { path, text };
+    let file: MilligramScenarioFile = crate::source::parse(path, text)?;
+    let checker: Checker<'_> = Checker::new(path, text);
     let base = path.parent().unwrap_or(Path::new("."));
     let material_path = base.join(file.material.get_ref());
     let material = load_material(&material_path).map_err(|err| match err {
@@ -306,7 +296,7 @@ pub fn milligram_scenario_from_str(
 }
 
 fn build_programme(
-    checker: &Checker,
+    checker: &Checker<'_>,
     raw: &ProgrammeFile,
 ) -> Result<TemperatureProgramme, MicroscaleError> {
     let start_k = checker.positive(&raw.start_k, "programme.start_k")?;
@@ -454,41 +444,8 @@ fn check_programme_size(
     Ok(())
 }
 
-/// Turns spans into line numbers and bad values into errors for one file.
-struct Checker<'a> {
-    path: &'a Path,
-    text: &'a str,
-}
-
-impl Checker<'_> {
-    fn line(&self, span: &Range<usize>) -> usize {
-        let end = span.start.min(self.text.len());
-        self.text[..end].bytes().filter(|&b| b == b'\n').count() + 1
-    }
-
-    fn invalid(
-        &self,
-        span: &Range<usize>,
-        field: &str,
-        problem: impl Into<String>,
-    ) -> MicroscaleError {
-        MicroscaleError::Invalid {
-            path: self.path.to_path_buf(),
-            line: self.line(span),
-            field: field.to_string(),
-            problem: problem.into(),
-        }
-    }
-
-    fn positive(&self, value: &Spanned<f64>, field: &str) -> Result<f64, MicroscaleError> {
-        let v = *value.get_ref();
-        if v > 0.0 && v.is_finite() {
-            Ok(v)
-        } else {
-            Err(self.invalid(&value.span(), field, format!("must be > 0, got {v}")))
-        }
-    }
-}
+/// The crate's span validator, making this module's errors.
+type Checker<'a> = crate::source::Spans<'a, MicroscaleError>;
 
 #[cfg(test)]
 mod tests {

@@ -1,9 +1,9 @@
 //! n-th order Arrhenius rates and the implicit (backward Euler) update of component masses at a
-//! given temperature (physics.md §1 "Reactions"). Shared by the 1-D solver and the 0-D model.
+//! given temperature (docs/physics.md §1 "Reactions"). Shared by the 1-D solver and the 0-D model.
 
 use super::material::Material;
 
-/// Molar gas constant, J/(mol·K) (CODATA 2018 exact value, as physics.md §1 gives it).
+/// Molar gas constant, J/(mol·K) (CODATA 2018 exact value, as docs/physics.md §1 gives it).
 pub const GAS_CONSTANT_J_MOL_K: f64 = 8.314462618;
 
 /// Arrhenius rate constant k = A·exp(−E/(R·T)), 1/s.

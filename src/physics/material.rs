@@ -1,13 +1,13 @@
-//! Condensed-phase components and the reaction network that links them (physics.md §1,
+//! Condensed-phase components and the reaction network that links them (docs/physics.md §1,
 //! "Components" and "Reactions"). Plain validated data in SI units; no I/O.
 
 use super::PhysicsError;
 
-/// Reference temperature of the power-law property form, K (physics.md §1).
+/// Reference temperature of the power-law property form, K (docs/physics.md §1).
 pub const DEFAULT_REFERENCE_TEMPERATURE_K: f64 = 300.0;
 
 /// A temperature-dependent property: a power law or a table, linear between points and
-/// constant outside them (physics.md §1).
+/// constant outside them (docs/physics.md §1).
 #[derive(Debug, Clone, PartialEq)]
 pub enum PropertyLaw {
     /// p(T) = value_at_reference · (T / reference_temperature_k)^exponent.
@@ -144,7 +144,7 @@ pub struct GasRelease {
     pub heat_of_combustion_j_kg: f64,
 }
 
-/// a → ν·b + (1 − ν)·gas, n-th order Arrhenius (physics.md §1).
+/// a → ν·b + (1 − ν)·gas, n-th order Arrhenius (docs/physics.md §1).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Reaction {
     /// Index of the reactant component.

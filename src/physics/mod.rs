@@ -1,5 +1,5 @@
 //! The physics core: condensed-phase components and reactions, the 1-D conduction–pyrolysis
-//! solver and its outputs (physics.md §1). No I/O, clock, threads or randomness; SI units;
+//! solver and its outputs (docs/physics.md §1). No I/O, clock, threads or randomness; SI units;
 //! the same inputs give the same bits out.
 
 pub mod kinetics;

@@ -1,5 +1,5 @@
 //! What a simulation returns: sampled curves at the output interval, the summary, and the
-//! energy and mass budgets that show the run conserved both (physics.md §1 "Outputs").
+//! energy and mass budgets that show the run conserved both (docs/physics.md §1 "Outputs").
 //! Serialisable, so that a rank of an MPI job can send a simulated band draw back.
 
 use serde::{Deserialize, Serialize};
@@ -62,7 +62,7 @@ impl Sample {
     }
 }
 
-/// Energy terms summed over the run, J/m² (physics.md §1 "Numerical requirements").
+/// Energy terms summed over the run, J/m² (docs/physics.md §1 "Numerical requirements").
 #[derive(Debug, Clone, Copy, Default, PartialEq, Serialize, Deserialize)]
 pub struct EnergyBudget {
     pub absorbed_j_m2: f64,
@@ -151,7 +151,7 @@ pub struct Summary {
     /// Mass lost by the specimen layers, kg/m².
     pub mass_lost_kg_m2: f64,
     /// Gas-release-weighted temperature of the gasifying solid, K (the T_p of the
-    /// heat-of-gasification relation, physics.md §2).
+    /// heat-of-gasification relation, docs/physics.md §2).
     pub mean_gasification_temperature_k: Option<f64>,
     pub energy: EnergyBudget,
     pub mass: MassBudget,

@@ -1,19 +1,19 @@
 //! What a simulation is asked to do: the specimen's layers, the exposure, ignition and
-//! flame-out rules, the back face and the numerical settings (physics.md §1). Validated on
+//! flame-out rules, the back face and the numerical settings (docs/physics.md §1). Validated on
 //! construction by `Scenario::check`, so the solver can trust every value.
 
 use super::material::{require_fraction, require_non_negative, require_positive, Material};
 use super::PhysicsError;
 
-/// Stefan–Boltzmann constant, W/(m²·K⁴) (CODATA 2018, as physics.md §1 gives it).
+/// Stefan–Boltzmann constant, W/(m²·K⁴) (CODATA 2018, as docs/physics.md §1 gives it).
 pub const STEFAN_BOLTZMANN_W_M2_K4: f64 = 5.670374419e-8;
 
 /// Convective coefficient at the exposed face, W/(m²·K); common practice for the cone
-/// calorimeter, no single published source (physics.md §1).
+/// calorimeter, no single published source (docs/physics.md §1).
 pub const DEFAULT_CONVECTIVE_COEFFICIENT_W_M2_K: f64 = 10.0;
 
 /// Critical fuel mass flux for ignition, kg/(m²·s); about 2 g/(m²·s) is a usual default
-/// (physics.md §1, common practice).
+/// (docs/physics.md §1, common practice).
 pub const DEFAULT_CRITICAL_FUEL_MASS_FLUX_KG_M2_S: f64 = 2.0e-3;
 
 /// One layer of the specimen stack, exposed face first.
@@ -125,7 +125,7 @@ pub struct Exposure {
     pub has_reradiation: bool,
 }
 
-/// When the specimen is declared ignited (physics.md §1 "Ignition and heat release").
+/// When the specimen is declared ignited (docs/physics.md §1 "Ignition and heat release").
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub enum IgnitionRule {
     /// Fuel mass flux reaches this value, kg/(m²·s).

@@ -1,4 +1,4 @@
-//! The 1-D transient conduction–pyrolysis solver (physics.md §1; the numerics in
+//! The 1-D transient conduction–pyrolysis solver (docs/physics.md §1; the numerics in
 //! docs/numerics.md): conservative finite volumes on a grid stretched toward the exposed face;
 //! each step is extrapolated backward Euler (one step of Δt and two of Δt/2, combined as
 //! y_{Δt/2} + θ·(y_{Δt/2} − y_{Δt}), θ = 1 for second order, less only where a mass would go

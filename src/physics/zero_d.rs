@@ -1,6 +1,6 @@
 //! Zero-dimensional model of a milligram-scale test (TGA, DSC, MCC): the material's reaction
 //! network at a uniform temperature that follows a programme of linear ramps and isothermal
-//! holds (physics.md §3). Outputs per unit initial mass: normalised mass, −dm/dt/m₀ (1/s), DSC
+//! holds (docs/physics.md §3). Outputs per unit initial mass: normalised mass, −dm/dt/m₀ (1/s), DSC
 //! heat flow (W/g) and MCC heat release rate (W/g).
 //!
 //! Two integrators are offered and compared in docs/milligram-scale.md: the adaptive
@@ -32,7 +32,7 @@ pub enum ProgrammeSegment {
     Hold { duration_s: f64 },
 }
 
-/// A temperature programme: a start temperature, then ramps and holds in order (physics.md §3,
+/// A temperature programme: a start temperature, then ramps and holds in order (docs/physics.md §3,
 /// T₀ + βt with isothermal holds). Checked on construction.
 #[derive(Debug, Clone, PartialEq)]
 pub struct TemperatureProgramme {
@@ -784,7 +784,7 @@ mod tests {
         }
     }
 
-    /// Energy bookkeeping (physics.md §3): the time integral of the DSC heat flow equals ΔH times
+    /// Energy bookkeeping (docs/physics.md §3): the time integral of the DSC heat flow equals ΔH times
     /// the mass reacted, and the MCC integral equals ΔH_c times the fuel released.
     #[test]
     fn dsc_and_mcc_integrals_match_the_heats_of_reaction_and_combustion() {

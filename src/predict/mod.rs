@@ -12,11 +12,14 @@ pub mod sampling;
 
 use std::path::{Path, PathBuf};
 
+use crate::case::job::{load_job, load_parameter_targets, FitJob};
 use crate::case::material::MaterialModel;
+use crate::case::targets::{
+    for_each_target, parse_path, Target, DEFAULT_REFERENCE_HEATING_RATE_K_MIN,
+};
 use crate::case::{load_material, load_scenario, CaseError, LoadedScenario};
 use crate::fit::evaluator::{Evaluator, Local, Task, TaskKind};
-use crate::fit::job::{load_job, parse_path, FitJob};
-use crate::fit::parameters::{FreeParameter, PropertyPart, Scale, Target};
+use crate::fit::parameters::{FreeParameter, Scale};
 use crate::physics::material::Material;
 use crate::physics::scenario::Scenario;
 use crate::physics::{simulate, History};
@@ -77,6 +80,8 @@ pub enum CovarianceSource {
 #[derive(Debug, Clone)]
 pub struct Uncertainty {
     pub parameters: Vec<FreeParameter>,
+    /// Where each parameter's value goes (`case::targets`), as the fit set it.
+    pub targets: Vec<Vec<Target>>,
     /// Best-fit values, file units (kJ/mol, MJ/kg, kW/m²…, as in the parameter paths).
     pub values: Vec<f64>,
     /// Covariance in fit space (value, or log10 of it on a log scale), row-major.
@@ -117,30 +122,45 @@ impl CalibratedModel {
             });
         };
         let job = find_job(path, &calibration.job);
-        match &job {
-            Some(job) => notes.push(format!(
+        // The targets as the run started: the copy of its job in the run directory beside the
+        // model (read for its parameters alone, against the calibrated material, which has
+        // the job's components and reactions).
+        let run_dir = crate::run::RunDirectory::new(path.parent().unwrap_or(Path::new(".")));
+        let run_targets = load_parameter_targets(&run_dir.job(), &model)
+            .ok()
+            .filter(|targets| targets.len() == calibration.parameters.len());
+        match (&run_targets, &job) {
+            (Some(_), _) => notes.push(format!(
+                "parameters as in the run's copy of its fit job {}",
+                run_dir.job().display()
+            )),
+            (None, Some(job)) => notes.push(format!(
                 "parameters as in the fit job {}",
                 job.path.display()
             )),
-            None => notes.push(format!(
+            (None, None) => notes.push(format!(
                 "the fit job `{}` could not be read from here: parameters rebuilt from their \
-                 paths (no bounds, no tied paths, peak temperatures at 10 K/min)",
-                calibration.job
+                 paths (no bounds, no tied paths, peak temperatures at the default {} K/min)",
+                calibration.job, DEFAULT_REFERENCE_HEATING_RATE_K_MIN
             )),
         }
         let mut parameters = Vec::new();
+        let mut targets = Vec::new();
         let mut values = Vec::new();
         for (idx, entry) in calibration.parameters.iter().enumerate() {
             let from_job = job
                 .as_ref()
-                .and_then(|j| j.parameters.get(idx))
-                .filter(|p| p.name == entry.path)
-                .cloned();
-            let parameter = match from_job {
-                Some(p) => p,
+                .filter(|j| j.parameters.get(idx).is_some_and(|p| p.name == entry.path))
+                .map(|j| (j.parameters[idx].clone(), j.targets[idx].clone()));
+            let (parameter, parameter_targets) = match from_job {
+                Some(found) => found,
                 None => rebuilt_parameter(path, &model, entry)?,
             };
             parameters.push(parameter);
+            targets.push(match &run_targets {
+                Some(run_targets) => run_targets[idx].clone(),
+                None => parameter_targets,
+            });
             values.push(entry.value);
         }
         let p = parameters.len();
@@ -247,6 +267,7 @@ impl CalibratedModel {
             job,
             uncertainty: Some(Uncertainty {
                 parameters,
+                targets,
                 values,
                 covariance,
                 source,
@@ -268,24 +289,30 @@ fn find_job(model_path: &Path, job: &str) -> Option<FitJob> {
         .find_map(|p| load_job(&p).ok())
 }
 
+/// A parameter rebuilt from its calibration entry alone (no bounds, no tied paths; a peak
+/// temperature at the job format's default reference heating rate).
 fn rebuilt_parameter(
     path: &Path,
     model: &MaterialModel,
     entry: &crate::case::material::CalibratedParameter,
-) -> Result<FreeParameter, PredictError> {
-    let (target, unit) = parse_path(&entry.path, model, 10.0 / 60.0, None).map_err(|problem| {
-        PredictError::Parameter {
-            path: path.to_path_buf(),
-            parameter: entry.path.clone(),
-            problem,
-        }
+) -> Result<(FreeParameter, Vec<Target>), PredictError> {
+    let (target, unit) = parse_path(
+        &entry.path,
+        model,
+        DEFAULT_REFERENCE_HEATING_RATE_K_MIN / 60.0,
+        None,
+    )
+    .map_err(|problem| PredictError::Parameter {
+        path: path.to_path_buf(),
+        parameter: entry.path.clone(),
+        problem,
     })?;
     let scale = if entry.scale == "log" {
         Scale::Log
     } else {
         Scale::Linear
     };
-    Ok(FreeParameter {
+    let parameter = FreeParameter {
         name: entry.path.clone(),
         unit: unit.to_string(),
         lower: if scale == Scale::Log {
@@ -297,8 +324,8 @@ fn rebuilt_parameter(
         scale,
         start: entry.value,
         prior: None,
-        targets: vec![target],
-    })
+    };
+    Ok((parameter, vec![target]))
 }
 
 /// Conditions that replace the scenario's own.
@@ -334,18 +361,7 @@ pub fn prepare_scenario(
                 "the thickness must be > 0 and at most 1000 mm, got {thickness_mm}"
             )));
         }
-        let layer = &mut loaded.scenario.layers[0];
-        // Keep the grid rule: the same first cell and growth (docs/numerics.md, "Grid").
-        let first_cell_m = layer
-            .cell_thicknesses_m()
-            .next()
-            .unwrap_or(layer.thickness_m);
-        layer.thickness_m = thickness_mm * 1e-3;
-        layer.n_cells = crate::physics::scenario::cell_count_for(
-            layer.thickness_m,
-            first_cell_m * (1.0 + 1e-9),
-            layer.cell_growth,
-        );
+        loaded.set_exposed_layer_thickness_m(thickness_mm * 1e-3);
     }
     if let Some(duration_s) = conditions.duration_s {
         if !(duration_s.is_finite() && duration_s > 0.0 && duration_s <= 1e6) {
@@ -659,33 +675,19 @@ fn apply_draw(
     material: &mut Material,
     scenario: &mut Scenario,
 ) {
-    for pass_derived in [false, true] {
-        for ((parameter, &value), &best) in uncertainty
-            .parameters
-            .iter()
-            .zip(drawn)
-            .zip(&uncertainty.values)
-        {
-            for target in parameter
-                .targets
-                .iter()
-                .filter(|t| t.is_derived() == pass_derived)
-            {
-                let is_factor = matches!(
-                    target,
-                    Target::Conductivity {
-                        part: PropertyPart::Factor,
-                        ..
-                    } | Target::SpecificHeat {
-                        part: PropertyPart::Factor,
-                        ..
-                    }
-                );
-                let applied = if is_factor { value / best } else { value };
-                target.apply(applied, material, scenario);
-            }
-        }
-    }
+    // In the table's order; a `.factor` target is relative to the law it was fitted on, so it
+    // applies as draw/best to the calibrated material, which already carries the best factor.
+    for_each_target(&uncertainty.targets, |idx, target| {
+        let (Some(&value), Some(&best)) = (drawn.get(idx), uncertainty.values.get(idx)) else {
+            return;
+        };
+        let applied = if target.is_factor() {
+            value / best
+        } else {
+            value
+        };
+        target.apply(applied, material, scenario);
+    });
 }
 
 /// Simulates the scenario with one drawn parameter set.

@@ -5,7 +5,7 @@
 //! numbers go through the shared formats of `crate::headless` and text through the word wrap
 //! of `crate::tui::draw`, so this table and the screens agree digit for digit.
 
-use crate::fit::label::ParameterLabel;
+use crate::case::label::ParameterLabel;
 use crate::run::RunSummary;
 
 pub fn fit_summary_table(summary: &RunSummary, labels: &[ParameterLabel]) -> String {

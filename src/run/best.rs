@@ -7,11 +7,11 @@
 //! is `export::material`'s (best.toml is a material file any command reads).
 
 use super::{io, RunDirectory, RunError};
+use crate::case::job::FitJob;
+use crate::case::targets::{apply_all, apply_to_material_all};
 use crate::export::material::{calibrated_material_toml, FittedValue, Provenance};
 use crate::export::write_atomically;
 use crate::fit::identifiability::Identifiability;
-use crate::fit::job::FitJob;
-use crate::fit::parameters::{apply_all, apply_to_material_all};
 
 /// Writes `best.toml` for the point `values` (file units) of cost `cost`; `analysis` gives
 /// the intervals once the fit has ended.
@@ -29,10 +29,10 @@ pub fn write_best_model(
     match job.cases.iter().find_map(|case| case.cone_scenario()) {
         Some(loaded) => {
             let mut scenario = loaded.scenario.clone();
-            apply_all(&job.parameters, values, &mut material, &mut scenario);
+            apply_all(&job.targets, values, &mut material, &mut scenario);
         }
         // A job of milligram cases alone has no scenario values to set.
-        None => apply_to_material_all(&job.parameters, values, &mut material),
+        None => apply_to_material_all(&job.targets, values, &mut material),
     }
     let fitted: Vec<FittedValue> = values
         .iter()
@@ -62,6 +62,7 @@ pub fn write_best_model(
         &job.material,
         start_text,
         &job.parameters,
+        &job.targets,
         &fitted,
         &material,
         &provenance,

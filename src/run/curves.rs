@@ -12,9 +12,9 @@ use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
 
+use crate::case::job::FitJob;
+use crate::case::model::CaseModel;
 use crate::export::write_atomically;
-use crate::fit::job::FitJob;
-use crate::fit::model::CaseModel;
 
 use super::{io, slug, RunDirectory, RunError};
 

@@ -25,8 +25,8 @@ pub mod progress;
 pub mod record;
 pub mod summary;
 
-pub use record::RunRecord;
 pub use posterior::read_posterior;
+pub use record::RunRecord;
 pub use summary::{read_summary, PosteriorInfo, RunSummary, SummaryParameter};
 
 use std::path::{Path, PathBuf};
@@ -35,6 +35,8 @@ use std::sync::Arc;
 
 use sha2::{Digest, Sha256};
 
+use crate::case::job::{data_files, load_job, FitJob};
+use crate::case::model::CaseModel;
 use crate::export::material::Provenance;
 use crate::export::write_atomically;
 use crate::fit::engine::{
@@ -43,8 +45,6 @@ use crate::fit::engine::{
 };
 use crate::fit::evaluator::{Evaluator, Local};
 use crate::fit::identifiability::analyse_on;
-use crate::fit::job::{data_files, load_job, FitJob};
-use crate::fit::model::CaseModel;
 use crate::fit::objective::Objective;
 use best::write_best_model;
 use progress::{ParameterInfo, PartInfo, ProgressEvent, ProgressWriter, FORMAT_VERSION};
@@ -345,7 +345,7 @@ pub struct FitReport {
     pub directory: PathBuf,
     pub summary: RunSummary,
     /// Short labels and meanings of the parameters, in the summary's order.
-    pub labels: Vec<crate::fit::label::ParameterLabel>,
+    pub labels: Vec<crate::case::label::ParameterLabel>,
 }
 
 /// Starts or resumes a fit and runs it to its end (or to a stop request).
@@ -384,10 +384,7 @@ pub fn run_fit_on<E: Evaluator>(
     } else {
         options.clone()
     };
-    let mut job = load_job(job_path)?;
-    if let Some(seed) = options.seed {
-        job.settings.seed = seed;
-    }
+    let job = load_job(job_path)?;
     let job_text = crate::input::read_text(job_path, crate::input::InputKind::Toml)
         .map_err(io("cannot read", job_path))?;
     let start_text = crate::input::read_text(&job.material_path, crate::input::InputKind::Toml)
@@ -397,30 +394,31 @@ pub fn run_fit_on<E: Evaluator>(
     for path in data_files(&job).values() {
         hashes.insert(path.display().to_string(), sha256_hex(path)?);
     }
+    let recorded = if options.resume {
+        Some(record::read_record(&dir)?.ok_or_else(|| RunError::NoRecord(dir.root.clone()))?)
+    } else {
+        None
+    };
+    // The job's settings with the command line's budget, and the one place the run's seed is
+    // decided: a resumed run keeps its record's; a new one takes --seed, else the job's.
     let settings = EngineSettings {
-        population: job.settings.population,
         max_evaluations: options
             .max_evaluations
-            .unwrap_or(job.settings.max_evaluations as u64),
-        time_budget_s: options
-            .time_budget_s
-            .or(job.settings.time_budget.map(|d| d.as_secs_f64())),
-        target_objective: job.settings.target_objective,
-        stagnation_generations: job.settings.stagnation_generations as u64,
-        seed: job.settings.seed,
-        local_refinement: job.settings.local_refinement,
-        local_max_evaluations: job.settings.local_max_evaluations as u64,
-        local_starts: job.settings.local_starts,
+            .unwrap_or(job.settings.engine.max_evaluations),
+        time_budget_s: options.time_budget_s.or(job.settings.engine.time_budget_s),
+        seed: recorded
+            .as_ref()
+            .map(|record| record.seed)
+            .or(options.seed)
+            .unwrap_or(job.settings.engine.seed),
+        ..job.settings.engine.clone()
     };
-    let (state, resumed_from) = if options.resume {
-        let record =
-            record::read_record(&dir)?.ok_or_else(|| RunError::NoRecord(dir.root.clone()))?;
+    let (state, resumed_from) = if let Some(record) = &recorded {
         for (path, hash) in &record.data_sha256 {
             if hashes.get(path).is_some_and(|now| now != hash) {
                 return Err(RunError::Changed(path.clone()));
             }
         }
-        job.settings.seed = record.seed;
         let state = checkpoint::read_checkpoint(&dir)?;
         progress::trim_to_iteration(&dir.progress(), state.iteration)?;
         let iteration = state.iteration;
@@ -439,7 +437,7 @@ pub fn run_fit_on<E: Evaluator>(
             job_path: job_path.display().to_string(),
             emberfit_version: env!("CARGO_PKG_VERSION").to_string(),
             started: humantime::format_rfc3339_seconds(std::time::SystemTime::now()).to_string(),
-            seed: job.settings.seed,
+            seed: settings.seed,
             threads: options.threads,
             data_sha256: hashes.clone(),
             job_sha256: hashes.get(&job_path.display().to_string()).cloned(),
@@ -452,10 +450,6 @@ pub fn run_fit_on<E: Evaluator>(
         };
         record::write_record(&dir, &record)?;
         (initial_state(&job.parameters, &settings), None)
-    };
-    let settings = EngineSettings {
-        seed: job.settings.seed,
-        ..settings
     };
     let provenance = Provenance {
         job: job_path.display().to_string(),
@@ -482,7 +476,7 @@ pub fn run_fit_on<E: Evaluator>(
         model: &model,
         curves_written: None,
     };
-    let labels = crate::fit::label::labels(&job.parameters, &job.material.material);
+    let labels = crate::case::label::labels(&job.parameters, &job.targets, &job.material.material);
     recorder.write_event(&ProgressEvent::Started {
         format_version: FORMAT_VERSION,
         title: job.title.clone(),
@@ -516,7 +510,7 @@ pub fn run_fit_on<E: Evaluator>(
         time_budget_s: settings.time_budget_s,
         resumed_from,
     });
-    let objective = Objective::new(&model, &job.cases);
+    let objective = Objective::new(&model);
     let outcome = optimise_on(&objective, evaluator, &settings, state, &mut recorder);
     if let Some(err) = recorder.io_error.take() {
         recorder.write_event(&ProgressEvent::Failed {

@@ -108,7 +108,7 @@ pub fn readers() -> Vec<Reader> {
             name: "fit job TOML",
             seeds: seeds(&all, ".toml", |t| t.contains("[[parameter]]")),
             writes_file: true,
-            read: |path, _| emberfit::fit::job::load_job(path).is_ok(),
+            read: |path, _| emberfit::case::job::load_job(path).is_ok(),
         },
         Reader {
             name: "cone CSV (data::table)",

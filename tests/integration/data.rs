@@ -249,7 +249,7 @@ fn janssens_general_equation_on_a_hand_worked_value() {
     assert!((q_kw - 5.7800).abs() < 1e-4, "{q_kw}");
 }
 
-/// physics.md §4: with X_CO2 = X_CO = 0 (and no CO₂ or water in the ambient air) Janssens'
+/// docs/physics.md §4: with X_CO2 = X_CO = 0 (and no CO₂ or water in the ambient air) Janssens'
 /// form reduces to the O₂-only one. ISO rounds (X⁰ + α − 1)/X⁰ = 1.5012 to 1.5, which moves the
 /// result by about 0.03 % at these readings; 0.1 % bounds it.
 #[test]
@@ -290,7 +290,7 @@ fn polynomial_derivative(coefficients: &[f64], t: f64) -> f64 {
         .sum()
 }
 
-/// ISO 5660-1 five-point formulas (physics.md §4) are exact for polynomials up to fourth
+/// ISO 5660-1 five-point formulas (docs/physics.md §4) are exact for polynomials up to fourth
 /// degree, at interior points and at the first two and last two points, on a uniform step and
 /// on the uneven steps real loggers produce. A fifth-degree term is not differentiated exactly,
 /// which shows the check can fail.
@@ -498,7 +498,7 @@ fn a_messy_lab_file_reads_and_every_repair_is_reported() {
 /// The milligram-scale files of the MaCFP PMMA set (TGA, DSC, MCC; see its PROVENANCE.md) read
 /// with the generic column reader, by the column names tests.toml lists. As a check that the
 /// numbers are read right, not just read: the TGA mass-loss-rate peak at 10 K/min lies at
-/// 640 ± 7.5 K, the set's acceptance criterion (SUMMARY.md; physics.md §5). The rate is the
+/// 640 ± 7.5 K, the set's acceptance criterion (the reference data's SUMMARY.md; docs/physics.md §5). The rate is the
 /// five-point derivative of the Savitzky–Golay-smoothed mass (21 points, quadratic), because
 /// raw balance noise would otherwise pick a spike.
 #[test]
@@ -907,7 +907,7 @@ fn broken_test_files_give_the_stated_error() {
 // Smoke, the mass-loss estimate of HRR, smoothing, the methane calibration, Janssens' form in
 // the pipeline.
 
-/// Hand-worked smoke quantities (ISO 5660-1 definitions, physics.md §4): the photometer reads
+/// Hand-worked smoke quantities (ISO 5660-1 definitions, docs/physics.md §4): the photometer reads
 /// I = I₀·exp(−k·L) with I₀ = 100 before exposure, L = 0.11 m, and k rising linearly from 0 to
 /// 0.5 1/m over 100–110 s, flat to 290 s, back to 0 at 300 s: ∫k dt = 0.5·(180 + 200)/2 =
 /// 95 s/m. With V̇ = 0.024 m³/s: ∫V̇k dt = 2.28 m², total smoke release 2.28/0.01 = 228 m²/m²;
@@ -960,7 +960,7 @@ fn smoke_and_mass_loss_quantities_on_hand_worked_values() {
 /// ISO 5660-1 calibration: a 5 kW methane burner read through an orifice of known constant
 /// C = 0.0415 (O₂ made with methane's Δh_c/r₀ = 12.54 MJ/kg, delayed 10 s) must give C back
 /// through `gas_analysis.methane_calibration`. The same test's O₂ reduced with Janssens' form
-/// and zero CO₂ and CO must agree with the O₂-only form to 0.1 % (physics.md §4).
+/// and zero CO₂ and CO must agree with the O₂-only form to 0.1 % (docs/physics.md §4).
 #[test]
 fn methane_calibration_run_gives_the_orifice_constant_back() {
     use emberfit::data::oxygen::{METHANE_HEAT_PER_OXYGEN_KJ_KG, OXYGEN_AIR_MOLAR_MASS_RATIO};

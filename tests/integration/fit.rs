@@ -259,7 +259,7 @@ fn demo_fit_recovers_the_truth_and_predicts_the_held_out_irradiance() {
         // A = 3.0e13 1/s with E = 188 kJ/mol at 10 K/min (Kissinger's condition).
         (
             "reaction.0.peak_temperature_k",
-            emberfit::fit::parameters::peak_temperature_k(3.0e13, 188e3, 10.0 / 60.0),
+            emberfit::case::targets::peak_temperature_k(3.0e13, 188e3, 10.0 / 60.0),
         ),
         ("reaction.0.heat_of_reaction_kj_kg", 1100.0),
         ("component.virgin.absorption_per_m", 1500.0),
@@ -376,7 +376,7 @@ fn charring_twin_recovers_the_truth_and_predicts_a_third_irradiance() {
         ("component.virgin.specific_heat_j_kg_k", 1700.0),
         (
             "reaction.1.peak_temperature_k",
-            emberfit::fit::parameters::peak_temperature_k(3.0e10, 150e3, 10.0 / 60.0),
+            emberfit::case::targets::peak_temperature_k(3.0e10, 150e3, 10.0 / 60.0),
         ),
         ("heat_of_combustion_mj_kg", 14.5),
     ];

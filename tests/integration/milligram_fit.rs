@@ -8,8 +8,8 @@ use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
 use std::sync::Arc;
 
-use emberfit::fit::job::load_job;
-use emberfit::fit::model::CaseModel;
+use emberfit::case::job::load_job;
+use emberfit::case::model::CaseModel;
 use emberfit::fit::objective::Objective;
 use emberfit::fit::parameters::Prior;
 use emberfit::physics::material::{Component, GasRelease, Material, PropertyLaw, Reaction};
@@ -234,7 +234,7 @@ fn twin_tga_at_three_heating_rates_recovers_a_and_e_within_their_intervals() {
 
 /// Twin experiment (the source is the twin construction): with the kinetics fixed at their
 /// true values, an MCC run at 60 K/min (heat release rate = gas release × heat of combustion,
-/// physics.md §3) and a DSC run at 10 K/min (heat flow = rate × heat of reaction) simulated
+/// docs/physics.md §3) and a DSC run at 10 K/min (heat flow = rate × heat of reaction) simulated
 /// from Hc = 25 MJ/kg and ΔH = 800 kJ/kg, with noise, give back both heats inside their 95 %
 /// intervals, fitted together in one job.
 #[test]
@@ -363,7 +363,7 @@ fn prior_from_reads_a_summary_and_best_toml_serves_as_the_material() {
         })
     );
     let model = CaseModel::new(&loaded);
-    let objective = Objective::new(&model, &loaded.cases);
+    let objective = Objective::new(&model);
     let evaluation = objective.evaluate(&[start]);
     println!("prior cost at 3 standard errors: {}", evaluation.prior_cost);
     assert!(

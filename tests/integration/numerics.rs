@@ -167,7 +167,7 @@ fn impossible_numerics_are_refused_with_the_key_and_line() {
 
 /// Issue 14 item 4 (in part): heats of reaction from +5000 to −500 kJ/kg run to the end with finite
 /// outputs, energy and mass closed to rounding (the budgets are sums over the solved systems,
-/// physics.md §1) and a plausible peak MLR: even an exothermic runaway cannot release more
+/// docs/physics.md §1) and a plausible peak MLR: even an exothermic runaway cannot release more
 /// than the specimen (7.1 kg/m²), and a peak above 1 kg/(m²·s) would mean the rate was not
 /// resolved (the old solver reported 10–100 kg/(m²·s) at −200 and −400 kJ/kg).
 #[test]

@@ -119,7 +119,7 @@ pub fn cone(layers: Vec<Layer>, irradiance_w_m2: f64, duration_s: f64) -> Scenar
 }
 
 /// A charring solid with moisture: water → vapour (inert gas), virgin → 0.25 char + fuel gas.
-/// Char density is 0.25 of virgin, so a charring cell keeps its thickness (physics.md §1).
+/// Char density is 0.25 of virgin, so a charring cell keeps its thickness (docs/physics.md §1).
 /// Kinetic and thermal values are typical of wood, quoted from memory; latent heat of water
 /// 2.26 MJ/kg (steam tables).
 pub fn charring_material() -> Material {

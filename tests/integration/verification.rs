@@ -1,5 +1,5 @@
-//! Verification of the solver against published analytical solutions (physics.md §2) and the
-//! conservation laws (physics.md §1). Each test names its source and justifies its tolerance;
+//! Verification of the solver against published analytical solutions (docs/physics.md §2) and the
+//! conservation laws (docs/physics.md §1). Each test names its source and justifies its tolerance;
 //! the measured figures are printed (`cargo test -- --nocapture`).
 
 use std::f64::consts::PI;
@@ -39,7 +39,7 @@ fn carslaw_jaeger_1959_semi_infinite_constant_flux() {
         "C&J constant flux: rise {simulated_rise:.3} K, exact {expected_rise:.3} K, error {:.4} %",
         100.0 * error
     );
-    // 1 %: the contract's tolerance (physics.md §2 via issue 2) at the default grid.
+    // 1 %: the contract's tolerance (docs/physics.md §2 via issue 2) at the default grid.
     assert!(error < 0.01, "error {error}");
 }
 
@@ -150,7 +150,7 @@ fn drysdale_2011_thermally_thin_ignition_time() {
     assert!(error < 0.03, "error {error}");
 }
 
-/// Steady regression of a thick non-charring solid (physics.md §2, energy balance of a
+/// Steady regression of a thick non-charring solid (docs/physics.md §2, energy balance of a
 /// steadily receding front): ṁ'' = q_net / (∫_{T₀}^{T_p} c dT + ΔH), with T_p the
 /// gas-release-weighted temperature. 2 %: the issue's tolerance.
 #[test]
@@ -184,7 +184,7 @@ fn steady_regression_follows_the_heat_of_gasification_relation() {
     assert!(error < 0.02, "error {error}");
 }
 
-/// Conservation (physics.md §1 "Numerical requirements"): on a full reacting multi-layer run
+/// Conservation (docs/physics.md §1 "Numerical requirements"): on a full reacting multi-layer run
 /// (wet charring solid on a board, contact resistance, in-depth absorption in a thermoplastic
 /// top layer, ignition, flame, back losses) energy closes to 1e-6 of the absorbed energy and
 /// mass to 1e-9.
@@ -215,7 +215,7 @@ fn energy_and_mass_close_on_a_reacting_multilayer_run() {
     assert!(summary.mass.relative_residual() < 1e-9);
 }
 
-/// A charring slab forms char from the surface inward (physics.md §1; common practice): at
+/// A charring slab forms char from the surface inward (docs/physics.md §1; common practice): at
 /// mid-burn the char fraction falls with depth and the cells keep their thickness.
 #[test]
 fn charring_slab_chars_from_the_surface_inward() {
@@ -242,7 +242,7 @@ fn charring_slab_chars_from_the_surface_inward() {
     );
 }
 
-/// Physical sense over the cone's range (ISO 5660-1 irradiances, physics.md §5): higher
+/// Physical sense over the cone's range (ISO 5660-1 irradiances, docs/physics.md §5): higher
 /// irradiance ignites sooner and burns faster.
 #[test]
 fn higher_irradiance_ignites_sooner_and_burns_faster() {
@@ -284,7 +284,7 @@ fn irradiance_table_is_integrated_exactly() {
     );
 }
 
-/// Grid and step convergence (physics.md §1 "Numerical requirements"): halving the cell size
+/// Grid and step convergence (docs/physics.md §1 "Numerical requirements"): halving the cell size
 /// and every step limit changes peak MLR by less than 1 % at the default resolution, and the
 /// differences shrink as the grid is refined again, which gives the observed order
 /// p = log₂(|P₁ − P₂| / |P₂ − P₄|).

@@ -4,7 +4,8 @@
 
 use crate::physics::material::{Material, PropertyLaw};
 
-use super::parameters::{FreeParameter, PropertyPart, Target};
+use super::targets::{PropertyPart, Target};
+use crate::fit::parameters::FreeParameter;
 
 /// A parameter's short label and what its value means.
 #[derive(Debug, Clone, PartialEq, Eq)]
@@ -64,8 +65,13 @@ fn property(
     }
 }
 
-/// The label of one parameter, from its first target and the job's material.
-pub fn describe(parameter: &FreeParameter, material: &Material) -> ParameterLabel {
+/// The label of one parameter, from its first target (`targets`: its path, then its tied
+/// paths) and the job's material.
+pub fn describe(
+    parameter: &FreeParameter,
+    targets: &[Target],
+    material: &Material,
+) -> ParameterLabel {
     let component = |c: usize| {
         material
             .components
@@ -85,10 +91,10 @@ pub fn describe(parameter: &FreeParameter, material: &Material) -> ParameterLabe
         )
     };
     let simple = |short: String, meaning: String| ParameterLabel { short, meaning };
-    let Some(target) = parameter.targets.first() else {
+    let Some(target) = targets.first() else {
         return simple(parameter.name.clone(), parameter.name.clone());
     };
-    let tied = parameter.targets.len() - 1;
+    let tied = targets.len() - 1;
     let mut label = match target {
         Target::Density { component: c } => simple(
             format!("ρ {}", component(*c)),
@@ -203,8 +209,17 @@ pub fn describe(parameter: &FreeParameter, material: &Material) -> ParameterLabe
 
 /// Labels of all of a job's parameters; a short label that two parameters would share gets
 /// its position appended (`#2`), so every one can be told apart.
-pub fn labels(parameters: &[FreeParameter], material: &Material) -> Vec<ParameterLabel> {
-    let mut out: Vec<ParameterLabel> = parameters.iter().map(|p| describe(p, material)).collect();
+pub fn labels(
+    parameters: &[FreeParameter],
+    targets: &[Vec<Target>],
+    material: &Material,
+) -> Vec<ParameterLabel> {
+    let first_targets = |idx: usize| targets.get(idx).map_or(&[][..], |t| t.as_slice());
+    let mut out: Vec<ParameterLabel> = parameters
+        .iter()
+        .enumerate()
+        .map(|(idx, p)| describe(p, first_targets(idx), material))
+        .collect();
     // A law whose exponent is fitted too: the template's exponent is not the one that holds.
     let exponent_of = |target: &Target| match target {
         Target::Conductivity {
@@ -217,12 +232,11 @@ pub fn labels(parameters: &[FreeParameter], material: &Material) -> Vec<Paramete
         } => Some(("c", *component)),
         _ => None,
     };
-    let fitted_exponents: Vec<(&str, usize)> = parameters
-        .iter()
-        .filter_map(|p| p.targets.first().and_then(exponent_of))
+    let fitted_exponents: Vec<(&str, usize)> = (0..parameters.len())
+        .filter_map(|idx| first_targets(idx).first().and_then(exponent_of))
         .collect();
-    for (parameter, label) in parameters.iter().zip(out.iter_mut()) {
-        let value_of = match parameter.targets.first() {
+    for (idx, label) in out.iter_mut().enumerate() {
+        let value_of = match first_targets(idx).first() {
             Some(Target::Conductivity {
                 component,
                 part: PropertyPart::Value,
@@ -254,13 +268,13 @@ pub fn labels(parameters: &[FreeParameter], material: &Material) -> Vec<Paramete
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::fit::job::load_job;
+    use crate::case::job::load_job;
 
     #[test]
     fn the_demo_jobs_labels_say_what_and_at_what_temperature() {
         let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
         let job = load_job(&root.join("demo-cases/ridgeline-panel/fit.toml")).unwrap();
-        let labels = labels(&job.parameters, &job.material.material);
+        let labels = labels(&job.parameters, &job.targets, &job.material.material);
         let shorts: Vec<&str> = labels.iter().map(|l| l.short.as_str()).collect();
         assert_eq!(
             shorts,
@@ -291,7 +305,7 @@ mod tests {
     fn a_law_whose_exponent_is_fitted_does_not_quote_the_templates_exponent() {
         let root = std::path::Path::new(env!("CARGO_MANIFEST_DIR"));
         let job = load_job(&root.join("tests/cases/viewer-fit.toml")).unwrap();
-        let labels = labels(&job.parameters, &job.material.material);
+        let labels = labels(&job.parameters, &job.targets, &job.material.material);
         assert_eq!(labels[0].short, "k(300 K) virgin");
         assert_eq!(
             labels[0].meaning,

@@ -7,10 +7,9 @@ use std::path::Path;
 
 use toml::Spanned;
 
-use super::{
-    largest_magnitude, weight_and_window, CaseFile, CaseSetup, FitCase, MilligramSetup, SignalData,
-    SignalFile, SignalKind,
-};
+use super::cases::weight_and_window;
+use super::weighting::{sigma_policy, signal_scale};
+use super::{CaseFile, CaseSetup, FitCase, MilligramSetup, SignalData, SignalFile, SignalKind};
 use crate::case::source::{error_chain, Source};
 use crate::case::{CaseError, MaterialModel};
 use crate::microscale::{
@@ -348,13 +347,12 @@ fn signal_data(
             kind.name()
         )));
     }
-    let (sigma, sigma_source) = match raw_signal.and_then(|s| s.sigma.as_ref()) {
-        Some(v) => (
-            vec![source.positive(v, &field("sigma"))?; time_s.len()],
-            "sigma",
-        ),
-        None => (vec![largest_magnitude(&value); time_s.len()], "peak"),
+    let stated_sigma = match raw_signal.and_then(|s| s.sigma.as_ref()) {
+        Some(v) => Some(source.positive(v, &field("sigma"))?),
+        None => None,
     };
+    let scale = signal_scale(kind, &value);
+    let (sigma, sigma_source) = sigma_policy(kind, stated_sigma, None, scale, time_s.len());
     Ok(SignalData {
         kind,
         weight,
@@ -370,7 +368,7 @@ fn signal_data(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::fit::job::load_job;
+    use crate::case::job::load_job;
 
     /// A TGA case without `signals` fits its file's mass fraction on a programme that starts at
     /// the first data time; with a milligram scenario the programme is the scenario's and

@@ -6,9 +6,9 @@ use std::path::Path;
 
 use toml::Spanned;
 
-use super::Prior;
 use crate::case::source::{error_chain, Source};
 use crate::case::CaseError;
+use crate::fit::parameters::Prior;
 
 /// The prior that `summary_file` (relative to the job) gives the parameter `path`.
 pub(super) fn prior_from_summary(
