@@ -282,7 +282,7 @@ mod tests {
         };
         assert_eq!(
             with(&["--ignition-time-s=-1"]),
-            "--ignition-time-s must be >= 0, got -1"
+            "--ignition-time-s must be ≥ 0, got -1"
         );
         assert!(with(&["--heat-of-combustion-mj-kg", "90"])
             .starts_with("--heat-of-combustion-mj-kg must be"));

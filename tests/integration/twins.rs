@@ -106,11 +106,8 @@ fn write_twin(dir: &Path, seed: u64) -> std::path::PathBuf {
     job
 }
 
-/// Before the sandwich covariance (issue 13) the truth lay inside 8 of the 12
-/// intervals (specific heat missed in two twins, conductivity and heat of reaction in one; the
-/// estimates scatter about twice as far as the intervals say, and c comes out 0.2–1 % low in all
-/// three). Ignored so the suite stays green while it fails; run it with
-/// `cargo test --test integration twins -- --ignored`.
+/// With the classical s²·(JᵀJ)⁻¹ the truth lay inside 8 of the 12 intervals; with the
+/// sandwich covariance (issue 13) 12 of 12 on 2026-12-03 (docs/calibration-pmma.md §5).
 #[test]
 fn pmma_template_twins_hold_the_truth_inside_their_intervals() {
     let root = std::env::temp_dir().join(format!("emberfit-twins-{}", std::process::id()));
