@@ -8,7 +8,21 @@
 //!
 //! Unknowns of each solve are the exposed-face temperature (a node without heat capacity whose
 //! row is the face balance), the cell temperatures, and the back-face temperature. Masses are
-//! advanced implicitly by `kinetics::advance_masses` at each iterate's temperatures.
+//! advanced implicitly by `kinetics::advance_masses` at each iterate's temperatures, so each
+//! cell's mass unknowns are eliminated into its temperature row (the reaction heat and its
+//! slope through the Arrhenius factor, saturated by the step): the Newton iteration is on the
+//! coupled temperature–conversion system of every cell.
+//!
+//! Exothermic reactions (docs/numerics.md, "Exothermic runaways"): a cell whose self-heating
+//! slope outweighs its heat capacity over the step is past or near the fold of its implicit
+//! balance, where the tangent is useless; such a cell is held, for one iteration, at the root
+//! of its own non-linear balance reached first from its start temperature
+//! (`first_root_from`), and the next plain Newton iteration confirms it (only a plain iteration
+//! may end a solve, so the budget is that of a solved linear system). A runaway that the error
+//! control would chase to ever shorter steps is let flash: a step of 20 e-folding times of the
+//! runaway, offered once that is within the event tolerance (`flash_step`); a cell whose
+//! exothermic reactant is used up within the step is exempt from the per-step caps (its
+//! change is set by the heat released), not from the error estimate.
 
 use super::kinetics::{
     advance_masses, rate_constant_per_s, reaction_rate, StepMasses, GAS_CONSTANT_J_MOL_K,
