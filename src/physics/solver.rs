@@ -174,6 +174,9 @@ struct Work {
     /// Kinetics of one cell at a trial temperature (the runaway root search).
     trial_rate_constants: Vec<f64>,
     trial_masses: StepMasses,
+    /// Whether any cell's reaction-heat slope at the iterate is negative (self-heating): only
+    /// then can a cell need holding or the exothermic heat check.
+    any_self_heating: bool,
 }
 
 /// What one attempted step came to.
@@ -683,7 +686,9 @@ impl<'a> Solver<'a> {
             self.n_iterations += 1;
             self.evaluate_cells(work, dt_s);
             let face_absorbed_w_m2 = self.deposit_radiation(work, time_new_s);
-            let held = !held_last && self.hold_runaway_cells(work, dt_s, force_hold);
+            let held = !held_last
+                && work.any_self_heating
+                && self.hold_runaway_cells(work, dt_s, force_hold);
             budget = self.assemble_and_solve(work, dt_s, face_absorbed_w_m2, held);
             let change = work
                 .solution_k
@@ -692,9 +697,12 @@ impl<'a> Solver<'a> {
                 .map(|(a, b)| (a - b).abs())
                 .fold(0.0, f64::max);
             held_last = held;
+            let forced = force_hold;
             force_hold = false;
-            if !change.is_finite() || work.solution_k.iter().any(|t| *t <= 0.0) {
-                if held {
+            let thrown_off = !change.is_finite()
+                || (work.any_self_heating && work.solution_k.iter().any(|t| *t <= 0.0));
+            if thrown_off {
+                if held || forced || !work.any_self_heating {
                     break;
                 }
                 // The tangent system of a self-heating cell past its fold sent the iterate
@@ -704,7 +712,7 @@ impl<'a> Solver<'a> {
             }
             if change <= numerics.iteration_tolerance_k
                 && !held
-                && self.exothermic_heat_is_consistent(work)
+                && (!work.any_self_heating || self.exothermic_heat_is_consistent(work))
             {
                 converged = true;
                 break;
@@ -839,6 +847,7 @@ impl<'a> Solver<'a> {
         work.consumed.clear();
         work.consumed.resize(n_cells * reaction_stride, 0.0);
         work.properties.resize(n_cells, CellProperties::default());
+        work.any_self_heating = false;
         for cell_idx in 0..n_cells {
             let material = self.material(cell_idx);
             let temperature_k = work.iterate_k[cell_idx + 1];
@@ -913,6 +922,7 @@ impl<'a> Solver<'a> {
                 properties.absorption_per_m = first.absorption_coefficient_per_m;
             }
             properties.thickness_m = thickness_m;
+            work.any_self_heating |= properties.reaction_heat_slope_w_m2_k < 0.0;
             work.properties[cell_idx] = properties;
         }
     }
