@@ -3,7 +3,9 @@
 //! predict 65, fit 65 and predict 25, with the set-up of docs/calibration-pmma.md. Prints, per
 //! held-out quantity, the repeat mean ± sd, the best fit, the parameter band and the prediction
 //! band (test scatter and model error), with their widths and whether the band holds the mean.
-//! Asserts nothing. Run: `EMBERFIT_REFERENCE_DATA=... cargo bench --bench leave_one_out`.
+//! Asserts nothing. Run: `EMBERFIT_REFERENCE_DATA=... cargo bench --bench leave_one_out`
+//! (`EMBERFIT_LOO_ONLY=lab-c-65` for one fit, `EMBERFIT_LOO_POSTERIOR_STEPS=0` for the
+//! linearised band only, `EMBERFIT_LOO_KEEP=1` to keep the run directories).
 
 use std::path::{Path, PathBuf};
 use std::sync::atomic::AtomicBool;
@@ -14,6 +16,9 @@ use emberfit::predict::{
     load_prepared_scenario, predict, CalibratedModel, Conditions, PredictionSettings,
 };
 use emberfit::run::{run_fit, RunOptions};
+
+/// Steps of the posterior sample after each fit (16 walkers for the 7 parameters).
+const POSTERIOR_STEPS: usize = 150;
 
 struct Lab {
     name: &'static str,
@@ -68,9 +73,20 @@ fn main() {
         "| lab | fit | predict | quantity | held-out mean ± sd | best | parameter band (width) | prediction band (width) | inside |"
     );
     println!("|---|---|---|---|---|---|---|---|---|");
+    // EMBERFIT_LOO_ONLY=lab-c-65 runs one fit; EMBERFIT_LOO_POSTERIOR_STEPS sets the posterior
+    // sample's length (0: the linearised band only).
+    let only = std::env::var("EMBERFIT_LOO_ONLY").ok();
+    let posterior_steps: usize = std::env::var("EMBERFIT_LOO_POSTERIOR_STEPS")
+        .ok()
+        .and_then(|v| v.parse().ok())
+        .unwrap_or(POSTERIOR_STEPS);
     for lab in &LABS {
         for (fit_flux, held_flux) in [(25.0, 65.0), (65.0, 25.0)] {
-            let dir = root.join(format!("{}-{fit_flux}", lab.name));
+            let key = format!("{}-{fit_flux}", lab.name);
+            if only.as_ref().is_some_and(|o| *o != key) {
+                continue;
+            }
+            let dir = root.join(&key);
             std::fs::create_dir_all(&dir).expect("scratch folder");
             let mut descriptions = Vec::new();
             for (file, flux, mass) in lab.tests {
@@ -128,10 +144,11 @@ fn main() {
                      [[case]]\nname = \"{fit_flux} kW/m²\"\ntests = [{}]\n\
                      signals = [{{ signal = \"mlr\", weight = 0.01 }}, {{ signal = \"hrr\", weight = 0.01 }}, {{ signal = \"ignition_time\" }}, \
                      {{ signal = \"peak_hrr\" }}, {{ signal = \"time_to_peak_hrr\" }}, {{ signal = \"total_heat_release\" }}]\n\
-                     [settings]\nmax_evaluations = 1800\nstagnation_generations = 15\nlocal_max_evaluations = 150\nseed = 2\n",
+                     [settings]\nmax_evaluations = 1800\nstagnation_generations = 15\nlocal_max_evaluations = 150\nseed = 2\nposterior_steps = {posterior_steps}\nposterior_walkers = 16\nposterior_burn_in = {}\n",
                     lab.name,
                     template.display(),
-                    tests.join(", ")
+                    tests.join(", "),
+                    posterior_steps / 3
                 ),
             )
             .expect("job");
@@ -221,5 +238,9 @@ fn main() {
         }
     }
     println!("held-out repeat means inside the 95 % prediction band: {inside} of {total}");
-    let _ = std::fs::remove_dir_all(&root);
+    if std::env::var_os("EMBERFIT_LOO_KEEP").is_some() {
+        println!("run directories kept in {}", root.display());
+    } else {
+        let _ = std::fs::remove_dir_all(&root);
+    }
 }

@@ -1,9 +1,64 @@
 //! Progress lines for a fit without a terminal interface (`--headless`, pipes, logs): one
 //! short line per event worth telling, made from the run directory's `progress.jsonl` alone.
+//!
+//! **Invariant:** reads the run directory only (through `run::progress`), never calls the fit
+//! or the physics; the number formats every screen shares (`significant`, `interval_text`)
+//! live here.
 
+use std::path::Path;
 use std::time::{Duration, Instant};
 
-use crate::run::progress::ProgressEvent;
+use crate::run::progress::{ProgressEvent, ProgressFollower};
+
+/// How often the poll loop of [`Follow::print_while`] looks at the log.
+const POLL_EVERY: Duration = Duration::from_millis(200);
+
+/// Follows a run's `progress.jsonl` and makes its progress lines: the loop of `fit
+/// --headless` (and of a fit whose interface could not start).
+pub struct Follow {
+    follower: ProgressFollower,
+    ticker: Ticker,
+}
+
+impl Follow {
+    /// A follower of `progress`; `skip_existing` skips what the file holds already (a
+    /// resumed run: the earlier process printed it).
+    pub fn new(progress: &Path, skip_existing: bool) -> Self {
+        let mut follower = ProgressFollower::new(progress);
+        if skip_existing {
+            let _ = follower.poll();
+        }
+        Follow {
+            follower,
+            ticker: Ticker::new(Duration::from_secs(3)),
+        }
+    }
+
+    /// The lines due for the events written since the last call; `is_last` adds the
+    /// held-back iteration line (the fit has ended). A log that cannot be read gives none.
+    pub fn lines(&mut self, now: Instant, is_last: bool) -> Vec<String> {
+        let mut lines = Vec::new();
+        if let Ok(events) = self.follower.poll() {
+            for event in &events {
+                lines.extend(self.ticker.line(event, now));
+            }
+        }
+        if is_last {
+            lines.extend(self.ticker.flush());
+        }
+        lines
+    }
+
+    /// Hands each line to `tell` while `is_running` holds, looking every 200 ms.
+    pub fn print_while(&mut self, is_running: impl Fn() -> bool, mut tell: impl FnMut(&str)) {
+        while is_running() {
+            for line in self.lines(Instant::now(), false) {
+                tell(&line);
+            }
+            std::thread::sleep(POLL_EVERY);
+        }
+    }
+}
 
 /// Turns the event stream into one progress line every few seconds (plus every event worth
 /// telling at once), with evaluations per second and the remaining budget.
@@ -254,12 +309,62 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         )),
         ProgressEvent::Failed { message } => Some(format!("fit failed: {message}")),
         ProgressEvent::Checkpoint { .. } => None,
+        // About ten lines over the sample.
+        ProgressEvent::Posterior {
+            step,
+            steps,
+            acceptance,
+            elapsed_s,
+        } => (*step == 1 || *step == *steps || step % (steps / 10).max(1) == 0).then(|| {
+            format!(
+                "[posterior] step {step:>5}/{steps}  {elapsed_s:>7.1} s  accepted {:.0} %",
+                100.0 * acceptance
+            )
+        }),
     }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn the_follower_skips_an_earlier_process_lines_and_flushes_at_the_end() {
+        let dir =
+            std::env::temp_dir().join(format!("emberfit-follow-lines-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("progress.jsonl");
+        std::fs::write(&path, "{\"event\":\"stopping\"}\n").unwrap();
+        let mut fresh = Follow::new(&path, false);
+        let mut resumed = Follow::new(&path, true);
+        let now = Instant::now();
+        assert_eq!(
+            fresh.lines(now, false),
+            [line(&ProgressEvent::Stopping).unwrap()]
+        );
+        assert!(resumed.lines(now, false).is_empty());
+        let iteration = ProgressEvent::Iteration {
+            iter: 1,
+            phase: "global".into(),
+            evaluations: 10,
+            elapsed_s: 1.0,
+            best_cost: 2.0,
+            parts: vec![],
+            best_params: vec![],
+        };
+        let text = format!("{}\n", serde_json::to_string(&iteration).unwrap());
+        std::fs::write(&path, format!("{{\"event\":\"stopping\"}}\n{text}")).unwrap();
+        // The first iteration is due at once; a second within 3 s is held until the end.
+        assert_eq!(resumed.lines(now, false).len(), 1);
+        let mut file = std::fs::OpenOptions::new()
+            .append(true)
+            .open(&path)
+            .unwrap();
+        std::io::Write::write_all(&mut file, text.as_bytes()).unwrap();
+        assert!(resumed.lines(now, false).is_empty());
+        assert_eq!(resumed.lines(now, true).len(), 1);
+        std::fs::remove_dir_all(&dir).unwrap();
+    }
 
     #[test]
     fn an_iteration_line_names_the_largest_part() {

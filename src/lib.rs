@@ -12,6 +12,7 @@ pub mod limits;
 pub mod microscale;
 pub mod physics;
 pub mod predict;
+pub mod present;
 pub mod run;
 pub mod synthetic;
 pub mod tui;

@@ -6,6 +6,7 @@ use clap::Parser;
 
 mod cli;
 mod commands;
+mod signals;
 
 fn main() -> ExitCode {
     let cli = cli::Cli::parse();

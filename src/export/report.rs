@@ -18,7 +18,7 @@ use crate::predict::{
     predict, prepare_scenario, CalibratedModel, Conditions, Prediction, PredictionSettings,
 };
 use crate::run::progress::ProgressEvent;
-use crate::run::{slug, RunDirectory, RunRecord, RunSummary};
+use crate::run::{slug, RunDirectory, RunError, RunRecord, RunSummary};
 
 /// The caution every report carries.
 pub const CAUTION: &str = "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.";
@@ -104,20 +104,8 @@ fn read_case_curves(
     summary: &RunSummary,
 ) -> Result<Vec<CaseCurve>, ReportError> {
     let mut curves = Vec::new();
-    let Ok(entries) = std::fs::read_dir(dir.cases()) else {
-        return Ok(curves);
-    };
-    let mut paths: Vec<PathBuf> = entries
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .filter(|p| p.extension().is_some_and(|x| x == "csv"))
-        .collect();
-    paths.sort();
-    for path in paths {
-        let stem = path
-            .file_stem()
-            .map(|s| s.to_string_lossy().into_owned())
-            .unwrap_or_default();
-        let Some((case_slug, signal)) = stem.rsplit_once("--") else {
+    for (stem, path) in crate::run::curves::case_curve_files(dir) {
+        let Some((case_slug, signal)) = crate::run::curves::split_stem(&stem) else {
             continue;
         };
         let case = summary
@@ -126,38 +114,22 @@ fn read_case_curves(
             .find(|p| slug(&p.case) == case_slug)
             .map_or_else(|| case_slug.to_string(), |p| p.case.clone());
         let text = read_text(&path)?;
-        let mut curve = CaseCurve {
+        let read = crate::run::curves::parse_case_curve_strict(&text).map_err(|problem| {
+            ReportError::Corrupt {
+                path: path.clone(),
+                problem,
+            }
+        })?;
+        curves.push(CaseCurve {
             stem: stem.clone(),
             case,
             signal: signal.to_string(),
-            time_s: vec![],
-            measured: vec![],
-            sigma: vec![],
-            model: vec![],
-            residual: vec![],
-        };
-        for (line_idx, line) in text.lines().enumerate().skip(1) {
-            let numbers: Vec<f64> = line
-                .split(',')
-                .map(|c| c.trim().parse::<f64>().unwrap_or(f64::NAN))
-                .collect();
-            if numbers.len() != 5 {
-                return Err(ReportError::Corrupt {
-                    path: path.clone(),
-                    problem: format!(
-                        "line {} has {} columns, expected 5",
-                        line_idx + 1,
-                        numbers.len()
-                    ),
-                });
-            }
-            curve.time_s.push(numbers[0]);
-            curve.measured.push(numbers[1]);
-            curve.sigma.push(numbers[2]);
-            curve.model.push(numbers[3]);
-            curve.residual.push(numbers[4]);
-        }
-        curves.push(curve);
+            time_s: read.time_s,
+            measured: read.measured,
+            sigma: read.sigma,
+            model: read.model,
+            residual: read.residual,
+        });
     }
     Ok(curves)
 }
@@ -271,14 +243,24 @@ fn prediction_chart(
 pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOutput, ReportError> {
     let dir = RunDirectory::new(run_dir);
     let summary_path = dir.summary();
-    let summary: RunSummary =
-        serde_json::from_str(&read_text(&summary_path)?).map_err(|e| ReportError::Corrupt {
-            path: summary_path.clone(),
-            problem: format!("{e} (is this a finished run directory?)"),
-        })?;
-    let record: Option<RunRecord> = read_text(&dir.record())
-        .ok()
-        .and_then(|t| toml::from_str(&t).ok());
+    let summary = match crate::run::read_summary(&summary_path) {
+        Ok(summary) => summary,
+        Err(RunError::Corrupt { path, problem }) => {
+            return Err(ReportError::Corrupt {
+                path,
+                problem: format!("{problem} (is this a finished run directory?)"),
+            })
+        }
+        Err(_) => {
+            // Not there or not readable: the reader's own message.
+            read_text(&summary_path)?;
+            return Err(ReportError::Corrupt {
+                path: summary_path,
+                problem: "cannot be read (is this a finished run directory?)".into(),
+            });
+        }
+    };
+    let record: Option<RunRecord> = crate::run::record::read_record_lenient(&dir);
     let plots_dir = run_dir.join("plots");
     std::fs::create_dir_all(&plots_dir).map_err(|source| ReportError::Write {
         path: plots_dir.clone(),
@@ -382,14 +364,13 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
     }
 
     // Convergence.
-    let progress = read_text(&dir.progress()).unwrap_or_default();
     let (mut evaluations, mut costs) = (Vec::new(), Vec::new());
-    for line in progress.lines() {
-        if let Ok(ProgressEvent::Iteration {
+    for event in crate::run::progress::read_all_lenient(&dir.progress()) {
+        if let ProgressEvent::Iteration {
             evaluations: n,
             best_cost,
             ..
-        }) = serde_json::from_str::<ProgressEvent>(line)
+        } = event
         {
             if best_cost > 0.0 && best_cost.is_finite() {
                 evaluations.push(n as f64);

@@ -16,7 +16,6 @@ use argmin::core::{CostFunction, Executor};
 use argmin::solver::neldermead::NelderMead;
 use rand::{Rng, SeedableRng};
 use rand_chacha::ChaCha8Rng;
-use serde::{Deserialize, Serialize};
 
 use super::evaluator::{Costs, Evaluator, Local};
 use super::model::Model;
@@ -60,8 +59,7 @@ impl EngineSettings {
 }
 
 /// Which stage the run is in.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Phase {
     Global,
     Local,
@@ -69,8 +67,8 @@ pub enum Phase {
 }
 
 /// Everything needed to continue a run exactly: written to the checkpoint after every
-/// generation and at every change of phase.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+/// generation and at every change of phase (its file format is `run::checkpoint`'s).
+#[derive(Debug, Clone, PartialEq)]
 pub struct EngineState {
     pub phase: Phase,
     /// Completed generations (global) plus local iterations reported.
@@ -88,7 +86,6 @@ pub struct EngineState {
     pub best_cost: f64,
     /// The best point when the global stage ended: the local stage always starts here, so a
     /// run resumed during the local stage repeats it exactly.
-    #[serde(default)]
     pub global_best: Option<(Vec<f64>, f64)>,
     /// Why the run stopped, once it has.
     pub stop_reason: Option<String>,
@@ -879,9 +876,8 @@ mod tests {
         );
         let checkpoint = first.last.expect("checkpoints were written");
         assert_eq!(checkpoint.phase, Phase::Global);
-        // Through JSON, as the run directory stores it.
-        let restored: EngineState =
-            serde_json::from_str(&serde_json::to_string(&checkpoint).unwrap()).unwrap();
+        // A copy: the round trip through the file is `run::checkpoint`'s test.
+        let restored: EngineState = checkpoint.clone();
         let continued = optimise(&objective, &settings(), restored, &mut silent(None));
         assert_eq!(whole.best_values, continued.best_values);
         assert_eq!(whole.state.evaluations, continued.state.evaluations);

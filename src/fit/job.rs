@@ -281,6 +281,9 @@ struct SettingsFile {
     local_starts: Option<Spanned<i64>>,
     output_interval_s: Option<Spanned<f64>>,
     curve_weighting: Option<CurveWeightingFile>,
+    posterior_steps: Option<Spanned<i64>>,
+    posterior_walkers: Option<Spanned<i64>>,
+    posterior_burn_in: Option<Spanned<i64>>,
 }
 
 #[derive(Debug, Clone, Copy, Deserialize)]
@@ -424,6 +427,9 @@ pub struct Settings {
     /// Whether a curve from repeats weighs as its effective number of independent points
     /// (`SignalData::effective_points`) rather than as every sample.
     pub weigh_independent_points: bool,
+    /// The posterior sample after the fit (`fit::posterior`); `None` when
+    /// `posterior_steps` is absent or 0.
+    pub posterior: Option<crate::fit::posterior::PosteriorSettings>,
 }
 
 /// A validated fit job.
@@ -483,7 +489,7 @@ pub fn load_job(path: &Path) -> Result<FitJob, CaseError> {
     if file.cases.is_empty() {
         return Err(source.inconsistent("a fit needs at least one [[case]]"));
     }
-    let settings = build_settings(&source, &file.settings)?;
+    let settings = build_settings(&source, &file.settings, file.parameters.len())?;
     let mut cases = Vec::new();
     let mut warnings = Vec::new();
     for (idx, raw) in file.cases.iter().enumerate() {
@@ -918,7 +924,11 @@ fn build_parameter(
     })
 }
 
-fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseError> {
+fn build_settings(
+    source: &Source,
+    raw: &SettingsFile,
+    n_parameters: usize,
+) -> Result<Settings, CaseError> {
     let count =
         |value: &Option<Spanned<i64>>, field: &str, default: usize| -> Result<usize, CaseError> {
             match value {
@@ -996,7 +1006,62 @@ fn build_settings(source: &Source, raw: &SettingsFile) -> Result<Settings, CaseE
             raw.curve_weighting,
             Some(CurveWeightingFile::PerSample)
         ),
+        posterior: posterior_settings(source, raw, n_parameters)?,
     })
+}
+
+/// The posterior sample's settings: `posterior_steps` (0 or absent: none), `posterior_walkers`
+/// (default 4 per parameter, at least 2·p + 2, even), `posterior_burn_in` (default a third of
+/// the steps, below the steps).
+fn posterior_settings(
+    source: &Source,
+    raw: &SettingsFile,
+    n_parameters: usize,
+) -> Result<Option<crate::fit::posterior::PosteriorSettings>, CaseError> {
+    let bounded =
+        |value: &Option<Spanned<i64>>, key: &str, max: i64| -> Result<Option<usize>, CaseError> {
+            match value {
+                None => Ok(None),
+                Some(v) if (0..=max).contains(v.get_ref()) => Ok(Some(*v.get_ref() as usize)),
+                Some(v) => Err(source.invalid(
+                    &v.span(),
+                    &format!("settings.{key}"),
+                    format!(
+                        "expected a whole number from 0 to {max}, found {}",
+                        v.get_ref()
+                    ),
+                )),
+            }
+        };
+    let steps = bounded(&raw.posterior_steps, "posterior_steps", 100_000)?.unwrap_or(0);
+    if steps == 0 {
+        return Ok(None);
+    }
+    let minimum = 2 * n_parameters + 2;
+    let walkers = bounded(&raw.posterior_walkers, "posterior_walkers", 10_000)?
+        .unwrap_or(4 * n_parameters)
+        .max(minimum);
+    let burn_in =
+        bounded(&raw.posterior_burn_in, "posterior_burn_in", 100_000)?.unwrap_or(steps / 3);
+    if burn_in >= steps {
+        let span = raw
+            .posterior_burn_in
+            .as_ref()
+            .or(raw.posterior_steps.as_ref())
+            .map(|v| v.span())
+            .unwrap_or_default();
+        return Err(source.invalid(
+            &span,
+            "settings.posterior_burn_in",
+            format!("the burn-in ({burn_in}) must be below posterior_steps ({steps})"),
+        ));
+    }
+    Ok(Some(crate::fit::posterior::PosteriorSettings {
+        walkers: walkers + walkers % 2,
+        steps,
+        burn_in,
+        seed: raw.seed.unwrap_or(1),
+    }))
 }
 
 fn build_case(

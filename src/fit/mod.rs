@@ -11,3 +11,4 @@ pub mod label;
 pub mod model;
 pub mod objective;
 pub mod parameters;
+pub mod posterior;

@@ -82,6 +82,9 @@ pub struct Uncertainty {
     /// Covariance in fit space (value, or log10 of it on a log scale), row-major.
     pub covariance: Vec<Vec<f64>>,
     pub source: CovarianceSource,
+    /// The run's posterior sample (fit-space coordinates), when it has one that matches:
+    /// the band's parameter sets are then taken from it instead of drawn from the covariance.
+    pub posterior: Option<Vec<Vec<f64>>>,
 }
 
 /// A material model ready to predict with, and what is known of its uncertainty.
@@ -141,11 +144,8 @@ impl CalibratedModel {
             values.push(entry.value);
         }
         let p = parameters.len();
-        let summary_path = path.parent().unwrap_or(Path::new(".")).join("summary.json");
-        let summary: Option<RunSummary> =
-            crate::input::read_bytes(&summary_path, crate::input::InputKind::RunFile)
-                .ok()
-                .and_then(|bytes| serde_json::from_slice(&bytes).ok());
+        let (summary_path, summary): (PathBuf, Option<RunSummary>) =
+            crate::run::summary::summary_beside(path);
         let covariance_from_summary = summary.as_ref().and_then(|s| {
             let names_match = s.parameters.len() == p
                 && s.parameters
@@ -192,6 +192,55 @@ impl CalibratedModel {
                 }
             }
         }
+        let posterior = summary
+            .as_ref()
+            .filter(|_| matches!(source, CovarianceSource::RunSummary(_)))
+            .and_then(|s| s.posterior.as_ref())
+            .and_then(|info| {
+                let file = path.parent().unwrap_or(Path::new(".")).join(&info.file);
+                match crate::run::read_posterior(&file) {
+                    Ok(sample)
+                        if sample.names.len() == p
+                            && sample
+                                .names
+                                .iter()
+                                .zip(&parameters)
+                                .all(|(a, b)| *a == b.name)
+                            && sample.samples.iter().all(|s| s.len() == p) =>
+                    {
+                        notes.push(format!(
+                            "band parameter sets from the posterior sample {} ({} points)",
+                            file.display(),
+                            sample.samples.len()
+                        ));
+                        Some(
+                            sample
+                                .samples
+                                .iter()
+                                .map(|s| {
+                                    parameters
+                                        .iter()
+                                        .zip(s)
+                                        .map(|(q, &v)| q.to_fit_space(v))
+                                        .collect()
+                                })
+                                .collect(),
+                        )
+                    }
+                    Ok(_) => {
+                        notes.push(format!(
+                            "{} does not match the model's parameters: band drawn from the \
+                             covariance",
+                            file.display()
+                        ));
+                        None
+                    }
+                    Err(e) => {
+                        notes.push(format!("{e}: band drawn from the covariance"));
+                        None
+                    }
+                }
+            });
         Ok(CalibratedModel {
             path: path.to_path_buf(),
             model,
@@ -201,6 +250,7 @@ impl CalibratedModel {
                 values,
                 covariance,
                 source,
+                posterior,
             }),
             notes,
         })
@@ -328,32 +378,33 @@ const QUANTITY_SIGNALS: [&str; 4] = [
 /// conditions, from the run directory beside `model_path` (`cases/<case>--<signal>.csv`:
 /// measured, sigma, model). `None` when no such file is there.
 fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
-    let cases = model_path.parent()?.join("cases");
-    let entries: Vec<PathBuf> = std::fs::read_dir(&cases)
-        .ok()?
-        .filter_map(|e| e.ok().map(|e| e.path()))
-        .collect();
+    let dir = crate::run::RunDirectory::new(model_path.parent()?);
+    let files = crate::run::curves::case_curve_files(&dir);
     let mut found = false;
     let mut out = [(f64::NAN, f64::NAN); 4];
     for (k, signal) in QUANTITY_SIGNALS.iter().enumerate() {
-        let suffix = format!("--{signal}.csv");
         let (mut scatter, mut error, mut n) = (0.0, 0.0, 0.0);
-        for path in entries.iter().filter(|p| {
-            p.file_name()
-                .is_some_and(|n| n.to_string_lossy().ends_with(&suffix))
+        for (_, path) in files.iter().filter(|(stem, _)| {
+            crate::run::curves::split_stem(stem).is_some_and(|(_, s)| s == *signal)
         }) {
             let Ok(text) = crate::input::read_text(path, crate::input::InputKind::RunFile) else {
                 continue;
             };
-            // time_s,measured,sigma,model,residual
-            for line in text.lines().skip(1) {
-                let v: Vec<f64> = line
-                    .split(',')
-                    .filter_map(|x| x.trim().parse().ok())
-                    .collect();
-                if v.len() >= 4 && v[1].abs() > 0.0 && v.iter().all(|x| x.is_finite()) {
-                    scatter += (v[2] / v[1]).powi(2);
-                    error += ((v[3] - v[1]) / v[1]).powi(2);
+            let Ok(curve) = crate::run::curves::parse_case_curve_strict(&text) else {
+                continue;
+            };
+            for i in 0..curve.time_s.len() {
+                let row = [
+                    curve.time_s[i],
+                    curve.measured[i],
+                    curve.sigma[i],
+                    curve.model[i],
+                    curve.residual[i],
+                ];
+                let (measured, sigma, model) = (row[1], row[2], row[3]);
+                if measured.abs() > 0.0 && row.iter().all(|x| x.is_finite()) {
+                    scatter += (sigma / measured).powi(2);
+                    error += ((model - measured) / measured).powi(2);
                     n += 1.0;
                 }
             }
@@ -366,24 +417,44 @@ fn calibration_errors(model_path: &Path) -> Option<[(f64, f64); 4]> {
     found.then_some(out)
 }
 
-/// Adds the prediction band to a quantity's distribution: the parameter band's sd combined
-/// with the relative scatter and model error (`errors` = (scatter, error)).
+/// Draws of the test scatter and model error per parameter set in the prediction band.
+const ERROR_DRAWS_PER_SET: usize = 64;
+
+/// Adds the prediction band to a quantity's distribution: every parameter set's value `v`
+/// times exp(e·ε), ε standard normal, e = √(scatter² + error²) the relative test scatter and
+/// model error (`errors`), `ERROR_DRAWS_PER_SET` times per set (seeded, so the band is the
+/// same every time); the band is the quantiles `tail` and 1 − `tail` of that mixture. It keeps
+/// the skew of the parameter sets' values (a posterior sample seldom gives a symmetric
+/// ignition time) and keeps the quantity's sign. Without errors the band is left unset.
 fn prediction_band(
     mut q: QuantityDistribution,
-    parameter_sd: f64,
+    present: &[f64],
     errors: Option<(f64, f64)>,
-    z: f64,
+    tail: f64,
+    seed: u64,
 ) -> QuantityDistribution {
-    if let (Some(best), Some((scatter, error))) = (q.best, errors) {
-        if scatter.is_finite() && error.is_finite() {
-            let sd =
-                (parameter_sd.powi(2) + (best * scatter).powi(2) + (best * error).powi(2)).sqrt();
-            q.prediction_lower = best - z * sd;
-            q.prediction_upper = best + z * sd;
-            q.relative_test_scatter = scatter;
-            q.relative_model_error = error;
+    use rand::SeedableRng;
+    use rand_distr::Distribution;
+    let Some((scatter, error)) = errors else {
+        return q;
+    };
+    if !(scatter.is_finite() && error.is_finite()) || present.is_empty() {
+        return q;
+    }
+    let e = (scatter * scatter + error * error).sqrt();
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(seed);
+    let mut mixture: Vec<f64> = Vec::with_capacity(present.len() * ERROR_DRAWS_PER_SET);
+    for &v in present {
+        for _ in 0..ERROR_DRAWS_PER_SET {
+            let epsilon: f64 = rand_distr::StandardNormal.sample(&mut rng);
+            mixture.push(v * (e * epsilon).exp());
         }
     }
+    mixture.sort_by(f64::total_cmp);
+    q.prediction_lower = quantile(&mixture, tail);
+    q.prediction_upper = quantile(&mixture, 1.0 - tail);
+    q.relative_test_scatter = scatter;
+    q.relative_model_error = error;
     q
 }
 
@@ -448,7 +519,11 @@ pub fn condition_notes(
                     notes.push(format!(
                         "the {what} {value:.3} {unit} lies outside the calibrated range \
                          {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest \
-                         calibrated value): an extrapolation the calibration did not test",
+                         calibrated value): an extrapolation the calibration did not test; the \
+                         bands do not hold the model's error there (calibrated at one irradiance \
+                         of the open PMMA tests, the model missed the other's ignition time by up \
+                         to a factor 2 and its time to peak by up to 26 %: \
+                         docs/calibration-pmma.md §4)",
                         100.0 * by / edge.abs().max(1e-12)
                     ));
                 }
@@ -825,7 +900,12 @@ pub fn predict_on<E: Evaluator>(
             .map(|p| p.to_fit_space(p.upper))
             .collect(),
     };
-    let draws = draw(&normal, settings.n_samples, settings.seed)?;
+    let draws = match &uncertainty.posterior {
+        Some(sample) if !sample.is_empty() => {
+            sampling::from_sample(sample, settings.n_samples, settings.seed)
+        }
+        _ => draw(&normal, settings.n_samples, settings.seed)?,
+    };
     let n_rejected = draws.n_drawn - draws.points.len();
     let task = BandDraw {
         uncertainty,
@@ -891,7 +971,6 @@ pub fn predict_on<E: Evaluator>(
         .collect();
     let per_sample: Vec<[Option<f64>; 4]> = histories.iter().map(report_quantities).collect();
     let errors = calibration_errors(&calibrated.path);
-    let z = crate::predict::sampling::normal_quantile(1.0 - tail);
     if errors.is_none() {
         notes.push(
             "no report-quantity signals (ignition_time, peak_hrr, time_to_peak_hrr, \
@@ -917,9 +996,10 @@ pub fn predict_on<E: Evaluator>(
                 standard_deviation: variance.sqrt(),
                 ..prediction_band(
                     empty_distribution(k),
-                    variance.sqrt(),
+                    &present,
                     errors.map(|e| e[k]),
-                    z,
+                    tail,
+                    settings.seed.wrapping_add(k as u64),
                 )
             }
         })

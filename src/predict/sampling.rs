@@ -54,6 +54,19 @@ pub enum SamplingError {
     TooFewInside { accepted: usize, drawn: usize },
 }
 
+/// `n` points of a posterior sample (fit space), taken without replacement in an order
+/// shuffled by `seed` (with replacement once `n` exceeds the sample). Pure and seeded.
+pub fn from_sample(sample: &[Vec<f64>], n: usize, seed: u64) -> Draws {
+    use rand::seq::SliceRandom;
+    let mut rng = ChaCha8Rng::seed_from_u64(seed);
+    let mut order: Vec<usize> = (0..sample.len()).collect();
+    order.shuffle(&mut rng);
+    let points = (0..n)
+        .map(|i| sample[order[i % order.len()]].clone())
+        .collect();
+    Draws { points, n_drawn: n }
+}
+
 /// A factor L with L·Lᵀ = C, from the symmetric eigen-decomposition; negative eigenvalues
 /// (rounding in a near-singular covariance) are set to zero.
 fn square_root(covariance: &[Vec<f64>]) -> Result<DMatrix<f64>, SamplingError> {

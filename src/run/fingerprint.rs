@@ -57,10 +57,9 @@ impl Overrides {
 
 /// The `--threads` a run was started with, from its run.toml (for `--resume` without one).
 pub fn stored_threads(run_dir: &std::path::Path) -> Option<usize> {
-    let text = crate::input::read_text(&run_dir.join("run.toml"), crate::input::InputKind::RunFile)
-        .ok()?;
-    let record: super::RunRecord = toml::from_str(&text).ok()?;
-    record.overrides.threads
+    super::record::read_record_lenient(&super::RunDirectory::new(run_dir))?
+        .overrides
+        .threads
 }
 
 #[cfg(test)]

@@ -1,12 +1,21 @@
 //! `progress.jsonl`: one JSON object per line, append-only, flushed after every line so any
 //! number of readers can follow it while it grows. Readers hold back a trailing line without
 //! its newline (it is still being written).
+//!
+//! Two readings: strict ([`read_all`]: every line an event of this version, or an error
+//! naming the line) and lenient ([`read_all_lenient`], [`ProgressFollower`] and
+//! [`read_line_lenient`]: a torn last line is held back, a line of another version's layout
+//! is read with neutral values for what it lacks, anything else is reported, never fatal).
+//! The interface and the report read through the lenient one.
+//!
+//! **Invariant:** the only code that knows progress.jsonl's format.
 
 use std::fs::{File, OpenOptions};
 use std::io::{BufRead, BufReader, Read, Seek, SeekFrom, Write};
 use std::path::{Path, PathBuf};
 
 use serde::{Deserialize, Serialize};
+use serde_json::Value;
 
 /// Version of the progress format; readers refuse a newer one.
 pub const FORMAT_VERSION: u32 = 1;
@@ -80,6 +89,13 @@ pub enum ProgressEvent {
     /// A stop was asked for (signal or key): the run finishes its iteration, writes its
     /// outputs and ends with `finished`. Lets every viewer say "stopping".
     Stopping,
+    /// One step of the posterior sample after the fit (`fit::posterior`).
+    Posterior {
+        step: usize,
+        steps: usize,
+        acceptance: f64,
+        elapsed_s: f64,
+    },
     Finished {
         reason: String,
         best_cost: f64,
@@ -92,6 +108,22 @@ pub enum ProgressEvent {
 }
 
 impl ProgressEvent {
+    /// The `event` tag of the line.
+    pub fn kind(&self) -> &'static str {
+        match self {
+            ProgressEvent::Started { .. } => "started",
+            ProgressEvent::Iteration { .. } => "iteration",
+            ProgressEvent::Failure { .. } => "failure",
+            ProgressEvent::Checkpoint { .. } => "checkpoint",
+            ProgressEvent::Paused { .. } => "paused",
+            ProgressEvent::Resumed { .. } => "resumed",
+            ProgressEvent::Stopping => "stopping",
+            ProgressEvent::Posterior { .. } => "posterior",
+            ProgressEvent::Finished { .. } => "finished",
+            ProgressEvent::Failed { .. } => "failed",
+        }
+    }
+
     /// The iteration an event belongs to, for trimming the log back to a checkpoint.
     pub fn iteration(&self) -> Option<u64> {
         match self {
@@ -195,22 +227,298 @@ pub struct NewLines {
     pub restarted: bool,
 }
 
-/// Every complete event of a progress file.
-pub fn read_all(path: &Path) -> std::io::Result<Vec<ProgressEvent>> {
-    let file = crate::input::open_regular(path, crate::input::InputKind::RunFile)?;
+/// Every event of a progress file, strictly: each non-empty line, the last one included,
+/// must be a whole event of this version; otherwise the error names the line.
+pub fn read_all(path: &Path) -> Result<Vec<ProgressEvent>, super::RunError> {
+    let file = crate::input::open_regular(path, crate::input::InputKind::RunFile)
+        .map_err(super::io("cannot read", path))?;
     let mut events = Vec::new();
-    for line in BufReader::new(file).lines() {
-        let line = line?;
-        if let Ok(event) = serde_json::from_str(line.trim()) {
-            events.push(event);
+    for (idx, line) in BufReader::new(file).lines().enumerate() {
+        let line = line.map_err(super::io("cannot read", path))?;
+        if line.trim().is_empty() {
+            continue;
         }
+        let event = serde_json::from_str(line.trim()).map_err(|e| super::RunError::Corrupt {
+            path: path.to_path_buf(),
+            problem: format!("line {}: {e}", idx + 1),
+        })?;
+        events.push(event);
     }
     Ok(events)
+}
+
+/// Every event a viewer can read from a progress file: a torn last line is held back, a
+/// line of another version's layout is read leniently ([`read_line_lenient`]), anything
+/// else is skipped. A file that cannot be read gives none.
+pub fn read_all_lenient(path: &Path) -> Vec<ProgressEvent> {
+    let mut follower = ProgressFollower::new(path);
+    let Ok(new) = follower.poll_lines() else {
+        return Vec::new();
+    };
+    new.lines
+        .iter()
+        .filter_map(|line| match read_line_lenient(line) {
+            LenientLine::Event { event, .. } => Some(event),
+            _ => None,
+        })
+        .collect()
+}
+
+/// Keeps the lines up to `iteration` (the checkpoint's) and drops a `finished` line: a
+/// killed process may have written a few more that the resumed run writes again. A
+/// half-written last line is dropped too.
+pub fn trim_to_iteration(path: &Path, iteration: u64) -> Result<(), super::RunError> {
+    let text = crate::input::read_text(path, crate::input::InputKind::RunFile).unwrap_or_default();
+    let mut kept = String::new();
+    for line in text.lines() {
+        let Ok(event) = serde_json::from_str::<ProgressEvent>(line) else {
+            continue; // a half-written last line
+        };
+        if event.iteration().is_some_and(|i| i > iteration)
+            || matches!(event, ProgressEvent::Finished { .. })
+        {
+            continue;
+        }
+        kept.push_str(line);
+        kept.push('\n');
+    }
+    crate::export::write_atomically(path, kept.as_bytes())
+        .map_err(super::io("cannot rewrite", path))
+}
+
+/// What the lenient reading made of one line.
+#[derive(Debug, Clone, PartialEq)]
+pub enum LenientLine {
+    /// An event: of this version (`missing` empty), or of another version's layout with
+    /// neutral values for the fields it lacks (named in `missing`). `kind` is its tag.
+    Event {
+        kind: String,
+        event: ProgressEvent,
+        missing: Vec<&'static str>,
+    },
+    /// Not JSON at all (damage).
+    NotJson,
+    /// JSON without an `event` name.
+    NoEventName,
+    /// An event this version does not know (a newer one), by name.
+    Unknown(String),
+}
+
+/// Reads one complete line leniently (see [`LenientLine`]).
+pub fn read_line_lenient(line: &str) -> LenientLine {
+    if let Ok(event) = serde_json::from_str::<ProgressEvent>(line) {
+        return LenientLine::Event {
+            kind: event.kind().to_string(),
+            event,
+            missing: Vec::new(),
+        };
+    }
+    let Ok(value) = serde_json::from_str::<Value>(line) else {
+        return LenientLine::NotJson;
+    };
+    let kind = value.get("event").and_then(Value::as_str).unwrap_or("");
+    match lenient_event(kind, &value) {
+        Some((event, missing)) => LenientLine::Event {
+            kind: kind.to_string(),
+            event,
+            missing,
+        },
+        None if kind.is_empty() => LenientLine::NoEventName,
+        None => LenientLine::Unknown(kind.to_string()),
+    }
+}
+
+/// A known event from a line whose layout differs from this version's (older or newer):
+/// missing fields take neutral values and are named.
+fn lenient_event(kind: &str, value: &Value) -> Option<(ProgressEvent, Vec<&'static str>)> {
+    let mut missing = Vec::new();
+    let mut number = |key: &'static str| match value.get(key).and_then(Value::as_f64) {
+        Some(v) => v,
+        None => {
+            missing.push(key);
+            f64::NAN
+        }
+    };
+    let event = match kind {
+        "started" => {
+            let parameters = value
+                .get("parameters")
+                .and_then(Value::as_array)
+                .map(|list| list.iter().map(lenient_parameter).collect())
+                .unwrap_or_default();
+            let cases = value
+                .get("cases")
+                .and_then(|c| serde_json::from_value(c.clone()).ok())
+                .unwrap_or_default();
+            let event = ProgressEvent::Started {
+                format_version: value
+                    .get("format_version")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(0) as u32,
+                title: text(value, "title").unwrap_or_else(|| "(untitled run)".into()),
+                seed: value.get("seed").and_then(Value::as_u64).unwrap_or(0),
+                threads: value.get("threads").and_then(Value::as_u64).unwrap_or(0) as usize,
+                parameters,
+                cases,
+                max_evaluations: value
+                    .get("max_evaluations")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(0),
+                time_budget_s: value.get("time_budget_s").and_then(Value::as_f64),
+                resumed_from: value.get("resumed_from").and_then(Value::as_u64),
+            };
+            for key in ["parameters", "cases", "max_evaluations"] {
+                if value.get(key).is_none() {
+                    missing.push(key);
+                }
+            }
+            event
+        }
+        "iteration" => {
+            let event = ProgressEvent::Iteration {
+                iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
+                phase: text(value, "phase").unwrap_or_default(),
+                evaluations: value
+                    .get("evaluations")
+                    .and_then(Value::as_u64)
+                    .unwrap_or(0),
+                elapsed_s: number("elapsed_s"),
+                best_cost: number("best_cost"),
+                parts: value
+                    .get("parts")
+                    .and_then(|p| serde_json::from_value(p.clone()).ok())
+                    .unwrap_or_default(),
+                best_params: value
+                    .get("best_params")
+                    .and_then(|p| serde_json::from_value(p.clone()).ok())
+                    .unwrap_or_default(),
+            };
+            for key in ["evaluations", "parts", "best_params"] {
+                if value.get(key).is_none() {
+                    missing.push(key);
+                }
+            }
+            event
+        }
+        "checkpoint" => ProgressEvent::Checkpoint {
+            iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
+            evaluations: value
+                .get("evaluations")
+                .and_then(Value::as_u64)
+                .unwrap_or(0),
+            elapsed_s: number("elapsed_s"),
+        },
+        "finished" => ProgressEvent::Finished {
+            reason: text(value, "reason").unwrap_or_else(|| "finished".into()),
+            best_cost: number("best_cost"),
+            evaluations: value
+                .get("evaluations")
+                .and_then(Value::as_u64)
+                .unwrap_or(0),
+            elapsed_s: number("elapsed_s"),
+        },
+        "failed" => ProgressEvent::Failed {
+            message: text(value, "message").unwrap_or_else(|| "(no message)".into()),
+        },
+        "failure" => ProgressEvent::Failure {
+            evaluations: 0,
+            message: text(value, "message").unwrap_or_default(),
+        },
+        "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
+        "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
+        "stopping" => ProgressEvent::Stopping,
+        "posterior" => ProgressEvent::Posterior {
+            step: value.get("step").and_then(Value::as_u64).unwrap_or(0) as usize,
+            steps: value.get("steps").and_then(Value::as_u64).unwrap_or(0) as usize,
+            acceptance: number("acceptance"),
+            elapsed_s: number("elapsed_s"),
+        },
+        _ => return None,
+    };
+    Some((event, missing))
+}
+
+fn text(value: &Value, key: &str) -> Option<String> {
+    value.get(key).and_then(Value::as_str).map(str::to_string)
+}
+
+fn lenient_parameter(value: &Value) -> ParameterInfo {
+    ParameterInfo {
+        name: text(value, "name").unwrap_or_else(|| "?".into()),
+        unit: text(value, "unit").unwrap_or_default(),
+        lower: value
+            .get("lower")
+            .and_then(Value::as_f64)
+            .unwrap_or(f64::NAN),
+        upper: value
+            .get("upper")
+            .and_then(Value::as_f64)
+            .unwrap_or(f64::NAN),
+        log_scale: value
+            .get("log_scale")
+            .and_then(Value::as_bool)
+            .unwrap_or(false),
+        label: text(value, "label").unwrap_or_default(),
+        meaning: text(value, "meaning").unwrap_or_default(),
+    }
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn scratch_file(name: &str, text: &str) -> PathBuf {
+        let dir =
+            std::env::temp_dir().join(format!("emberfit-progress-{name}-{}", std::process::id()));
+        std::fs::create_dir_all(&dir).unwrap();
+        let path = dir.join("progress.jsonl");
+        std::fs::write(&path, text).unwrap();
+        path
+    }
+
+    #[test]
+    fn the_strict_reader_names_a_torn_line_and_the_lenient_one_holds_it_back() {
+        let path = scratch_file(
+            "torn",
+            "{\"event\":\"stopping\"}\n{\"event\":\"paused\",\"elapsed_s\":1.0}\n{\"event\":\"resu",
+        );
+        let err = read_all(&path).unwrap_err().to_string();
+        assert!(err.contains("line 3"), "{err}");
+        assert_eq!(
+            read_all_lenient(&path),
+            vec![
+                ProgressEvent::Stopping,
+                ProgressEvent::Paused { elapsed_s: 1.0 }
+            ]
+        );
+        std::fs::remove_dir_all(path.parent().unwrap()).unwrap();
+    }
+
+    #[test]
+    fn an_older_line_is_read_with_its_missing_fields_named() {
+        match read_line_lenient(r#"{"event":"finished","reason":"budget"}"#) {
+            LenientLine::Event {
+                kind,
+                event:
+                    ProgressEvent::Finished {
+                        reason, best_cost, ..
+                    },
+                missing,
+            } => {
+                assert_eq!(kind, "finished");
+                assert_eq!(reason, "budget");
+                assert!(best_cost.is_nan());
+                assert_eq!(missing, ["best_cost", "elapsed_s"]);
+            }
+            other => panic!("not a finished event: {other:?}"),
+        }
+        assert_eq!(read_line_lenient("not json"), LenientLine::NotJson);
+        assert_eq!(read_line_lenient("{}"), LenientLine::NoEventName);
+        assert_eq!(
+            read_line_lenient(r#"{"event":"warp"}"#),
+            LenientLine::Unknown("warp".into())
+        );
+    }
 
     #[test]
     fn events_are_tagged_json_lines() {

@@ -195,14 +195,22 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
     let look = scene.look;
     let status = state.status(scene.now, scene.screen.is_stop_requested);
     let mut lines = Vec::new();
-    let phase = state
-        .latest
-        .as_ref()
-        .map(|l| match l.phase.as_str() {
-            "" => format!(" (iteration {})", l.iter),
-            phase => format!(" ({phase} phase, iteration {})", l.iter),
-        })
-        .unwrap_or_default();
+    let phase = match (&state.posterior, state.finished.is_some()) {
+        (Some(p), false) => format!(
+            " (posterior sample, step {}/{}, {:.0} % accepted)",
+            p.step,
+            p.steps,
+            100.0 * p.acceptance
+        ),
+        _ => state
+            .latest
+            .as_ref()
+            .map(|l| match l.phase.as_str() {
+                "" => format!(" (iteration {})", l.iter),
+                phase => format!(" ({phase} phase, iteration {})", l.iter),
+            })
+            .unwrap_or_default(),
+    };
     lines.push(Line::from(vec![
         Span::styled(format!("{:<16}", "status"), look.dim()),
         Span::styled(status.label(), look.status(status)),

@@ -2,17 +2,22 @@
 //! of `progress.jsonl`, the text of `summary.json`, the `cases/*.csv` files and the times the
 //! files were last written. No terminal, no clock (the caller passes `now`), no file access.
 //!
-//! Everything is read leniently: a line or field this version does not know is counted and
+//! Everything is read leniently, through the lenient readers of `run` (`run::progress`,
+//! `run::summary`, `run::curves`): a line or field this version does not know is counted and
 //! named in [`ViewerState::notes`] instead of stopping the viewer, and a file that does not
 //! parse leaves the last good reading in place.
+//!
+//! **Invariant:** knows no file format: it folds what `run`'s readers return.
 
 use std::collections::BTreeMap;
 use std::time::{Duration, SystemTime};
 
-use serde::Deserialize;
-use serde_json::Value;
-
-use crate::run::progress::{ParameterInfo, PartInfo, ProgressEvent, FORMAT_VERSION};
+use crate::run::curves::{curve_stem, older_curve_stem, parse_case_curve, split_stem};
+pub use crate::run::curves::{CaseCurve, CurveEntryView, CurveIndexView};
+use crate::run::progress::{
+    read_line_lenient, LenientLine, ParameterInfo, PartInfo, ProgressEvent, FORMAT_VERSION,
+};
+pub use crate::run::summary::{SummaryParameterView, SummaryPart, SummaryView};
 
 /// |r| at or above which two parameters count as strongly correlated; the threshold the fit's
 /// identifiability analysis warns at (a unit test checks the two agree).
@@ -21,6 +26,14 @@ pub const STRONG_CORRELATION: f64 = 0.95;
 /// A run with no new progress line for this long (and not paused or ended) is called stale,
 /// unless its own iterations are slower (see [`ViewerState::stale_after`]).
 pub const MIN_STALE_AFTER: Duration = Duration::from_secs(60);
+
+/// One step of the posterior sample, as the log reported it.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct PosteriorStep {
+    pub step: usize,
+    pub steps: usize,
+    pub acceptance: f64,
+}
 
 /// The state of the fit as the run directory shows it.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -96,81 +109,6 @@ pub struct HistoryPoint {
     pub best_cost: f64,
 }
 
-/// `summary.json` read leniently: every field may be missing (an older or newer run).
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
-#[serde(default)]
-pub struct SummaryView {
-    pub title: Option<String>,
-    pub reason: Option<String>,
-    pub objective: Option<f64>,
-    pub parts: Option<Vec<SummaryPart>>,
-    pub prior_cost: Option<f64>,
-    pub evaluations: Option<u64>,
-    pub elapsed_s: Option<f64>,
-    pub parameters: Option<Vec<SummaryParameterView>>,
-    /// Entries are `None` where the file has `null` (a NaN).
-    pub correlation: Option<Vec<Vec<Option<f64>>>>,
-    pub n_residuals: Option<usize>,
-    pub identifiability_problem: Option<String>,
-}
-
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
-#[serde(default)]
-pub struct SummaryPart {
-    pub case: String,
-    pub signal: String,
-    pub cost: Option<f64>,
-}
-
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
-#[serde(default)]
-pub struct SummaryParameterView {
-    pub name: String,
-    pub unit: String,
-    pub value: Option<f64>,
-    pub lower_bound: Option<f64>,
-    pub upper_bound: Option<f64>,
-    pub log_scale: Option<bool>,
-    pub lower_95: Option<f64>,
-    pub upper_95: Option<f64>,
-    pub sensitivity_rank: Option<usize>,
-    pub warnings: Option<Vec<String>>,
-}
-
-/// One `cases/<case>--<signal>.csv`: measured and model at the data times.
-#[derive(Debug, Clone, Default, PartialEq)]
-pub struct CaseCurve {
-    pub time_s: Vec<f64>,
-    pub measured: Vec<f64>,
-    /// The σ of each point (the spread of the repeats, or the job's noise level); empty when
-    /// the file has no `sigma` column.
-    pub sigma: Vec<f64>,
-    pub model: Vec<f64>,
-    /// Standardised residual (model − measured)/σ; empty when the file has no such column.
-    pub residual: Vec<f64>,
-}
-
-/// `cases/curves.json` read leniently: what the case CSVs hold and when they were written.
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
-#[serde(default)]
-pub struct CurveIndexView {
-    pub iteration: Option<u64>,
-    pub evaluations: Option<u64>,
-    pub objective: Option<f64>,
-    pub is_final: Option<bool>,
-    pub curves: Vec<CurveEntryView>,
-}
-
-/// One entry of `cases/curves.json`.
-#[derive(Debug, Clone, Default, PartialEq, Deserialize)]
-#[serde(default)]
-pub struct CurveEntryView {
-    pub case: String,
-    pub signal: String,
-    pub unit: String,
-    pub sigma_source: String,
-}
-
 /// A parameter as the Parameters view shows it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct ParameterRow {
@@ -209,6 +147,8 @@ pub struct ViewerState {
     pub is_paused: bool,
     /// The run logged that a stop was asked for (by any process).
     pub is_stopping: bool,
+    /// The posterior sample's last step, while it runs after the fit.
+    pub posterior: Option<PosteriorStep>,
     pub n_failures: u64,
     pub last_failure: Option<String>,
     /// Iteration, evaluations and elapsed seconds of the last `checkpoint` line.
@@ -249,21 +189,23 @@ impl ViewerState {
         };
     }
 
-    /// Folds one complete line of `progress.jsonl` into the state.
+    /// Folds one complete line of `progress.jsonl` into the state, read leniently
+    /// (`run::progress::read_line_lenient`): what cannot be read is counted, not fatal.
     pub fn apply_line(&mut self, line: &str) {
-        if let Ok(event) = serde_json::from_str::<ProgressEvent>(line) {
-            self.apply(&event);
-            return;
-        }
-        let Ok(value) = serde_json::from_str::<Value>(line) else {
-            self.count_unreadable("lines that are not JSON");
-            return;
-        };
-        let kind = value.get("event").and_then(Value::as_str).unwrap_or("");
-        match self.lenient_event(kind, &value) {
-            Some(event) => self.apply(&event),
-            None if kind.is_empty() => self.count_unreadable("lines without an event name"),
-            None => self.count_unreadable(&format!("`{kind}` lines (unknown to this version)")),
+        match read_line_lenient(line) {
+            LenientLine::Event {
+                kind,
+                event,
+                missing,
+            } => {
+                self.note_missing(&format!("`{kind}` lines"), missing);
+                self.apply(&event);
+            }
+            LenientLine::NotJson => self.count_unreadable("lines that are not JSON"),
+            LenientLine::NoEventName => self.count_unreadable("lines without an event name"),
+            LenientLine::Unknown(kind) => {
+                self.count_unreadable(&format!("`{kind}` lines (unknown to this version)"))
+            }
         }
     }
 
@@ -281,111 +223,6 @@ impl ViewerState {
                 entry.push(field.to_string());
             }
         }
-    }
-
-    /// A known event from a line whose layout differs from this version's (older or newer):
-    /// missing fields take neutral values and are noted.
-    fn lenient_event(&mut self, kind: &str, value: &Value) -> Option<ProgressEvent> {
-        let mut missing = Vec::new();
-        let mut number = |key: &'static str| match value.get(key).and_then(Value::as_f64) {
-            Some(v) => v,
-            None => {
-                missing.push(key);
-                f64::NAN
-            }
-        };
-        let event = match kind {
-            "started" => {
-                let parameters = value
-                    .get("parameters")
-                    .and_then(Value::as_array)
-                    .map(|list| list.iter().map(lenient_parameter).collect())
-                    .unwrap_or_default();
-                let cases = value
-                    .get("cases")
-                    .and_then(|c| serde_json::from_value(c.clone()).ok())
-                    .unwrap_or_default();
-                let event = ProgressEvent::Started {
-                    format_version: value
-                        .get("format_version")
-                        .and_then(Value::as_u64)
-                        .unwrap_or(0) as u32,
-                    title: text(value, "title").unwrap_or_else(|| "(untitled run)".into()),
-                    seed: value.get("seed").and_then(Value::as_u64).unwrap_or(0),
-                    threads: value.get("threads").and_then(Value::as_u64).unwrap_or(0) as usize,
-                    parameters,
-                    cases,
-                    max_evaluations: value
-                        .get("max_evaluations")
-                        .and_then(Value::as_u64)
-                        .unwrap_or(0),
-                    time_budget_s: value.get("time_budget_s").and_then(Value::as_f64),
-                    resumed_from: value.get("resumed_from").and_then(Value::as_u64),
-                };
-                for key in ["parameters", "cases", "max_evaluations"] {
-                    if value.get(key).is_none() {
-                        missing.push(key);
-                    }
-                }
-                event
-            }
-            "iteration" => {
-                let event = ProgressEvent::Iteration {
-                    iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
-                    phase: text(value, "phase").unwrap_or_default(),
-                    evaluations: value
-                        .get("evaluations")
-                        .and_then(Value::as_u64)
-                        .unwrap_or(0),
-                    elapsed_s: number("elapsed_s"),
-                    best_cost: number("best_cost"),
-                    parts: value
-                        .get("parts")
-                        .and_then(|p| serde_json::from_value(p.clone()).ok())
-                        .unwrap_or_default(),
-                    best_params: value
-                        .get("best_params")
-                        .and_then(|p| serde_json::from_value(p.clone()).ok())
-                        .unwrap_or_default(),
-                };
-                for key in ["evaluations", "parts", "best_params"] {
-                    if value.get(key).is_none() {
-                        missing.push(key);
-                    }
-                }
-                event
-            }
-            "checkpoint" => ProgressEvent::Checkpoint {
-                iter: value.get("iter").and_then(Value::as_u64).unwrap_or(0),
-                evaluations: value
-                    .get("evaluations")
-                    .and_then(Value::as_u64)
-                    .unwrap_or(0),
-                elapsed_s: number("elapsed_s"),
-            },
-            "finished" => ProgressEvent::Finished {
-                reason: text(value, "reason").unwrap_or_else(|| "finished".into()),
-                best_cost: number("best_cost"),
-                evaluations: value
-                    .get("evaluations")
-                    .and_then(Value::as_u64)
-                    .unwrap_or(0),
-                elapsed_s: number("elapsed_s"),
-            },
-            "failed" => ProgressEvent::Failed {
-                message: text(value, "message").unwrap_or_else(|| "(no message)".into()),
-            },
-            "failure" => ProgressEvent::Failure {
-                evaluations: 0,
-                message: text(value, "message").unwrap_or_default(),
-            },
-            "paused" => ProgressEvent::Paused { elapsed_s: 0.0 },
-            "resumed" => ProgressEvent::Resumed { elapsed_s: 0.0 },
-            "stopping" => ProgressEvent::Stopping,
-            _ => return None,
-        };
-        self.note_missing(&format!("`{kind}` lines"), missing);
-        Some(event)
     }
 
     /// Folds one event into the state.
@@ -455,6 +292,18 @@ impl ViewerState {
             ProgressEvent::Paused { .. } => self.is_paused = true,
             ProgressEvent::Resumed { .. } => self.is_paused = false,
             ProgressEvent::Stopping => self.is_stopping = true,
+            ProgressEvent::Posterior {
+                step,
+                steps,
+                acceptance,
+                ..
+            } => {
+                self.posterior = Some(PosteriorStep {
+                    step: *step,
+                    steps: *steps,
+                    acceptance: *acceptance,
+                })
+            }
             ProgressEvent::Finished {
                 reason,
                 best_cost,
@@ -479,22 +328,9 @@ impl ViewerState {
     /// Reads `summary.json`. A file that does not parse (half-written by a process that does
     /// not write atomically, or damaged) keeps the last good reading and is noted.
     pub fn set_summary_text(&mut self, text: &str) {
-        match serde_json::from_str::<SummaryView>(text) {
-            Ok(summary) => {
+        match SummaryView::from_json(text) {
+            Ok((summary, missing)) => {
                 self.file_problems.remove("summary.json");
-                let mut missing = Vec::new();
-                if summary.parameters.is_none() {
-                    missing.push("parameters");
-                }
-                if summary.correlation.is_none() {
-                    missing.push("correlation");
-                }
-                if summary.parts.is_none() {
-                    missing.push("parts");
-                }
-                if summary.objective.is_none() {
-                    missing.push("objective");
-                }
                 self.missing_fields.remove("summary.json");
                 self.note_missing("summary.json", missing);
                 self.summary = Some(summary);
@@ -526,7 +362,7 @@ impl ViewerState {
     /// Reads `cases/curves.json`; one that does not parse keeps the last good reading.
     pub fn set_curve_index_text(&mut self, text: &str) {
         let key = format!("cases/{}", crate::run::curves::INDEX_FILE);
-        match serde_json::from_str::<CurveIndexView>(text) {
+        match CurveIndexView::from_json(text) {
             Ok(index) => {
                 self.file_problems.remove(&key);
                 self.curve_index = Some(index);
@@ -567,10 +403,11 @@ impl ViewerState {
             pairs.extend(parts.iter().map(|p| (p.case.clone(), p.signal.clone())));
         }
         if pairs.is_empty() {
-            pairs.extend(self.curves.keys().filter_map(|stem| {
-                stem.rsplit_once("--")
-                    .map(|(c, s)| (c.to_string(), s.to_string()))
-            }));
+            pairs.extend(
+                self.curves.keys().filter_map(|stem| {
+                    split_stem(stem).map(|(c, s)| (c.to_string(), s.to_string()))
+                }),
+            );
         }
         let mut cases: Vec<(String, Vec<String>)> = Vec::new();
         for (case, signal) in pairs {
@@ -590,7 +427,7 @@ impl ViewerState {
     pub fn curve(&self, case: &str, signal: &str) -> Option<&CaseCurve> {
         self.curves
             .get(&curve_stem(case, signal))
-            .or_else(|| self.curves.get(&format!("{case}--{signal}")))
+            .or_else(|| self.curves.get(&older_curve_stem(case, signal)))
     }
 
     /// Elapsed fitting time, s.
@@ -904,85 +741,6 @@ pub fn position_between(value: f64, lower: f64, upper: f64, log_scale: bool) -> 
 /// Within 1 % of the range from a bound (the rule of the fit's identifiability analysis).
 fn is_at_bound(value: f64, lower: f64, upper: f64, log_scale: bool) -> bool {
     position_between(value, lower, upper, log_scale).is_some_and(|p| !(0.01..=0.99).contains(&p))
-}
-
-/// The file stem of a case's curve: `run` names the files by the slug of the case name.
-pub fn curve_stem(case: &str, signal: &str) -> String {
-    format!("{}--{signal}", crate::run::slug(case))
-}
-
-fn text(value: &Value, key: &str) -> Option<String> {
-    value.get(key).and_then(Value::as_str).map(str::to_string)
-}
-
-fn lenient_parameter(value: &Value) -> ParameterInfo {
-    ParameterInfo {
-        name: text(value, "name").unwrap_or_else(|| "?".into()),
-        unit: text(value, "unit").unwrap_or_default(),
-        lower: value
-            .get("lower")
-            .and_then(Value::as_f64)
-            .unwrap_or(f64::NAN),
-        upper: value
-            .get("upper")
-            .and_then(Value::as_f64)
-            .unwrap_or(f64::NAN),
-        log_scale: value
-            .get("log_scale")
-            .and_then(Value::as_bool)
-            .unwrap_or(false),
-        label: text(value, "label").unwrap_or_default(),
-        meaning: text(value, "meaning").unwrap_or_default(),
-    }
-}
-
-/// Reads a case CSV by column name; returns the curve and the optional columns it lacks.
-fn parse_case_curve(text: &str) -> Result<(CaseCurve, Vec<&'static str>), String> {
-    let mut reader = csv::ReaderBuilder::new()
-        .flexible(true)
-        .from_reader(text.as_bytes());
-    let headers = reader
-        .headers()
-        .map_err(|e| format!("has no header row ({e})"))?
-        .clone();
-    let column = |name: &str| headers.iter().position(|h| h.trim() == name);
-    let (Some(time_col), Some(measured_col)) = (column("time_s"), column("measured")) else {
-        return Err("has no `time_s` and `measured` columns".into());
-    };
-    let optional = [
-        ("sigma", column("sigma")),
-        ("model", column("model")),
-        ("residual", column("residual")),
-    ];
-    let missing = optional
-        .iter()
-        .filter(|(_, c)| c.is_none())
-        .map(|(n, _)| *n)
-        .collect();
-    let mut curve = CaseCurve::default();
-    for record in reader.records() {
-        // A damaged row is skipped; the rest of the file is still worth showing.
-        let Ok(record) = record else { continue };
-        let cell = |col: usize| {
-            record
-                .get(col)
-                .and_then(|c| c.trim().parse::<f64>().ok())
-                .unwrap_or(f64::NAN)
-        };
-        curve.time_s.push(cell(time_col));
-        curve.measured.push(cell(measured_col));
-        for (name, col) in &optional {
-            if let Some(col) = col {
-                let target = match *name {
-                    "sigma" => &mut curve.sigma,
-                    "model" => &mut curve.model,
-                    _ => &mut curve.residual,
-                };
-                target.push(cell(*col));
-            }
-        }
-    }
-    Ok((curve, missing))
 }
 
 #[cfg(test)]

@@ -507,3 +507,95 @@ fn twin_fit_to_back_and_in_depth_temperatures_recovers_thermal_properties() {
     assert!(text.starts_with("time_s,measured,sigma,model,residual"));
     let _ = std::fs::remove_dir_all(&root);
 }
+
+/// The posterior sample after the twin fit. Near a well-determined optimum the posterior is
+/// close to a normal with the covariance the likelihood's curvature gives (the
+/// Bernstein–von Mises theorem; e.g. van der Vaart, Asymptotic Statistics, 1998, ch. 10). Then
+/// (cost − best cost)/T over the sample follows a χ² distribution with p degrees of freedom,
+/// mean p (the quadratic form of a p-variate normal; any statistics text). Each parameter's
+/// posterior interval holds the best fit and is not narrower than the sandwich interval by
+/// much. `predict` then takes its band's parameter sets from the sample.
+#[test]
+fn the_posterior_sample_agrees_with_the_intervals_and_feeds_the_band() {
+    let root = scratch("posterior");
+    let job = write_twin_case(&root);
+    let text = std::fs::read_to_string(&job).unwrap().replace(
+        "[settings]\n",
+        "[settings]\nposterior_steps = 120\nposterior_walkers = 8\nposterior_burn_in = 40\n",
+    );
+    assert!(
+        text.contains("posterior_steps"),
+        "the job has a [settings] table"
+    );
+    std::fs::write(&job, text).unwrap();
+    let no = Arc::new(AtomicBool::new(false));
+    let report = run_fit(&job, &options(&root, "posterior", false), no.clone(), no)
+        .expect("the twin fit with a posterior sample runs");
+    let summary = &report.summary;
+    let info = summary
+        .posterior
+        .as_ref()
+        .expect("summary.json says of the sample");
+    assert_eq!((info.walkers, info.steps, info.burn_in), (8, 120, 40));
+    assert_eq!(info.points, 8 * 80);
+    assert!(!info.stopped);
+    assert!(
+        info.acceptance > 0.05 && info.acceptance < 0.95,
+        "acceptance {}",
+        info.acceptance
+    );
+    assert!(report.directory.join("posterior.json").exists());
+    for p in &summary.parameters {
+        eprintln!(
+            "{}: best {:.5}, sandwich {:?}–{:?}, posterior {:?} (T = {:?})",
+            p.name, p.value, p.lower_95, p.upper_95, p.posterior_95, summary.likelihood_temperature
+        );
+    }
+    for p in &summary.parameters {
+        let (lower, upper) = (p.lower_95.unwrap(), p.upper_95.unwrap());
+        let (post_lower, post_upper) = p.posterior_95.expect("posterior interval");
+        let (width, post_width) = (upper - lower, post_upper - post_lower);
+        eprintln!(
+            "{}: best {:.5}, sandwich [{lower:.5}, {upper:.5}], posterior [{post_lower:.5}, {post_upper:.5}]",
+            p.name, p.value
+        );
+        assert!(
+            post_width > 0.4 * width,
+            "{}: widths {post_width} vs {width}",
+            p.name
+        );
+        assert!(
+            post_lower <= p.value && p.value <= post_upper,
+            "{}: best {} outside the posterior interval",
+            p.name,
+            p.value
+        );
+    }
+    let sample = emberfit::run::read_posterior(&report.directory.join("posterior.json")).unwrap();
+    let p = summary.parameters.len() as f64;
+    let mean_excess = sample
+        .costs
+        .iter()
+        .map(|c| (c - summary.objective) / sample.temperature)
+        .sum::<f64>()
+        / sample.costs.len() as f64;
+    eprintln!("mean (cost − best)/T = {mean_excess:.2} (χ² mean {p})");
+    // 640 correlated points: the mean of a χ²₃ to within a factor of about 2.
+    assert!(
+        mean_excess > 0.5 * p && mean_excess < 2.0 * p,
+        "mean excess {mean_excess} for {p} parameters"
+    );
+    let calibrated =
+        emberfit::predict::CalibratedModel::load(&report.directory.join("best.toml")).unwrap();
+    assert!(
+        calibrated
+            .notes
+            .iter()
+            .any(|n| n.contains("band parameter sets from the posterior sample")),
+        "{:?}",
+        calibrated.notes
+    );
+    let sample = calibrated.uncertainty.unwrap().posterior.unwrap();
+    assert_eq!(sample.len(), info.points);
+    let _ = std::fs::remove_dir_all(&root);
+}

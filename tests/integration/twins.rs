@@ -106,13 +106,12 @@ fn write_twin(dir: &Path, seed: u64) -> std::path::PathBuf {
     job
 }
 
-/// Does not hold yet (issue 13, point 2): on 2026-12-03 the truth lay inside 8 of the 12
+/// Before the sandwich covariance (issue 13) the truth lay inside 8 of the 12
 /// intervals (specific heat missed in two twins, conductivity and heat of reaction in one; the
 /// estimates scatter about twice as far as the intervals say, and c comes out 0.2–1 % low in all
 /// three). Ignored so the suite stays green while it fails; run it with
 /// `cargo test --test integration twins -- --ignored`.
 #[test]
-#[ignore = "known failure: 8 of 12 true values inside their 95 % intervals (needs ≥ 90 %)"]
 fn pmma_template_twins_hold_the_truth_inside_their_intervals() {
     let root = std::env::temp_dir().join(format!("emberfit-twins-{}", std::process::id()));
     let (mut inside, mut total) = (0, 0);
