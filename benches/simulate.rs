@@ -3,8 +3,11 @@
 //! 600 s simulated, at the converged defaults; once with a fresh workspace per run
 //! (`simulate`) and once with one kept across runs as a fit does (`simulate_with`); then the
 //! cost at 1/2/4× the default cells to show how it grows. Prints the run's step counts and its
-//! distance from a 4× refined run. Run with `cargo bench --bench simulate`; goal ≤ 2 ms a run,
-//! bar ≤ 4 ms (docs/numerics.md has the figures measured).
+//! distance from a 4× refined run; then the throughput of independent runs on 1 and 2 threads
+//! (each thread keeping its workspace, as a fit's workers do) with the machine's load average
+//! beside it, since that figure means something only on an idle machine. Run with
+//! `cargo bench --bench simulate`; goal ≤ 2 ms a run, bar ≤ 4 ms (docs/numerics.md has the
+//! figures measured).
 
 use std::path::Path;
 
@@ -24,6 +27,53 @@ fn demo_scenario() -> emberfit::physics::Scenario {
     scenario.exposure.irradiance_w_m2 = Schedule::Constant(50e3);
     scenario.duration_s = 600.0;
     scenario
+}
+
+/// The load average line of the machine (Linux), to print beside a throughput figure.
+fn load_average() -> String {
+    std::fs::read_to_string("/proc/loadavg")
+        .map(|text| {
+            text.split_whitespace()
+                .take(3)
+                .collect::<Vec<_>>()
+                .join(" ")
+        })
+        .unwrap_or_else(|_| "unknown".into())
+}
+
+/// Runs per second of `n_runs` independent demo runs on `threads` threads, each thread with
+/// its own kept workspace.
+fn throughput(scenario: &emberfit::physics::Scenario, threads: usize, n_runs: usize) -> f64 {
+    use rayon::prelude::*;
+    let pool = rayon::ThreadPoolBuilder::new()
+        .num_threads(threads)
+        .build()
+        .expect("thread pool");
+    let start = std::time::Instant::now();
+    pool.install(|| {
+        (0..n_runs)
+            .into_par_iter()
+            .map_init(Workspace::default, |workspace, _| {
+                simulate_with(scenario, workspace)
+                    .expect("runs")
+                    .summary
+                    .n_steps
+            })
+            .sum::<usize>()
+    });
+    n_runs as f64 / start.elapsed().as_secs_f64()
+}
+
+fn fit_throughput(scenario: &emberfit::physics::Scenario) {
+    let n_runs = 400;
+    let before = load_average();
+    let one = throughput(scenario, 1, n_runs);
+    let two = throughput(scenario, 2, n_runs);
+    println!(
+        "throughput, {n_runs} demo runs: 1 thread {one:.0} runs/s, 2 threads {two:.0} runs/s, ratio {:.2} (goal >= 1.9 on an idle machine); load average before {before}, after {}",
+        two / one,
+        load_average()
+    );
 }
 
 fn forward_model(c: &mut Criterion) {
@@ -53,6 +103,7 @@ fn forward_model(c: &mut Criterion) {
         percent(s.peak_mlr_kg_m2_s, f.peak_mlr_kg_m2_s),
         percent(s.total_heat_release_j_m2, f.total_heat_release_j_m2),
     );
+    fit_throughput(&scenario);
     c.bench_function("demo 50 kW/m2 600 s, simulate", |b| {
         b.iter(|| simulate(&scenario).expect("runs"))
     });

@@ -71,6 +71,37 @@ pub fn advance_masses(
     out.consumed.resize(material.reactions.len(), 0.0);
     out.remaining_fraction.clear();
     out.remaining_fraction.resize(material.reactions.len(), 1.0);
+    // The common case, one first-order reaction per reactant and no reactant made by
+    // another reaction: the closed form without the general bookkeeping (the same
+    // operations, so the same bits, as the general path below).
+    if is_simple_first_order(material) {
+        for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+            let available = old_masses[reaction.reactant];
+            if available <= 0.0 {
+                continue;
+            }
+            let k = rate_constants_per_s[reaction_idx];
+            let new_mass = available / (1.0 + dt_s * k);
+            let mut consumed = k * new_mass * dt_s;
+            if consumed > available {
+                consumed = available;
+            }
+            out.consumed[reaction_idx] = consumed;
+            out.masses[reaction.reactant] = (available - consumed).max(0.0);
+            out.remaining_fraction[reaction_idx] = out.masses[reaction.reactant] / available;
+        }
+        for (component, mass) in out.masses.iter_mut().enumerate() {
+            if !material.reactions.iter().any(|r| r.reactant == component) {
+                *mass = old_masses[component].max(0.0);
+            }
+        }
+        for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+            if let Some(product) = reaction.product {
+                out.masses[product] += reaction.product_yield * out.consumed[reaction_idx];
+            }
+        }
+        return;
+    }
     // Mass produced into each component during the step, filled as reactants are solved.
     let mut produced = [0.0f64; 16];
     let mut produced_vec;
@@ -131,6 +162,21 @@ pub fn advance_masses(
             }
         }
     }
+}
+
+/// First-order reactions only, each component the reactant of at most one and the product of
+/// at most one, and no product a reactant (checked per call: a fit may change an order).
+fn is_simple_first_order(material: &Material) -> bool {
+    let reactions = &material.reactions;
+    reactions.iter().enumerate().all(|(idx, r)| {
+        r.order == 1.0
+            && reactions.iter().enumerate().all(|(other_idx, o)| {
+                r.product != Some(o.reactant)
+                    && (other_idx == idx
+                        || (r.reactant != o.reactant
+                            && (r.product.is_none() || r.product != o.product)))
+            })
+    })
 }
 
 /// Solves m − S + dt·Σ_r ω_r(m) = 0 for m in [0, S] (S the available mass).

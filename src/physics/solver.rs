@@ -8,7 +8,21 @@
 //!
 //! Unknowns of each solve are the exposed-face temperature (a node without heat capacity whose
 //! row is the face balance), the cell temperatures, and the back-face temperature. Masses are
-//! advanced implicitly by `kinetics::advance_masses` at each iterate's temperatures.
+//! advanced implicitly by `kinetics::advance_masses` at each iterate's temperatures, so each
+//! cell's mass unknowns are eliminated into its temperature row (the reaction heat and its
+//! slope through the Arrhenius factor, saturated by the step): the Newton iteration is on the
+//! coupled temperature–conversion system of every cell.
+//!
+//! Exothermic reactions (docs/numerics.md, "Exothermic runaways"): a cell whose self-heating
+//! slope outweighs its heat capacity over the step is past or near the fold of its implicit
+//! balance, where the tangent is useless; such a cell is held, for one iteration, at the root
+//! of its own non-linear balance reached first from its start temperature
+//! (`first_root_from`), and the next plain Newton iteration confirms it (only a plain iteration
+//! may end a solve, so the budget is that of a solved linear system). A runaway that the error
+//! control would chase to ever shorter steps is let flash: a step of 20 e-folding times of the
+//! runaway, offered once that is within the event tolerance (`flash_step`); a cell whose
+//! exothermic reactant is used up within the step is exempt from the per-step caps (its
+//! change is set by the heat released), not from the error estimate.
 
 use super::kinetics::{
     advance_masses, rate_constant_per_s, reaction_rate, StepMasses, GAS_CONSTANT_J_MOL_K,
@@ -119,6 +133,10 @@ struct Solver<'a> {
     /// Temperature change of the last accepted step and its length, for the predictor.
     last_change_k: Vec<f64>,
     last_dt_s: f64,
+    /// After a step rejected because a cell's runaway outpaces it: the step that lets that
+    /// cell flash (use up its exothermic reactant within the step), tried once at this time.
+    flash_dt_s: Option<f64>,
+    flash_tried_at_s: f64,
     samples: Vec<Sample>,
     previous_sample: Sample,
     current_sample: Sample,
@@ -151,6 +169,14 @@ struct Work {
     start_masses: Vec<f64>,
     half_consumed: Vec<f64>,
     thicknesses_m: Vec<f64>,
+    /// Per cell, the temperature a runaway cell is held at in this iteration (NaN: not held).
+    pinned_k: Vec<f64>,
+    /// Kinetics of one cell at a trial temperature (the runaway root search).
+    trial_rate_constants: Vec<f64>,
+    trial_masses: StepMasses,
+    /// Whether any cell's reaction-heat slope at the iterate is negative (self-heating): only
+    /// then can a cell need holding or the exothermic heat check.
+    any_self_heating: bool,
 }
 
 /// What one attempted step came to.
@@ -247,6 +273,8 @@ impl<'a> Solver<'a> {
             n_iterations: 0,
             last_change_k: std::mem::take(&mut work.full_consumed),
             last_dt_s: 0.0,
+            flash_dt_s: None,
+            flash_tried_at_s: f64::NAN,
             samples: Vec::with_capacity(
                 (scenario.duration_s / scenario.output_interval_s).min(1e7) as usize + 2,
             ),
@@ -310,7 +338,15 @@ impl<'a> Solver<'a> {
                                 .max(numerics.min_step_s)
                                 .min(0.5 * dt_s.max(numerics.min_step_s));
                         }
-                        _ => self.accept(dt_s, result),
+                        _ => {
+                            self.accept(dt_s, result);
+                            if let Some(flash_dt_s) = self.flash_dt_s.take() {
+                                if flash_dt_s > self.dt_s {
+                                    self.flash_tried_at_s = self.time_s;
+                                    self.dt_s = flash_dt_s.min(numerics.max_step_s);
+                                }
+                            }
+                        }
                     }
                 }
                 Attempt::Rejected {
@@ -318,6 +354,16 @@ impl<'a> Solver<'a> {
                     converged,
                 } => {
                     self.n_rejected += 1;
+                    let flash = self.flash_dt_s.take();
+                    if let Some(flash_dt_s) =
+                        flash.filter(|_| converged && self.flash_tried_at_s != self.time_s)
+                    {
+                        // A runaway the step cannot follow: let the cell flash in one step
+                        // (the step is still checked by the error estimate).
+                        self.flash_tried_at_s = self.time_s;
+                        self.dt_s = flash_dt_s.min(numerics.max_step_s);
+                        continue;
+                    }
                     if dt_s <= numerics.min_step_s * (1.0 + 1e-9) {
                         return Err(self.stalled(converged));
                     }
@@ -465,22 +511,31 @@ impl<'a> Solver<'a> {
             let half = &work.new_masses[cell_idx * stride..][..stride];
             let full = &work.full_masses[cell_idx * stride..][..stride];
             let mass: f64 = half.iter().sum();
+            // A cell whose exothermic reactants are used up within the step by both the full
+            // step and the two half steps has flashed: its change is set by the heat released
+            // (the energy balance), not by how finely the step resolves the runaway, so the
+            // caps on one step's change do not apply; the error estimate still does.
+            let flashed = self.has_flashed(cell_idx, half, full);
             if mass >= NEGLIGIBLE_MASS_FRACTION * reference {
                 let node = cell_idx + 1;
                 temperature_error =
                     temperature_error.max((work.solution_k[node] - work.full_k[node]).abs());
-                temperature_change = temperature_change
-                    .max((work.solution_k[node] - self.temperature_k[node]).abs());
+                if !flashed {
+                    temperature_change = temperature_change
+                        .max((work.solution_k[node] - self.temperature_k[node]).abs());
+                }
             }
             let difference: f64 = half.iter().zip(full).map(|(a, b)| (a - b).abs()).sum();
             mass_error = mass_error.max(difference / reference);
-            let consumed: f64 = (0..reaction_stride)
-                .map(|r| {
-                    let idx = cell_idx * reaction_stride + r;
-                    work.half_consumed[idx] + work.consumed[idx]
-                })
-                .sum();
-            conversion = conversion.max(consumed / reference);
+            if !flashed {
+                let consumed: f64 = (0..reaction_stride)
+                    .map(|r| {
+                        let idx = cell_idx * reaction_stride + r;
+                        work.half_consumed[idx] + work.consumed[idx]
+                    })
+                    .sum();
+                conversion = conversion.max(consumed / reference);
+            }
         }
         let error_ratio = (temperature_error / numerics.temperature_tolerance_k)
             .max(mass_error / numerics.conversion_tolerance);
@@ -494,6 +549,7 @@ impl<'a> Solver<'a> {
             .min(SAFETY / cap_ratio)
             .min(MAX_GROWTH);
         if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
+            self.flash_dt_s = self.flash_step(work, dt_s);
             return Attempt::Rejected {
                 retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
                 converged: true,
@@ -502,6 +558,7 @@ impl<'a> Solver<'a> {
         self.dt_s = (dt_s * factor.max(MIN_SHRINK))
             .max(numerics.min_step_s)
             .min(numerics.max_step_s);
+        self.flash_dt_s = self.flash_step(work, dt_s);
         // Richardson extrapolation y_h + θ·(y_h − y_full), θ = 1 (second order) unless that
         // would make a mass or a consumption negative (a reactant used up within the step):
         // then θ is the largest value in [0, 1] that keeps them non-negative. θ is continuous
@@ -548,6 +605,70 @@ impl<'a> Solver<'a> {
         Attempt::Accepted(self.step_result(work, budget))
     }
 
+    /// The step that lets a runaway cell flash, when the last solve (in `work`) has a cell in a
+    /// thermal runaway the step is chasing. A cell runs away when the adiabatic rise of its
+    /// remaining exothermic reactant, ΔT_ad = Σ|ΔH|·m/C, exceeds ten times the Arrhenius
+    /// temperature scale R·T²/E (Semenov's self-heating criterion, with a margin); the step
+    /// is chasing it when the runaway's e-folding time τ = C/|∂(Σ ω ΔH)/∂T| is under ten
+    /// steps. Followed to its end such a runaway needs ever shorter steps (of order 1e-12 s at
+    /// the peak of a strong exotherm), though it is over within a few τ: the step returned is
+    /// 20·τ, which the error estimate then checks like any other. It is offered only once 20·τ
+    /// is within the event tolerance (1e-4 of the elapsed time, at least 1e-5 s), so a flash
+    /// moves a cell's burn by no more than an ignition time may be off.
+    fn flash_step(&self, work: &Work, dt_s: f64) -> Option<f64> {
+        let mut longest: Option<f64> = None;
+        for cell_idx in 0..self.n_cells() {
+            let properties = &work.properties[cell_idx];
+            let slope = properties.reaction_heat_slope_w_m2_k;
+            let capacity = properties.heat_capacity_j_m2_k;
+            if slope >= 0.0 || capacity <= 0.0 {
+                continue;
+            }
+            let e_folding_s = capacity / -slope;
+            // Flashing moves the cell's burn by up to the flash step: only when that is within
+            // the event tolerance (as an ignition is located).
+            let tolerance_s = (EVENT_TOLERANCE_RELATIVE * self.time_s).max(EVENT_TOLERANCE_FLOOR_S);
+            if e_folding_s >= 10.0 * dt_s || 20.0 * e_folding_s > tolerance_s {
+                continue;
+            }
+            let temperature_k = work.solution_k[cell_idx + 1];
+            let masses = &work.new_masses[cell_idx * self.stride..];
+            let runs_away = self.material(cell_idx).reactions.iter().any(|r| {
+                let rise_k = -r.heat_of_reaction_j_kg * masses[r.reactant] / capacity;
+                let scale_k = GAS_CONSTANT_J_MOL_K * temperature_k * temperature_k
+                    / r.activation_energy_j_mol;
+                r.heat_of_reaction_j_kg < 0.0 && rise_k > 10.0 * scale_k
+            });
+            if runs_away {
+                let flash_s = 20.0 * e_folding_s;
+                if flash_s > dt_s {
+                    longest = Some(longest.map_or(flash_s, |l: f64| l.max(flash_s)));
+                }
+            }
+        }
+        longest
+    }
+
+    /// Whether every exothermic reactant of a cell that had mass at the step's start is down to
+    /// under 1 % of it at the end of both the full step and the two half steps.
+    fn has_flashed(&self, cell_idx: usize, half: &[f64], full: &[f64]) -> bool {
+        let material = self.material(cell_idx);
+        let start = &self.masses[cell_idx * self.stride..][..self.stride];
+        let floor = NEGLIGIBLE_MASS_FRACTION * self.reference_mass[cell_idx];
+        let mut any = false;
+        for reaction in &material.reactions {
+            if reaction.heat_of_reaction_j_kg >= 0.0 || start[reaction.reactant] <= floor {
+                continue;
+            }
+            let limit = 0.01 * start[reaction.reactant];
+            if half[reaction.reactant] > limit || full[reaction.reactant] > limit {
+                return false;
+            }
+            any = true;
+        }
+        any
+    }
+
     /// One backward-Euler step of `dt_s` from the state in `self`, by Newton iteration from
     /// the guess in `work.iterate_k`. The answer is in `work.solution_k`, `work.new_masses`
     /// and `work.consumed`; `None` when it does not converge.
@@ -556,21 +677,43 @@ impl<'a> Solver<'a> {
         let time_new_s = self.time_s + dt_s;
         let mut budget = EnergyBudget::default();
         let mut converged = false;
+        // An iteration that held runaway cells at their own roots is followed by a plain
+        // Newton iteration, which alone may end the solve (its linear system is the one whose
+        // energy terms are kept, so the budget closes to rounding).
+        let mut held_last = false;
+        let mut force_hold = false;
         for _ in 0..MAX_ITERATIONS {
             self.n_iterations += 1;
             self.evaluate_cells(work, dt_s);
             let face_absorbed_w_m2 = self.deposit_radiation(work, time_new_s);
-            budget = self.assemble_and_solve(work, dt_s, face_absorbed_w_m2);
+            let held = !held_last
+                && work.any_self_heating
+                && self.hold_runaway_cells(work, dt_s, force_hold);
+            budget = self.assemble_and_solve(work, dt_s, face_absorbed_w_m2, held);
             let change = work
                 .solution_k
                 .iter()
                 .zip(&work.iterate_k)
                 .map(|(a, b)| (a - b).abs())
                 .fold(0.0, f64::max);
-            if !change.is_finite() {
-                break;
+            held_last = held;
+            let forced = force_hold;
+            force_hold = false;
+            let thrown_off = !change.is_finite()
+                || (work.any_self_heating && work.solution_k.iter().any(|t| *t <= 0.0));
+            if thrown_off {
+                if held || forced || !work.any_self_heating {
+                    break;
+                }
+                // The tangent system of a self-heating cell past its fold sent the iterate
+                // off: try again from the same iterate, holding those cells at their roots.
+                force_hold = true;
+                continue;
             }
-            if change <= numerics.iteration_tolerance_k {
+            if change <= numerics.iteration_tolerance_k
+                && !held
+                && (!work.any_self_heating || self.exothermic_heat_is_consistent(work))
+            {
                 converged = true;
                 break;
             }
@@ -585,6 +728,21 @@ impl<'a> Solver<'a> {
         }
         let valid = converged && work.solution_k.iter().all(|t| t.is_finite() && *t > 0.0);
         valid.then_some(budget)
+    }
+
+    /// Whether, in every cell with an exothermic slope, the linearised reaction heat the
+    /// solved system books differs from the heat of the mass actually consumed (at the
+    /// iterate) by under 1e-7 of it. A steep self-heating slope times the iteration tolerance
+    /// would otherwise book heat no mass released (4e-5 of the total over an adiabatic
+    /// runaway); endothermic cells, whose slope is mild, keep the plain tolerance.
+    fn exothermic_heat_is_consistent(&self, work: &Work) -> bool {
+        work.properties.iter().enumerate().all(|(cell_idx, p)| {
+            let node = cell_idx + 1;
+            p.reaction_heat_slope_w_m2_k >= 0.0
+                || (p.reaction_heat_slope_w_m2_k * (work.solution_k[node] - work.iterate_k[node]))
+                    .abs()
+                    <= 1e-7 * p.reaction_heat_w_m2.abs()
+        })
     }
 
     /// The fuel mass flux of the specimen at the state given (instantaneous rates), kg/(m²·s).
@@ -689,6 +847,7 @@ impl<'a> Solver<'a> {
         work.consumed.clear();
         work.consumed.resize(n_cells * reaction_stride, 0.0);
         work.properties.resize(n_cells, CellProperties::default());
+        work.any_self_heating = false;
         for cell_idx in 0..n_cells {
             let material = self.material(cell_idx);
             let temperature_k = work.iterate_k[cell_idx + 1];
@@ -763,8 +922,127 @@ impl<'a> Solver<'a> {
                 properties.absorption_per_m = first.absorption_coefficient_per_m;
             }
             properties.thickness_m = thickness_m;
+            work.any_self_heating |= properties.reaction_heat_slope_w_m2_k < 0.0;
             work.properties[cell_idx] = properties;
         }
+    }
+
+    /// Conductances from a cell to the node before it (the face or the previous cell) and to
+    /// the node after it (the next cell or the back face), W/(m²·K), at the iterate's
+    /// properties: what `assemble_and_solve` puts in the cell's row.
+    fn cell_conductances(&self, work: &Work, cell_idx: usize) -> (f64, f64) {
+        let half_resistance = |p: &CellProperties| {
+            p.thickness_m.max(MIN_CELL_THICKNESS_M) / (2.0 * p.conductivity_w_m_k)
+        };
+        let between = |a: usize| {
+            let next_layer = self.cell_layer[a + 1];
+            let contact = if next_layer != self.cell_layer[a] {
+                self.scenario.layers[next_layer].contact_resistance_m2_k_w
+            } else {
+                0.0
+            };
+            1.0 / (half_resistance(&work.properties[a])
+                + contact
+                + half_resistance(&work.properties[a + 1]))
+        };
+        let before = if cell_idx == 0 {
+            1.0 / half_resistance(&work.properties[0])
+        } else {
+            between(cell_idx - 1)
+        };
+        let after = if cell_idx + 1 < self.n_cells() {
+            between(cell_idx)
+        } else {
+            1.0 / half_resistance(&work.properties[cell_idx])
+        };
+        (before, after)
+    }
+
+    /// Reaction heat sink of a cell over a step of `dt_s` ending at `temperature_k`, W/m², and
+    /// its temperature derivative (the same terms `evaluate_cells` forms at the iterate).
+    fn trial_reaction_heat(
+        &self,
+        work: &mut Work,
+        cell_idx: usize,
+        temperature_k: f64,
+        dt_s: f64,
+    ) -> (f64, f64) {
+        let material = self.material(cell_idx);
+        let old = &self.masses[cell_idx * self.stride..][..material.components.len()];
+        work.trial_rate_constants.clear();
+        work.trial_rate_constants
+            .extend(material.reactions.iter().map(|r| {
+                rate_constant_per_s(
+                    r.pre_exponential_per_s,
+                    r.activation_energy_j_mol,
+                    temperature_k,
+                )
+            }));
+        advance_masses(
+            material,
+            &work.trial_rate_constants,
+            old,
+            self.reference_mass[cell_idx],
+            dt_s,
+            &mut work.trial_masses,
+        );
+        let (mut heat, mut slope) = (0.0, 0.0);
+        for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+            let heat_w_m2 =
+                work.trial_masses.consumed[reaction_idx] / dt_s * reaction.heat_of_reaction_j_kg;
+            heat += heat_w_m2;
+            slope += heat_w_m2 * reaction.activation_energy_j_mol
+                / (GAS_CONSTANT_J_MOL_K * temperature_k * temperature_k)
+                * work.trial_masses.remaining_fraction[reaction_idx];
+        }
+        (heat, slope)
+    }
+
+    /// Cells whose linearised balance at the iterate has lost its heat-capacity term to the
+    /// self-heating slope of an exothermic reaction (capacity/Δt + ∂(Σ ω ΔH)/∂T below a tenth
+    /// of capacity/Δt, or any negative slope when `force`) are past or near the fold of their
+    /// implicit balance, where Newton's tangent points nowhere useful. Each such cell gets the
+    /// root of its own non-linear balance (neighbours at the iterate) in `work.pinned_k`, which
+    /// `assemble_and_solve` then holds. Returns whether any cell is held.
+    fn hold_runaway_cells(&self, work: &mut Work, dt_s: f64, force: bool) -> bool {
+        let n_cells = self.n_cells();
+        work.pinned_k.clear();
+        work.pinned_k.resize(n_cells, f64::NAN);
+        let mut any = false;
+        for cell_idx in 0..n_cells {
+            let properties = work.properties[cell_idx];
+            let capacity_rate = properties.heat_capacity_j_m2_k / dt_s;
+            let slope = properties.reaction_heat_slope_w_m2_k;
+            let runaway = if force {
+                slope < 0.0
+            } else {
+                capacity_rate + slope < 0.1 * capacity_rate
+            };
+            if !runaway || capacity_rate <= 0.0 {
+                continue;
+            }
+            let node = cell_idx + 1;
+            let (g_before, g_after) = self.cell_conductances(work, cell_idx);
+            let (t_before, t_after) = (work.iterate_k[node - 1], work.iterate_k[node + 1]);
+            let absorbed = work.absorbed_w_m2[cell_idx];
+            let start_k = self.temperature_k[node];
+            let balance = |work: &mut Work, t: f64| {
+                let (heat, heat_slope) = self.trial_reaction_heat(work, cell_idx, t, dt_s);
+                (
+                    capacity_rate * (t - start_k)
+                        + g_before * (t - t_before)
+                        + g_after * (t - t_after)
+                        - absorbed
+                        + heat,
+                    capacity_rate + g_before + g_after + heat_slope,
+                )
+            };
+            if let Some(root) = first_root_from(start_k, |t| balance(work, t)) {
+                work.pinned_k[cell_idx] = root;
+                any = true;
+            }
+        }
+        any
     }
 
     /// Net irradiance on the face and its in-depth deposit; returns what is absorbed at the
@@ -822,6 +1100,7 @@ impl<'a> Solver<'a> {
         work: &mut Work,
         dt_s: f64,
         face_absorbed_w_m2: f64,
+        held: bool,
     ) -> EnergyBudget {
         let exposure = &self.scenario.exposure;
         let n_cells = self.n_cells();
@@ -892,6 +1171,13 @@ impl<'a> Solver<'a> {
                 + work.absorbed_w_m2[cell_idx]
                 - properties.reaction_heat_w_m2
                 + properties.reaction_heat_slope_w_m2_k * guess_k;
+            if held && work.pinned_k[cell_idx].is_finite() {
+                // A runaway cell held at the root of its own balance for this iteration.
+                work.lower[node] = 0.0;
+                work.upper[node] = 0.0;
+                work.diagonal[node] = 1.0;
+                work.rhs[node] = work.pinned_k[cell_idx];
+            }
             conductance_in = conductance_out;
         }
         // Back node.
@@ -1432,6 +1718,108 @@ fn peak_of(samples: &[Sample], quantity: impl Fn(&Sample) -> f64) -> (f64, f64) 
         }
     }
     (peak, time_s)
+}
+
+/// The root of a cell's implicit balance F(T) = 0 reached first from the start temperature
+/// `start_k` (the root the step continues to; `balance` returns F and dF/dT, F increasing
+/// for large T through the heat-capacity term). With F(start) < 0 the cell heats: Newton from
+/// the start climbs monotonically to the lowest root while F is concave (a self-heating
+/// reaction below its turning point); if F turns down before reaching zero (dF/dT ≤ 0: the
+/// reaction runs away within the step, no low root exists), the root is the one above the
+/// fold, bracketed by doubling and found by bracketed Newton. With F(start) ≥ 0 the cell
+/// cools and the root below is bracketed the same way. `None` when no bracket is found.
+fn first_root_from(start_k: f64, mut balance: impl FnMut(f64) -> (f64, f64)) -> Option<f64> {
+    let (f_start, _) = balance(start_k);
+    if !f_start.is_finite() {
+        return None;
+    }
+    if f_start == 0.0 {
+        return Some(start_k);
+    }
+    let (mut low, mut high);
+    if f_start < 0.0 {
+        // Climb by Newton while F is below zero and still rising.
+        let mut t = start_k;
+        let mut below = start_k;
+        let mut bracket = None;
+        for _ in 0..60 {
+            let (f, slope) = balance(t);
+            if !f.is_finite() {
+                return None;
+            }
+            if f >= 0.0 {
+                bracket = Some(t);
+                break;
+            }
+            below = t;
+            if slope <= 0.0 {
+                break;
+            }
+            let next = t - f / slope;
+            if next - t <= 1e-12 * t {
+                return Some(next);
+            }
+            t = next;
+        }
+        low = below;
+        high = match bracket {
+            Some(high) => high,
+            None => {
+                let mut step = 100.0;
+                loop {
+                    let trial = low + step;
+                    let (f, _) = balance(trial);
+                    if !f.is_finite() || step > 1e7 {
+                        return None;
+                    }
+                    if f > 0.0 {
+                        break trial;
+                    }
+                    low = trial;
+                    step *= 2.0;
+                }
+            }
+        };
+    } else {
+        high = start_k;
+        let mut step = 10.0;
+        low = loop {
+            let trial = (high - step).max(1.0);
+            let (f, _) = balance(trial);
+            if !f.is_finite() || trial <= 1.0 {
+                return None;
+            }
+            if f < 0.0 {
+                break trial;
+            }
+            high = trial;
+            step *= 2.0;
+        };
+    }
+    // Bracketed Newton on [low, high] with F(low) < 0 < F(high), from the end nearer the
+    // root the continuation wants (the upper end past a fold, where F is convex).
+    let mut t = if f_start < 0.0 { high } else { low };
+    for _ in 0..200 {
+        let (f, slope) = balance(t);
+        if f == 0.0 {
+            return Some(t);
+        }
+        if f < 0.0 {
+            low = t;
+        } else {
+            high = t;
+        }
+        if high - low <= 1e-12 * high {
+            return Some(0.5 * (low + high));
+        }
+        let newton = t - f / slope;
+        t = if slope > 0.0 && newton > low && newton < high {
+            newton
+        } else {
+            0.5 * (low + high)
+        };
+    }
+    Some(0.5 * (low + high))
 }
 
 fn interpolate_height(above: (f64, f64), below: (f64, f64), height: f64) -> f64 {

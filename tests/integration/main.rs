@@ -11,6 +11,7 @@ mod numerics;
 mod pmma_fit;
 mod predict;
 mod properties;
+mod reactions;
 mod templates;
 mod tui;
 mod twins;
