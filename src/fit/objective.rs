@@ -129,3 +129,114 @@ impl<'a, M: Model> Objective<'a, M> {
         }
     }
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::fit::model::{MeasuredCase, MeasuredSignal, ModelError};
+    use crate::fit::parameters::{Prior, Scale};
+
+    /// A fake model with two signals: a constant c at two times, and 2·c at one; it fails
+    /// for c < 0. The data and σ are chosen so that every residual is worked by hand.
+    struct Constant {
+        parameters: Vec<FreeParameter>,
+        data: Vec<MeasuredCase>,
+    }
+
+    impl Model for Constant {
+        fn parameters(&self) -> &[FreeParameter] {
+            &self.parameters
+        }
+        fn data(&self) -> &[MeasuredCase] {
+            &self.data
+        }
+        fn predict(&self, values: &[f64]) -> Result<Vec<Vec<SignalCurve>>, ModelError> {
+            if values[0] < 0.0 {
+                return Err(ModelError {
+                    case: "only".into(),
+                    message: "negative".into(),
+                });
+            }
+            Ok(vec![vec![
+                SignalCurve {
+                    values: vec![values[0]; 2],
+                },
+                SignalCurve {
+                    values: vec![2.0 * values[0]],
+                },
+            ]])
+        }
+    }
+
+    fn model(prior: Option<Prior>) -> Constant {
+        let signal = |label: &str, value: Vec<f64>, sigma: Vec<f64>, weight: f64| MeasuredSignal {
+            label: label.into(),
+            time_s: (0..value.len()).map(|t| t as f64).collect(),
+            value,
+            sigma,
+            weight,
+        };
+        Constant {
+            parameters: vec![FreeParameter {
+                name: "c".into(),
+                unit: "–".into(),
+                lower: -10.0,
+                upper: 10.0,
+                scale: Scale::Linear,
+                start: 1.0,
+                prior,
+            }],
+            data: vec![MeasuredCase {
+                name: "only".into(),
+                signals: vec![
+                    signal("a", vec![1.0, 3.0], vec![0.5, 2.0], 4.0),
+                    signal("b", vec![5.0], vec![1.0], 1.0),
+                ],
+            }],
+        }
+    }
+
+    #[test]
+    fn residuals_and_parts_are_the_weighted_standardised_misfits() {
+        // c = 2: signal a gives √4·(2 − 1)/0.5 = 4 and √4·(2 − 3)/2 = −1; signal b gives
+        // (4 − 5)/1 = −1. Parts: a 4² + 1² = 17, b 1; the prior (normal, mean 1, sd 0.5) adds
+        // a row (2 − 1)/0.5 = 2 and a cost of 4; the total is 17 + 1 + 4 = 22.
+        let m = model(Some(Prior::Normal {
+            mean: 1.0,
+            standard_deviation: 0.5,
+        }));
+        let objective = Objective::new(&m);
+        assert_eq!(
+            objective.residuals(&[2.0]).unwrap(),
+            vec![4.0, -1.0, -1.0, 2.0]
+        );
+        let evaluation = objective.evaluate(&[2.0]);
+        assert_eq!(evaluation.failure, None);
+        let parts: Vec<(&str, f64)> = evaluation
+            .parts
+            .iter()
+            .map(|p| (p.signal.as_str(), p.cost))
+            .collect();
+        assert_eq!(parts, vec![("a", 17.0), ("b", 1.0)]);
+        assert_eq!(evaluation.prior_cost, 4.0);
+        assert_eq!(evaluation.cost, 22.0);
+        // The cost is the sum of the squared residuals, prior row included.
+        let sum: f64 = objective
+            .residuals(&[2.0])
+            .unwrap()
+            .iter()
+            .map(|r| r * r)
+            .sum();
+        assert_eq!(sum, evaluation.cost);
+    }
+
+    #[test]
+    fn a_failed_simulation_costs_the_penalty_and_says_why() {
+        let m = model(None);
+        let objective = Objective::new(&m);
+        let evaluation = objective.evaluate(&[-1.0]);
+        assert_eq!(evaluation.cost, FAILED_SIMULATION_PENALTY);
+        assert!(evaluation.failure.unwrap().contains("negative"));
+        assert!(objective.residuals(&[-1.0]).is_err());
+    }
+}
