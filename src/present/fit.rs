@@ -100,6 +100,11 @@ pub fn fit_summary_table(summary: &RunSummary, labels: &[ParameterLabel]) -> Str
     } else {
         out.push_str("  rank: 1 = the parameter the data are most sensitive to\n");
     }
+    if let Some(problem) = &summary.posterior_problem {
+        for line in wrapped(&format!("no posterior sample: {problem}"), WIDTH - 2) {
+            out.push_str(&format!("  {line}\n"));
+        }
+    }
     if let Some(posterior) = &summary.posterior {
         let text = format!(
             "95 % intervals from the sandwich covariance; \"posterior\": 2.5–97.5 % of the \
@@ -184,6 +189,7 @@ mod tests {
             identifiability_problem: None,
             likelihood_temperature: None,
             posterior: None,
+            posterior_problem: None,
         }
     }
 
@@ -257,5 +263,14 @@ mod tests {
         );
         assert!(table.contains("posterior sample (300 points, 41 % of moves accepted;"));
         assert!(lines.iter().all(|l| l.chars().count() <= 80));
+    }
+
+    #[test]
+    fn a_posterior_sample_that_could_not_be_drawn_says_why() {
+        let mut summary = summary(true);
+        summary.posterior_problem = Some("a stop was requested before the sample".into());
+        let table = fit_summary_table(&summary, &labels());
+        assert!(table.contains("  no posterior sample: a stop was requested before the sample\n"));
+        assert!(!table.contains("posterior sample ("));
     }
 }

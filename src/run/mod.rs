@@ -640,7 +640,9 @@ fn finish<E: Evaluator>(
         Ok(a) => (Some(a), None),
         Err(e) => (None, Some(e.to_string())),
     };
-    let posterior = match (&job.settings.posterior, &analysis) {
+    // A sample that cannot be drawn must not cost the fit its outputs: it is left out and
+    // summary.json says why (`posterior_problem`).
+    let (posterior, posterior_problem) = match (&job.settings.posterior, &analysis) {
         (Some(settings), Some(analysis)) if !stop.load(Ordering::Relaxed) => {
             match crate::fit::posterior::sample(
                 objective,
@@ -654,18 +656,21 @@ fn finish<E: Evaluator>(
             ) {
                 Ok(sample) if !sample.samples.is_empty() => {
                     posterior::write_posterior(dir, &sample)?;
-                    Some(sample)
+                    (Some(sample), None)
                 }
-                Ok(_) => None,
-                Err(e) => {
-                    return Err(RunError::Corrupt {
-                        path: dir.posterior(),
-                        problem: e.to_string(),
-                    })
-                }
+                Ok(_) => (None, Some("stopped before any point was kept".to_string())),
+                Err(e) => (None, Some(e.to_string())),
             }
         }
-        _ => None,
+        (Some(_), None) => (
+            None,
+            Some("no posterior sample without the uncertainty analysis".to_string()),
+        ),
+        (Some(_), Some(_)) => (
+            None,
+            Some("a stop was requested before the sample".to_string()),
+        ),
+        (None, _) => (None, None),
     };
     let mut provenance = provenance.clone();
     provenance.not_converged =
@@ -760,6 +765,7 @@ fn finish<E: Evaluator>(
             .map_or_else(Vec::new, |a| a.singular_values.clone()),
         identifiability_problem: problem,
         likelihood_temperature: analysis.as_ref().map(|a| a.likelihood_temperature),
+        posterior_problem,
         posterior: posterior.as_ref().map(|s| PosteriorInfo {
             file: "posterior.json".into(),
             walkers: s.walkers,

@@ -50,6 +50,9 @@ pub struct RunSummary {
     /// The posterior sample, when the job asked for one (`settings.posterior_steps`).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub posterior: Option<PosteriorInfo>,
+    /// Why the sample the job asked for is absent (the fit's outputs are kept regardless).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub posterior_problem: Option<String>,
 }
 
 /// What `summary.json` says of the posterior sample; the points are in `posterior.json`
