@@ -666,7 +666,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         }
         if end < time_all_s.len() {
             notices.push(Notice::new(format!(
-                "{}: last {} rows dropped: the delay shift leaves them without HRR readings",
+                "{}: last {} rows dropped: the analyser delay (or hrr_delay_s) leaves them without HRR readings",
                 test.source.display(),
                 time_all_s.len() - end
             )));
