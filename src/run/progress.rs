@@ -264,10 +264,15 @@ pub fn read_all_lenient(path: &Path) -> Vec<ProgressEvent> {
         .collect()
 }
 
-/// Keeps the lines up to `iteration` (the checkpoint's) and drops a `finished` line: a
-/// killed process may have written a few more that the resumed run writes again. A
-/// half-written last line is dropped too.
-pub fn trim_to_iteration(path: &Path, iteration: u64) -> Result<(), super::RunError> {
+/// Keeps the lines up to `iteration` (the checkpoint's) and the posterior sample's lines up
+/// to `sample_step` (its checkpoint's; 0: none saved), and drops a `finished` line: a killed
+/// process may have written a few more that the resumed run writes again. A half-written
+/// last line is dropped too.
+pub fn trim_to_iteration(
+    path: &Path,
+    iteration: u64,
+    sample_step: usize,
+) -> Result<(), super::RunError> {
     let text = crate::input::read_text(path, crate::input::InputKind::RunFile).unwrap_or_default();
     let mut kept = String::new();
     for line in text.lines() {
@@ -275,6 +280,7 @@ pub fn trim_to_iteration(path: &Path, iteration: u64) -> Result<(), super::RunEr
             continue; // a half-written last line
         };
         if event.iteration().is_some_and(|i| i > iteration)
+            || matches!(event, ProgressEvent::Posterior { step, .. } if step > sample_step)
             || matches!(event, ProgressEvent::Finished { .. })
         {
             continue;

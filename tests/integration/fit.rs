@@ -548,12 +548,17 @@ fn the_posterior_sample_agrees_with_the_intervals_and_feeds_the_band() {
     for p in &summary.parameters {
         eprintln!(
             "{}: best {:.5}, sandwich {:?}–{:?}, posterior {:?} (T = {:?})",
-            p.name, p.value, p.lower_95, p.upper_95, p.posterior_95, summary.likelihood_temperature
+            p.name,
+            p.value,
+            p.lower_95,
+            p.upper_95,
+            p.posterior_interval_95(),
+            summary.likelihood_temperature
         );
     }
     for p in &summary.parameters {
         let (lower, upper) = (p.lower_95.unwrap(), p.upper_95.unwrap());
-        let (post_lower, post_upper) = p.posterior_95.expect("posterior interval");
+        let (post_lower, post_upper) = p.posterior_interval_95().expect("posterior interval");
         let (width, post_width) = (upper - lower, post_upper - post_lower);
         eprintln!(
             "{}: best {:.5}, sandwich [{lower:.5}, {upper:.5}], posterior [{post_lower:.5}, {post_upper:.5}]",
