@@ -296,7 +296,9 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         ProgressEvent::Paused { .. } => Some("paused".into()),
         ProgressEvent::Resumed { .. } => Some("running again".into()),
         ProgressEvent::Stopping => Some(
-            "stopping: finishing the iteration, then writing the checkpoint and outputs".into(),
+            "stopping: finishing the iteration (or step of the posterior sample), then writing \
+             the checkpoint and outputs"
+                .into(),
         ),
         ProgressEvent::Finished {
             reason,
