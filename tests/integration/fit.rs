@@ -602,6 +602,54 @@ fn the_posterior_sample_agrees_with_the_intervals_and_feeds_the_band() {
     );
     let sample = calibrated.uncertainty.unwrap().posterior.unwrap();
     assert_eq!(sample.len(), info.points);
+    // The report shows both intervals of each parameter side by side, the temperature, the
+    // sample, each band by name and the caution.
+    let written = emberfit::export::report::write_report(
+        &report.directory,
+        &emberfit::export::report::ReportOptions {
+            n_samples: 12,
+            ..Default::default()
+        },
+    )
+    .expect("the report is written");
+    let html = std::fs::read_to_string(&written.html).unwrap();
+    for header in [
+        "<th>sandwich 95 % interval (unit)</th><th>posterior 95 % interval (unit)</th><th>posterior median (unit)</th>",
+        "<th>likelihood temperature T (–)</th>",
+        "<th>posterior sample</th><td>640 points kept: 8 walkers × 80 steps after a burn-in of 40 (all 120 steps drawn; posterior.json)</td>",
+        "<th>acceptance (%)</th>",
+        "<th>95 % parameter band (unit)</th>",
+        "<th>95 % prediction band with test scatter and model error (unit)</th>",
+        emberfit::export::report::CAUTION,
+    ] {
+        assert!(html.contains(header), "{header} not in the report");
+    }
+    let temperature = summary.likelihood_temperature.unwrap();
+    for p in &summary.parameters {
+        let (a, b) = p.posterior_interval_95().unwrap();
+        let row = html
+            .lines()
+            .find(|l| l.contains(&format!("<code>{}</code>", p.name)))
+            .expect("a row for each parameter");
+        for cell in [
+            emberfit::headless::interval_text(p.lower_95.unwrap(), p.upper_95.unwrap()),
+            emberfit::headless::interval_text(a, b),
+        ] {
+            assert!(row.contains(&cell), "{cell} not in {row}");
+        }
+    }
+    assert!(
+        html.contains(&format!(
+            "<tr><th>likelihood temperature T (–)</th><td>{}",
+            if temperature.abs() >= 1e5 || temperature.abs() < 1e-3 {
+                format!("{temperature:.4e}")
+            } else {
+                let decimals = (4 - temperature.abs().log10().floor() as i32).max(0) as usize;
+                format!("{temperature:.decimals$}")
+            }
+        )),
+        "temperature {temperature} not in the report"
+    );
     let _ = std::fs::remove_dir_all(&root);
 }
 
