@@ -542,11 +542,13 @@ pub fn run_fit_on<E: Evaluator>(
     }
     // After every step of the posterior sample: its log line, then a pause or stop request
     // is honoured as between the optimiser's generations.
+    let burn_in = job.settings.posterior.as_ref().map_or(0, |p| p.burn_in);
     let mut posterior_step = |state: &SamplerState, steps: usize| -> bool {
         let acceptance = state.acceptance();
         recorder.write_event(&ProgressEvent::Posterior {
             step: state.step,
             steps,
+            burn_in,
             acceptance: if acceptance.is_finite() {
                 acceptance
             } else {

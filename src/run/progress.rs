@@ -89,10 +89,14 @@ pub enum ProgressEvent {
     /// A stop was asked for (signal or key): the run finishes its iteration, writes its
     /// outputs and ends with `finished`. Lets every viewer say "stopping".
     Stopping,
-    /// One step of the posterior sample after the fit (`fit::posterior`).
+    /// One step of the posterior sample after the fit (`fit::posterior`): `acceptance` counts
+    /// the moves after the burn-in (0 within it); `elapsed_s` is the sample's own time.
     Posterior {
         step: usize,
         steps: usize,
+        /// Steps dropped at the start (absent in logs written before it was recorded).
+        #[serde(default)]
+        burn_in: usize,
         acceptance: f64,
         elapsed_s: f64,
     },
@@ -436,6 +440,7 @@ fn lenient_event(kind: &str, value: &Value) -> Option<(ProgressEvent, Vec<&'stat
         "posterior" => ProgressEvent::Posterior {
             step: value.get("step").and_then(Value::as_u64).unwrap_or(0) as usize,
             steps: value.get("steps").and_then(Value::as_u64).unwrap_or(0) as usize,
+            burn_in: value.get("burn_in").and_then(Value::as_u64).unwrap_or(0) as usize,
             acceptance: number("acceptance"),
             elapsed_s: number("elapsed_s"),
         },

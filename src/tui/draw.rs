@@ -197,10 +197,10 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
     let mut lines = Vec::new();
     let phase = match (&state.posterior, state.finished.is_some()) {
         (Some(p), false) => format!(
-            " (posterior sample, step {}/{}, {:.0} % accepted)",
+            " (posterior sample, step {}/{}, {})",
             p.step,
             p.steps,
-            100.0 * p.acceptance
+            p.acceptance_text()
         ),
         _ => state
             .latest
@@ -253,14 +253,10 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
         lines.push(label_value(
             "sample",
             format!(
-                "step {}/{}, {} accepted, {} elapsed",
+                "step {}/{}, {}, {} elapsed",
                 sample.step,
                 sample.steps,
-                if sample.step > 0 {
-                    format!("{:.0} %", 100.0 * sample.acceptance)
-                } else {
-                    "-".into()
-                },
+                sample.acceptance_text(),
                 duration_text(sample.elapsed_s)
             ),
             look,
@@ -1657,9 +1653,30 @@ mod tests {
             24,
         ));
         assert!(before.contains("budget left"), "{before}");
+        // Within the burn-in the acceptance is not counted yet: the view says so.
+        state.apply(&crate::run::progress::ProgressEvent::Posterior {
+            step: 8,
+            steps: 120,
+            burn_in: 20,
+            acceptance: 0.0,
+            elapsed_s: 3.2,
+        });
+        let shown = text(&render(
+            &state,
+            &screen_on(View::Progress, Mode::ReadOnly),
+            COLOUR,
+            80,
+            24,
+        ));
+        assert!(
+            shown.contains("sample          step 8/120, burn-in 8/20, 3.2 s elapsed"),
+            "{shown}"
+        );
+        assert!(!shown.contains("0 % accepted"), "{shown}");
         state.apply(&crate::run::progress::ProgressEvent::Posterior {
             step: 30,
             steps: 120,
+            burn_in: 20,
             acceptance: 0.384,
             elapsed_s: 12.0,
         });

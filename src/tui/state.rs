@@ -33,8 +33,21 @@ pub struct PosteriorStep {
     pub step: usize,
     pub steps: usize,
     pub acceptance: f64,
+    /// Steps dropped at the start; the acceptance counts only the moves after them.
+    pub burn_in: usize,
     /// Seconds spent on the sample so far (over every process that worked on it).
     pub elapsed_s: f64,
+}
+
+impl PosteriorStep {
+    /// The acceptance as a person reads it: a percentage, or "burn-in" before it has one.
+    pub fn acceptance_text(&self) -> String {
+        if self.step <= self.burn_in {
+            format!("burn-in {}/{}", self.step, self.burn_in)
+        } else {
+            format!("{:.0} % accepted", 100.0 * self.acceptance)
+        }
+    }
 }
 
 /// The state of the fit as the run directory shows it.
@@ -297,6 +310,7 @@ impl ViewerState {
             ProgressEvent::Posterior {
                 step,
                 steps,
+                burn_in,
                 acceptance,
                 elapsed_s,
             } => {
@@ -304,6 +318,7 @@ impl ViewerState {
                     step: *step,
                     steps: *steps,
                     acceptance: *acceptance,
+                    burn_in: *burn_in,
                     elapsed_s: *elapsed_s,
                 })
             }
