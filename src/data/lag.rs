@@ -33,7 +33,7 @@ pub fn hrr_lag_behind_mass(time_s: &[f64], hrr: &[f64], mlr: &[f64]) -> Option<L
     }
     let span_s = time_s[n - 1] - time_s[0];
     let dt_s = span_s / (n - 1) as f64;
-    if !(dt_s > 0.0) || span_s < 200.0 + SHIFT_RANGE_S.1 - SHIFT_RANGE_S.0 {
+    if dt_s.is_nan() || dt_s <= 0.0 || span_s < 200.0 + SHIFT_RANGE_S.1 - SHIFT_RANGE_S.0 {
         return None;
     }
     let smoothed = moving_mean(time_s, mlr, MLR_SMOOTHING_HALF_WIDTH_S);
