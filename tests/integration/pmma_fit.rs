@@ -8,7 +8,7 @@
 //! SUMMARY.md). Without the variable the tests are skipped, saying so; under `CI=true` they fail.
 //! docs/calibration-pmma.md explains the set-up and the numbers.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::sync::atomic::AtomicBool;
 use std::sync::{Arc, OnceLock};
 
