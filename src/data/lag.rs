@@ -23,9 +23,9 @@ pub struct Lag {
     pub correlation: f64,
 }
 
-/// The lag of `hrr` behind `mlr`, both on `time_s` (increasing). `None` when the record is too
-/// short (under 200 s beyond the shift range), the time base is not roughly uniform, or the
-/// best correlation is below 0.9.
+/// The lag of `hrr` behind `mlr`, both on `time_s` (increasing; shifts are whole multiples of
+/// the mean sample interval, values between samples interpolated). `None` when the record is
+/// too short (under 200 s beyond the shift range) or the best correlation is below 0.9.
 pub fn hrr_lag_behind_mass(time_s: &[f64], hrr: &[f64], mlr: &[f64]) -> Option<Lag> {
     let n = time_s.len();
     if n < 20 || hrr.len() != n || mlr.len() != n {

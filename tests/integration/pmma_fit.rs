@@ -195,7 +195,7 @@ fn check_lab(test_name: &str, lab_index: usize, known_misses: &[(f64, &str, f64)
     assert!(failures.is_empty(), "{test_name}: {failures:?}");
 }
 
-/// Lab d: 14 of the 16 checks of both labs hold at the criterion; lab d's peak HRR at
+/// Lab d: 15 of the 16 checks of both labs hold at the criterion; lab d's peak HRR at
 /// 65 kW/m² comes out 5–6 % low (inside 2 sd = 8 %, outside the 5 % cap), so it gets 8 %.
 #[test]
 fn pmma_lab_d_calibration_reproduces_its_25_and_65_kw_tests() {
@@ -206,17 +206,14 @@ fn pmma_lab_d_calibration_reproduces_its_25_and_65_kw_tests() {
     );
 }
 
-/// Lab c: at 65 kW/m² the time to peak comes out 20–27 s early (2 sd = 17 s), so it gets
-/// 3.5 sd (30 s), and the peak HRR 3–4 % low (2 sd = 4.0 %), so it gets the 5 % cap.
+/// Lab c, with its HRR moved 9 s earlier (`hrr_delay_s`) and the flame blockage fitted: all
+/// eight checks at the criterion.
 #[test]
 fn pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests() {
     check_lab(
         "pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests",
         0,
-        &[
-            (65.0, "time_to_peak", 30.0),
-            (65.0, "peak_hrr", 0.05 * 1442.0),
-        ],
+        &[],
     );
 }
 
