@@ -296,7 +296,9 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         ProgressEvent::Paused { .. } => Some("paused".into()),
         ProgressEvent::Resumed { .. } => Some("running again".into()),
         ProgressEvent::Stopping => Some(
-            "stopping: finishing the iteration, then writing the checkpoint and outputs".into(),
+            "stopping: finishing the iteration (or step of the posterior sample), then writing \
+             the checkpoint and outputs"
+                .into(),
         ),
         ProgressEvent::Finished {
             reason,
@@ -313,12 +315,20 @@ pub fn line(event: &ProgressEvent) -> Option<String> {
         ProgressEvent::Posterior {
             step,
             steps,
+            burn_in,
             acceptance,
             elapsed_s,
         } => (*step == 1 || *step == *steps || step % (steps / 10).max(1) == 0).then(|| {
+            // The steps left at the mean time per step so far.
+            let left_s = elapsed_s / (*step).max(1) as f64 * steps.saturating_sub(*step) as f64;
+            let accepted = if step <= burn_in {
+                format!("burn-in {step}/{burn_in}")
+            } else {
+                format!("accepted {:.0} %", 100.0 * acceptance)
+            };
             format!(
-                "[posterior] step {step:>5}/{steps}  {elapsed_s:>7.1} s  accepted {:.0} %",
-                100.0 * acceptance
+                "[posterior] step {step:>5}/{steps}  {elapsed_s:>7.1} s  {accepted}  left ≈ {}",
+                duration_words(left_s)
             )
         }),
     }

@@ -20,6 +20,12 @@ use crate::predict::{
 use crate::run::progress::ProgressEvent;
 use crate::run::{slug, RunDirectory, RunError, RunRecord, RunSummary};
 
+/// The name of the band of the parameters' uncertainty alone (docs/predictions.md).
+pub const PARAMETER_BAND: &str = "parameter band";
+/// The name of the band that adds the repeats' scatter and the model's error at the
+/// calibration conditions (docs/predictions.md).
+pub const PREDICTION_BAND: &str = "prediction band with test scatter and model error";
+
 /// The caution every report carries.
 pub const CAUTION: &str = "Model results support, and do not replace, standard tests, local codes and the judgement of a qualified fire engineer.";
 
@@ -217,9 +223,11 @@ fn prediction_chart(
             .map(|(u, l)| u - l)
             .filter(|w| w.is_finite())
             .fold(0.0_f64, f64::max);
+        // The curve band holds the parameters' uncertainty only (docs/predictions.md): a
+        // parameter band, not a prediction band.
         shades.push(Shade {
             label: format!(
-                "{band:.0} % prediction band ({} draws; at most {} kW/m² wide)",
+                "{band:.0} % {PARAMETER_BAND} ({} draws; at most {} kW/m² wide)",
                 prediction.n_samples,
                 crate::headless::significant(widest, 2)
             ),
@@ -460,7 +468,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                             .find(|c| c.case == name && c.signal == "hrr")
                             .map(|c| (c.time_s.as_slice(), c.measured.as_slice()));
                         let chart = prediction_chart(
-                            &format!("{name}: HRR band from the fit's uncertainty"),
+                            &format!("{name}: HRR {PARAMETER_BAND} from the fit's uncertainty"),
                             &prediction,
                             measured,
                         );
@@ -510,7 +518,7 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
                                     .as_ref()
                                     .map(|h| (scored.reduced.time_s.as_slice(), h.as_slice()));
                                 let title = format!(
-                                    "held out, {}: predicted HRR band and measurement",
+                                    "held out, {}: predicted HRR {PARAMETER_BAND} and measurement",
                                     scored.score.label
                                 );
                                 let chart = prediction_chart(&title, &prediction, measured);
@@ -557,27 +565,127 @@ pub fn write_report(run_dir: &Path, options: &ReportOptions) -> Result<ReportOut
 fn quantities_table(name: &str, prediction: &Prediction) -> String {
     let band = prediction
         .band_percent
-        .map_or_else(|| "band".to_string(), |b| format!("{b:.0} % band"));
+        .map_or_else(String::new, |b| format!("{b:.0} % "));
     let mut out = format!(
-        "<h3>{}</h3>\n<table class=\"quantities\">\n<tr><th>quantity (unit)</th><th>best fit (unit)</th><th>median (unit)</th><th>{band} (unit)</th><th>draws without it (count)</th></tr>\n",
+        "<h3>{}</h3>\n<table class=\"quantities\">\n<tr><th>quantity (unit)</th><th>best fit (unit)</th><th>median (unit)</th>\
+         <th>{band}{PARAMETER_BAND} (unit)</th><th>{band}{PREDICTION_BAND} (unit)</th>\
+         <th>test scatter (%)</th><th>model error (%)</th><th>draws without it (count)</th></tr>\n",
         escape(name)
     );
+    let percent = |v: f64| {
+        if v.is_finite() {
+            format!("{:.1}", 100.0 * v)
+        } else {
+            "–".into()
+        }
+    };
     for q in &prediction.quantities {
         let unit = escape(&q.unit);
+        let prediction_band = if q.prediction_lower.is_finite() && q.prediction_upper.is_finite() {
+            format!(
+                "{} … {} {unit}",
+                format_value(q.prediction_lower),
+                format_value(q.prediction_upper)
+            )
+        } else {
+            "– (the fit has no report-quantity signal for it)".into()
+        };
         let _ = writeln!(
             out,
-            "<tr><td>{} ({unit})</td><td>{}</td><td>{} {unit}</td><td>{} … {} {unit}</td><td>{}</td></tr>",
+            "<tr><td>{} ({unit})</td><td>{}</td><td>{} {unit}</td><td>{} … {} {unit}</td><td>{prediction_band}</td><td>{}</td><td>{}</td><td>{}</td></tr>",
             escape(&q.name),
             q.best
                 .map_or_else(|| "never ignites".into(), |v| format!("{} {unit}", format_value(v))),
             format_value(q.median),
             format_value(q.lower),
             format_value(q.upper),
+            percent(q.relative_test_scatter),
+            percent(q.relative_model_error),
             q.n_missing()
         );
     }
     out.push_str("</table>\n");
     out
+}
+
+/// The uncertainty of the fit: the likelihood temperature, the effective residuals and the
+/// posterior sample (or why there is none).
+fn uncertainty_section(s: &RunSummary) -> String {
+    let mut html = String::from("<h2>Uncertainty of the parameters</h2>\n<table>\n");
+    let mut row = |k: &str, v: String| {
+        let _ = writeln!(
+            html,
+            "<tr><th>{}</th><td>{}</td></tr>",
+            escape(k),
+            escape(&v)
+        );
+    };
+    row(
+        "sandwich 95 % intervals",
+        "±1.96 standard errors in fit space of the sandwich covariance H⁺MH⁺ at the optimum".into(),
+    );
+    row(
+        "likelihood temperature T (–)",
+        s.likelihood_temperature.map_or_else(
+            || "not computed".into(),
+            |t| {
+                format!(
+                    "{} (trace(JᵀJ·C)/p: how much wider the intervals are than independent residuals of the stated σ make them)",
+                    format_value(t)
+                )
+            },
+        ),
+    );
+    row(
+        "effective independent residuals (count)",
+        format!("{:.1} of {}", s.effective_residuals, s.n_residuals),
+    );
+    match (&s.posterior, &s.posterior_problem) {
+        (Some(p), _) => {
+            row(
+                "posterior sample",
+                format!(
+                    "{} points kept: {} walkers × {} steps after a burn-in of {} ({}; posterior.json)",
+                    p.points,
+                    p.walkers,
+                    p.steps.saturating_sub(p.burn_in),
+                    p.burn_in,
+                    if p.stopped {
+                        format!(
+                            "stopped on request at step {}{}; `emberfit fit --resume` continues it",
+                            p.steps,
+                            p.requested_steps
+                                .map_or_else(String::new, |n| format!(" of {n}"))
+                        )
+                    } else {
+                        format!("all {} steps drawn", p.steps)
+                    }
+                ),
+            );
+            row(
+                "acceptance (%)",
+                format!(
+                    "{:.1} of the proposed moves after burn-in (0.2–0.5 is healthy for this sampler)",
+                    100.0 * p.acceptance
+                ),
+            );
+            row(
+                "sample temperature (–)",
+                format!(
+                    "{} (the density sampled: exp(−cost/(2T)))",
+                    format_value(p.temperature)
+                ),
+            );
+            row("lowest cost met (–)", format_value(p.lowest_cost));
+        }
+        (None, Some(problem)) => row("posterior sample", format!("none: {problem}")),
+        (None, None) => row(
+            "posterior sample",
+            "none (the job's settings.posterior_steps is 0)".into(),
+        ),
+    }
+    html.push_str("</table>\n");
+    html
 }
 
 /// One row of the fit-quality table: case, signal, points, cost, normalised RMSE %.
@@ -647,18 +755,39 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
         }
         html.push_str("</table>\n");
     }
-    html.push_str(
+    // The sandwich and the posterior intervals side by side (the posterior columns only when
+    // the run has a sample).
+    let has_posterior = s.posterior.is_some();
+    let _ = writeln!(
+        html,
         "<h2>Free parameters</h2>\n<table>\n<tr><th>#</th><th>parameter</th><th>unit</th><th>value (unit)</th>\
-         <th>95 % interval (unit)</th><th>bounds (unit)</th><th>scale</th><th>warnings</th></tr>\n",
+         <th>sandwich 95 % interval (unit)</th>{}<th>bounds (unit)</th><th>scale</th><th>warnings</th></tr>",
+        if has_posterior {
+            "<th>posterior 95 % interval (unit)</th><th>posterior median (unit)</th>"
+        } else {
+            ""
+        }
     );
     for (k, p) in s.parameters.iter().enumerate() {
         let interval = match (p.lower_95, p.upper_95) {
             (Some(a), Some(b)) => crate::headless::interval_text(a, b),
             _ => "not determined".into(),
         };
+        let posterior = if has_posterior {
+            format!(
+                "<td>{}</td><td>{}</td>",
+                escape(
+                    &p.posterior_interval_95()
+                        .map_or_else(|| "–".into(), |(a, b)| crate::headless::interval_text(a, b))
+                ),
+                p.posterior_median.map_or_else(|| "–".into(), format_value)
+            )
+        } else {
+            String::new()
+        };
         let _ = writeln!(
             html,
-            "<tr><td>{}</td><td><code>{}</code></td><td>{}</td><td>{}</td><td>{}</td><td>{} … {}</td><td>{}</td><td>{}</td></tr>",
+            "<tr><td>{}</td><td><code>{}</code></td><td>{}</td><td>{}</td><td>{}</td>{posterior}<td>{} … {}</td><td>{}</td><td>{}</td></tr>",
             k + 1,
             escape(&p.name),
             escape(&p.unit),
@@ -671,6 +800,7 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
         );
     }
     html.push_str("</table>\n");
+    html.push_str(&uncertainty_section(s));
     html.push_str(
         "<h2>Fit quality per case</h2>\n<p>Cost: weight · Σ((model − measured)/σ)². Normalised RMSE: \
          RMS(model − measured) / measured peak.</p>\n<table>\n<tr><th>case</th><th>signal</th><th>points (count)</th>\
@@ -727,7 +857,16 @@ fn report_html(parts: &ReportParts<'_>) -> Result<String, ReportError> {
         html.push_str("</table>\n");
     }
     if !parts.band_sections.is_empty() {
-        html.push_str("<h2>Predicted test quantities</h2>\n");
+        let _ = writeln!(
+            html,
+            "<h2>Predicted test quantities</h2>\n<p>The <strong>{PARAMETER_BAND}</strong> holds the \
+             fitted parameters' uncertainty alone (parameter sets from the posterior sample when \
+             the run has one, else from the sandwich covariance). The <strong>{PREDICTION_BAND}\
+             </strong> also holds the repeats' relative scatter and the model's relative error \
+             at the calibration conditions (the two percentage columns); it assumes the model \
+             errs at a new condition as much as at the calibration conditions. The HRR curves' \
+             shaded bands are {PARAMETER_BAND}s.</p>"
+        );
         for section in parts.band_sections {
             html.push_str(section);
         }

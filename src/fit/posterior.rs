@@ -17,8 +17,11 @@
 //!
 //! Deterministic: the same objective, start, seed and settings give the same sample on any
 //! number of threads or ranks (the random numbers are drawn on the calling thread, in order).
+//! After every step the caller is shown the whole [`SamplerState`] (walkers, chain so far,
+//! counts and the random stream's position); continued from it, the sample ends in the same
+//! bits as one drawn without a break.
 
-use std::sync::atomic::{AtomicBool, Ordering};
+use std::time::Instant;
 
 use nalgebra::{DMatrix, DVector, SymmetricEigen};
 use rand::{Rng, SeedableRng};
@@ -95,14 +98,90 @@ pub enum PosteriorError {
     Settings { steps: usize, burn_in: usize },
     #[error("no starting point of the posterior sample could be simulated: {0}")]
     NoStart(String),
+    /// A state to continue from that does not fit the settings (walkers, dimensions, counts).
+    #[error("the posterior sample cannot continue from its saved state: {0}")]
+    State(String),
 }
 
-/// What the caller is told after every step: (step, steps, acceptance so far).
-pub type StepReport<'a> = dyn FnMut(usize, usize, f64) + 'a;
+/// Where the sampler stands after a step, all in fit space: from it, [`sample`] continues to
+/// the same bits as a sample drawn without a break. Written to disk by `run::posterior`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct SamplerState {
+    /// Steps completed, burn-in included.
+    pub step: usize,
+    /// Every walker's position and cost (Σ r² as in [`Posterior::costs`]).
+    pub positions: Vec<Vec<f64>>,
+    pub costs: Vec<f64>,
+    /// The points kept so far (after burn-in), walker by walker within a step, and their costs.
+    pub samples: Vec<Vec<f64>>,
+    pub kept_costs: Vec<f64>,
+    /// Moves accepted and proposed after burn-in.
+    pub accepted: usize,
+    pub proposed: usize,
+    /// Lowest cost met and where.
+    pub lowest_cost: f64,
+    pub lowest_point: Vec<f64>,
+    /// Words drawn from the ChaCha8 stream seeded by `PosteriorSettings::seed`.
+    pub rng_word_pos: u128,
+    /// Seconds spent sampling so far, over every process that worked on this sample.
+    pub elapsed_s: f64,
+}
+
+impl SamplerState {
+    /// Fraction of moves accepted after burn-in; NaN before the first.
+    pub fn acceptance(&self) -> f64 {
+        if self.proposed > 0 {
+            self.accepted as f64 / self.proposed as f64
+        } else {
+            f64::NAN
+        }
+    }
+
+    /// Why this state cannot be continued with `settings` in `p` dimensions, if it cannot.
+    fn check(&self, settings: &PosteriorSettings, walkers: usize, p: usize) -> Result<(), String> {
+        let kept_steps = self.step.saturating_sub(settings.burn_in);
+        let problem = if self.step > settings.steps {
+            format!("it is at step {} of {}", self.step, settings.steps)
+        } else if self.positions.len() != walkers || self.costs.len() != walkers {
+            format!(
+                "it has {} walkers, the settings {walkers}",
+                self.positions.len()
+            )
+        } else if self
+            .positions
+            .iter()
+            .chain(&self.samples)
+            .chain(std::iter::once(&self.lowest_point))
+            .any(|x| x.len() != p)
+        {
+            format!("a point does not have the {p} parameters")
+        } else if self.samples.len() != kept_steps * walkers
+            || self.kept_costs.len() != self.samples.len()
+        {
+            format!(
+                "it holds {} kept points, and {kept_steps} steps after burn-in of {walkers} \
+                 walkers make {}",
+                self.samples.len(),
+                kept_steps * walkers
+            )
+        } else if self.accepted > self.proposed {
+            "more moves accepted than proposed".to_string()
+        } else {
+            return Ok(());
+        };
+        Err(problem)
+    }
+}
+
+/// Told after every step; returns false to end the sample there (a stop request). The
+/// sample's length, `PosteriorSettings::steps`, is the caller's.
+pub type StepReport<'a> = dyn FnMut(&SamplerState) -> bool + 'a;
 
 /// Samples the posterior of `objective` from a start around `best` (file units) spread by
 /// `covariance` (fit space, p × p; non-finite or zero variances start at a tenth of the
-/// range), each half-step's proposals evaluated as one batch by `evaluator`.
+/// range), each half-step's proposals evaluated as one batch by `evaluator`; or continues
+/// from `resume`, a state `report` was shown by a sample of the same objective, start and
+/// settings.
 #[allow(clippy::too_many_arguments)]
 pub fn sample<M: Model, E: Evaluator>(
     objective: &Objective<'_, M>,
@@ -111,7 +190,7 @@ pub fn sample<M: Model, E: Evaluator>(
     covariance: &[Vec<f64>],
     temperature: f64,
     settings: &PosteriorSettings,
-    stop: &AtomicBool,
+    resume: Option<SamplerState>,
     report: &mut StepReport<'_>,
 ) -> Result<Posterior, PosteriorError> {
     let parameters = objective.parameters();
@@ -152,7 +231,7 @@ pub fn sample<M: Model, E: Evaluator>(
         covariance,
         temperature,
         settings,
-        stop,
+        resume,
         &mut costs,
         report,
     )?;
@@ -185,7 +264,7 @@ pub fn sample_in_fit_space(
     covariance: &[Vec<f64>],
     temperature: f64,
     settings: &PosteriorSettings,
-    stop: &AtomicBool,
+    resume: Option<SamplerState>,
     costs_of: &mut BatchCost<'_>,
     report: &mut StepReport<'_>,
 ) -> Result<Posterior, PosteriorError> {
@@ -207,7 +286,6 @@ pub fn sample_in_fit_space(
     } else {
         1.0
     };
-    let spread = start_spread(covariance, lower, upper);
     let mut rng = ChaCha8Rng::seed_from_u64(settings.seed);
     let log_density = |cost: f64| -> f64 {
         if cost.is_finite() && cost < super::objective::FAILED_SIMULATION_PENALTY {
@@ -216,57 +294,31 @@ pub fn sample_in_fit_space(
             f64::NEG_INFINITY
         }
     };
-    // The start: the best point and draws about it, each inside the bounds.
-    let mut positions: Vec<Vec<f64>> = (0..walkers)
-        .map(|k| {
-            if k == 0 {
-                return centre.clone();
-            }
-            let xi: Vec<f64> = (0..p).map(|_| rng.sample(StandardNormal)).collect();
-            let mut scale = 1.0;
-            loop {
-                let x: Vec<f64> = (0..p)
-                    .map(|i| {
-                        centre[i] + scale * (0..p).map(|j| spread[(i, j)] * xi[j]).sum::<f64>()
-                    })
-                    .collect();
-                if inside(&x, lower, upper) || scale < 1e-6 {
-                    break x
-                        .iter()
-                        .enumerate()
-                        .map(|(i, &c)| c.clamp(lower[i], upper[i]))
-                        .collect();
-                }
-                scale *= 0.5;
-            }
-        })
-        .collect();
-    let start = costs_of(&positions);
-    let mut costs: Vec<f64> = start.iter().map(|e| e.0).collect();
-    if !log_density(costs[0]).is_finite() {
-        return Err(PosteriorError::NoStart(
-            start[0]
-                .1
-                .clone()
-                .unwrap_or_else(|| "the best point failed".into()),
-        ));
-    }
-    // A walker whose start failed begins at the best point (the stretch moves it off).
-    for k in 0..walkers {
-        if !log_density(costs[k]).is_finite() {
-            positions[k] = centre.clone();
-            costs[k] = costs[0];
+    let clock = Instant::now();
+    let mut state = match resume {
+        Some(state) => {
+            state
+                .check(settings, walkers, p)
+                .map_err(PosteriorError::State)?;
+            rng.set_word_pos(state.rng_word_pos);
+            state
         }
-    }
-    let mut lowest = (costs[0], centre.clone());
-    let (mut samples, mut kept_costs) = (Vec::new(), Vec::new());
-    let (mut accepted, mut proposed) = (0usize, 0usize);
-    let mut steps_taken = 0;
+        None => start_state(
+            &centre,
+            &start_spread(covariance, lower, upper),
+            (lower, upper),
+            walkers,
+            &mut rng,
+            &log_density,
+            costs_of,
+        )?,
+    };
+    let elapsed_before_s = state.elapsed_s;
     let half = walkers / 2;
-    for step in 0..settings.steps {
-        if stop.load(Ordering::Relaxed) {
-            break;
-        }
+    while state.step < settings.steps {
+        let step = state.step;
+        let positions = &mut state.positions;
+        let costs = &mut state.costs;
         for first in [true, false] {
             let (moving, others) = if first {
                 (0..half, half..walkers)
@@ -305,50 +357,112 @@ pub fn sample_in_fit_space(
                 let log_ratio = (p as f64 - 1.0) * stretches[i].ln() + log_density(new_cost[i])
                     - log_density(costs[k]);
                 if step >= settings.burn_in {
-                    proposed += 1;
+                    state.proposed += 1;
                 }
                 if log_ratio.is_finite() && u.ln() < log_ratio {
                     positions[k] = proposals[i].clone();
                     costs[k] = new_cost[i];
                     if step >= settings.burn_in {
-                        accepted += 1;
+                        state.accepted += 1;
                     }
-                    if costs[k] < lowest.0 {
-                        lowest = (costs[k], positions[k].clone());
+                    if costs[k] < state.lowest_cost {
+                        state.lowest_cost = costs[k];
+                        state.lowest_point = positions[k].clone();
                     }
                 }
             }
         }
-        steps_taken = step + 1;
         if step >= settings.burn_in {
-            for k in 0..walkers {
-                samples.push(positions[k].clone());
-                kept_costs.push(costs[k]);
-            }
+            state.samples.extend(positions.iter().cloned());
+            state.kept_costs.extend(costs.iter().copied());
         }
-        let acceptance = if proposed > 0 {
-            accepted as f64 / proposed as f64
-        } else {
-            f64::NAN
-        };
-        report(step + 1, settings.steps, acceptance);
+        state.step = step + 1;
+        state.rng_word_pos = rng.get_word_pos();
+        state.elapsed_s = elapsed_before_s + clock.elapsed().as_secs_f64();
+        if !report(&state) {
+            break;
+        }
     }
     Ok(Posterior {
         names: space.names.clone(),
-        samples,
-        costs: kept_costs,
-        acceptance: if proposed > 0 {
-            accepted as f64 / proposed as f64
-        } else {
-            f64::NAN
-        },
+        acceptance: state.acceptance(),
+        samples: state.samples,
+        costs: state.kept_costs,
         temperature,
         walkers,
-        steps: steps_taken,
+        steps: state.step,
         burn_in: settings.burn_in,
-        lowest_cost: lowest.0,
-        lowest_cost_values: lowest.1,
-        stopped: steps_taken < settings.steps,
+        lowest_cost: state.lowest_cost,
+        lowest_cost_values: state.lowest_point,
+        stopped: state.step < settings.steps,
+    })
+}
+
+/// The sampler's start: the best point and draws about it spread by `spread`, each inside the
+/// bounds, and their costs; a walker whose start fails begins at the best point.
+fn start_state(
+    centre: &[f64],
+    spread: &DMatrix<f64>,
+    (lower, upper): (&[f64], &[f64]),
+    walkers: usize,
+    rng: &mut ChaCha8Rng,
+    log_density: &dyn Fn(f64) -> f64,
+    costs_of: &mut BatchCost<'_>,
+) -> Result<SamplerState, PosteriorError> {
+    let p = centre.len();
+    let mut positions: Vec<Vec<f64>> = (0..walkers)
+        .map(|k| {
+            if k == 0 {
+                return centre.to_vec();
+            }
+            let xi: Vec<f64> = (0..p).map(|_| rng.sample(StandardNormal)).collect();
+            let mut scale = 1.0;
+            loop {
+                let x: Vec<f64> = (0..p)
+                    .map(|i| {
+                        centre[i] + scale * (0..p).map(|j| spread[(i, j)] * xi[j]).sum::<f64>()
+                    })
+                    .collect();
+                if inside(&x, lower, upper) || scale < 1e-6 {
+                    break x
+                        .iter()
+                        .enumerate()
+                        .map(|(i, &c)| c.clamp(lower[i], upper[i]))
+                        .collect();
+                }
+                scale *= 0.5;
+            }
+        })
+        .collect();
+    let start = costs_of(&positions);
+    let mut costs: Vec<f64> = start.iter().map(|e| e.0).collect();
+    if !log_density(costs[0]).is_finite() {
+        return Err(PosteriorError::NoStart(
+            start[0]
+                .1
+                .clone()
+                .unwrap_or_else(|| "the best point failed".into()),
+        ));
+    }
+    // A walker whose start failed begins at the best point (the stretch moves it off).
+    for k in 0..walkers {
+        if !log_density(costs[k]).is_finite() {
+            positions[k] = centre.to_vec();
+            costs[k] = costs[0];
+        }
+    }
+    Ok(SamplerState {
+        step: 0,
+        lowest_cost: costs[0],
+        lowest_point: centre.to_vec(),
+        positions,
+        costs,
+        samples: Vec::new(),
+        kept_costs: Vec::new(),
+        accepted: 0,
+        proposed: 0,
+        rng_word_pos: rng.get_word_pos(),
+        elapsed_s: 0.0,
     })
 }
 
@@ -429,7 +543,6 @@ mod tests {
             burn_in: 300,
             seed: 7,
         };
-        let no = AtomicBool::new(false);
         for temperature in [1.0, 4.0] {
             let posterior = sample_in_fit_space(
                 &space,
@@ -437,9 +550,9 @@ mod tests {
                 &[vec![0.1, 0.0], vec![0.0, 0.1]],
                 temperature,
                 &settings,
-                &no,
+                None,
                 &mut |points| gaussian(points, inverse),
-                &mut |_, _, _| {},
+                &mut |_| true,
             )
             .unwrap();
             let t = temperature.sqrt();
@@ -478,7 +591,6 @@ mod tests {
             burn_in: 200,
             seed: 3,
         };
-        let no = AtomicBool::new(false);
         let run = || {
             sample_in_fit_space(
                 &space,
@@ -486,9 +598,9 @@ mod tests {
                 &[vec![0.01, 0.0], vec![0.0, 0.01]],
                 1.0,
                 &settings,
-                &no,
+                None,
                 &mut |points| points.iter().map(|_| (0.0, None)).collect(),
-                &mut |_, _, _| {},
+                &mut |_| true,
             )
             .unwrap()
         };
@@ -510,7 +622,6 @@ mod tests {
             lower: vec![-1.0],
             upper: vec![1.0],
         };
-        let stop = AtomicBool::new(false);
         let settings = PosteriorSettings {
             walkers: 4,
             steps: 100,
@@ -523,17 +634,85 @@ mod tests {
             &[vec![0.01]],
             1.0,
             &settings,
-            &stop,
+            None,
             &mut |points| points.iter().map(|x| (x[0] * x[0], None)).collect(),
-            &mut |step, _, _| {
-                if step == 10 {
-                    stop.store(true, Ordering::Relaxed);
-                }
-            },
+            &mut |state| state.step != 10,
         )
         .unwrap();
         assert!(posterior.stopped);
         assert_eq!(posterior.steps, 10);
         assert_eq!(posterior.samples.len(), 5 * posterior.walkers);
+    }
+
+    /// A sample stopped at any step and continued from the state it was shown ends in the same
+    /// bits as one drawn without a break (the property `fit --resume` relies on), through the
+    /// burn-in's end and the random stream's 64-word block boundaries alike.
+    #[test]
+    fn a_sample_continued_from_a_saved_state_equals_one_drawn_without_a_break() {
+        let (s1, s2, rho) = (1.0f64, 0.5f64, -0.6f64);
+        let det = s1 * s1 * s2 * s2 * (1.0 - rho * rho);
+        let inverse = [
+            [s2 * s2 / det, -rho * s1 * s2 / det],
+            [-rho * s1 * s2 / det, s1 * s1 / det],
+        ];
+        let space = FitSpace {
+            names: vec!["a".into(), "b".into()],
+            lower: vec![-3.0, -3.0],
+            upper: vec![3.0, 3.0],
+        };
+        let settings = PosteriorSettings {
+            walkers: 6,
+            steps: 60,
+            burn_in: 20,
+            seed: 11,
+        };
+        let run = |resume: Option<SamplerState>, stop_at: usize| {
+            let mut saved = None;
+            let posterior = sample_in_fit_space(
+                &space,
+                &[0.2, 0.1],
+                &[vec![0.04, 0.0], vec![0.0, 0.04]],
+                2.0,
+                &settings,
+                resume,
+                &mut |points| gaussian(points, inverse),
+                &mut |state| {
+                    saved = Some(state.clone());
+                    state.step != stop_at
+                },
+            )
+            .unwrap();
+            (posterior, saved)
+        };
+        let (whole, _) = run(None, usize::MAX);
+        assert!(!whole.stopped);
+        assert_eq!(whole.samples.len(), 40 * whole.walkers);
+        for stop_at in [1, 19, 20, 21, 37, 59] {
+            let (part, saved) = run(None, stop_at);
+            assert!(part.stopped, "{stop_at}");
+            let saved = saved.expect("a state after the first step");
+            assert_eq!(saved.step, stop_at);
+            let (continued, _) = run(Some(saved), usize::MAX);
+            assert_eq!(continued.steps, whole.steps);
+            assert_eq!(continued.samples, whole.samples, "stopped at {stop_at}");
+            assert_eq!(continued, whole, "stopped at {stop_at}");
+        }
+        // A state that does not fit the settings is refused, not sampled on.
+        let (_, saved) = run(None, 30);
+        let mut wrong = saved.unwrap();
+        wrong.samples.pop();
+        assert!(matches!(
+            sample_in_fit_space(
+                &space,
+                &[0.2, 0.1],
+                &[vec![0.04, 0.0], vec![0.0, 0.04]],
+                2.0,
+                &settings,
+                Some(wrong),
+                &mut |points| gaussian(points, inverse),
+                &mut |_| true,
+            ),
+            Err(PosteriorError::State(_))
+        ));
     }
 }

@@ -68,7 +68,7 @@ pub fn fit_summary_table(summary: &RunSummary, labels: &[ParameterLabel]) -> Str
             p.unit,
             interval
         ));
-        if let Some((a, b)) = p.posterior_95 {
+        if let Some((a, b)) = p.posterior_interval_95() {
             out.push_str(&format!(
                 "  {:<label_width$} {:>10} {:<9} {}
 ",
@@ -112,9 +112,16 @@ pub fn fit_summary_table(summary: &RunSummary, labels: &[ParameterLabel]) -> Str
             posterior.points,
             100.0 * posterior.acceptance,
             if posterior.stopped {
-                ", stopped early"
+                format!(
+                    "; stopped on request at step {}{}, the points drawn so far are kept and \
+                     `emberfit fit --resume` continues the sample",
+                    posterior.steps,
+                    posterior
+                        .requested_steps
+                        .map_or_else(String::new, |n| format!(" of {n}"))
+                )
             } else {
-                ""
+                String::new()
             }
         );
         for line in wrapped(&text, WIDTH - 2) {
@@ -177,7 +184,8 @@ mod tests {
                 sensitivity: Some(4.0),
                 sensitivity_rank: Some(1),
                 warnings: vec![],
-                posterior_95: None,
+                posterior_lower_95: None,
+                posterior_upper_95: None,
                 posterior_median: None,
             }],
             correlation: vec![vec![1.0]],
@@ -243,7 +251,8 @@ mod tests {
     #[test]
     fn a_posterior_sample_adds_its_interval_under_each_parameter() {
         let mut summary = summary(true);
-        summary.parameters[0].posterior_95 = Some((0.19, 0.28));
+        summary.parameters[0].posterior_lower_95 = Some(0.19);
+        summary.parameters[0].posterior_upper_95 = Some(0.28);
         summary.posterior = Some(crate::run::PosteriorInfo {
             file: "posterior.json".into(),
             walkers: 10,
@@ -254,6 +263,7 @@ mod tests {
             temperature: 1.5,
             lowest_cost: 12.0,
             stopped: false,
+            requested_steps: Some(40),
         });
         let table = fit_summary_table(&summary, &labels());
         let lines: Vec<&str> = table.lines().collect();
@@ -263,6 +273,35 @@ mod tests {
         );
         assert!(table.contains("posterior sample (300 points, 41 % of moves accepted;"));
         assert!(lines.iter().all(|l| l.chars().count() <= 80));
+        assert!(!table.contains("stopped"));
+    }
+
+    /// A sample cut short by a stop request keeps its points and says where it stopped and
+    /// how to go on.
+    #[test]
+    fn a_stopped_posterior_sample_says_so_and_how_to_continue_it() {
+        let mut summary = summary(true);
+        summary.parameters[0].posterior_lower_95 = Some(0.19);
+        summary.parameters[0].posterior_upper_95 = Some(0.28);
+        summary.posterior = Some(crate::run::PosteriorInfo {
+            file: "posterior.json".into(),
+            walkers: 10,
+            steps: 25,
+            burn_in: 10,
+            points: 150,
+            acceptance: 0.4,
+            temperature: 1.5,
+            lowest_cost: 12.0,
+            stopped: true,
+            requested_steps: Some(40),
+        });
+        let table = fit_summary_table(&summary, &labels());
+        let text = table.split_whitespace().collect::<Vec<_>>().join(" ");
+        assert!(
+            text.contains("stopped on request at step 25 of 40, the points drawn so far are kept and `emberfit fit --resume` continues the sample"),
+            "{table}"
+        );
+        assert!(table.lines().all(|l| l.chars().count() <= 80));
     }
 
     #[test]

@@ -1,6 +1,7 @@
 //! What makes a run the same run: its name (one path component under the runs folder), the
 //! job it was started with (SHA-256 of the job file) and every command-line override, stored
-//! in run.toml at the start and reused by `--resume`.
+//! in run.toml at the start and reused by `--resume`; and what makes a posterior sample the
+//! same sample ([`SampleStart`], stored in its checkpoint).
 
 use serde::{Deserialize, Serialize};
 
@@ -62,9 +63,113 @@ pub fn stored_threads(run_dir: &std::path::Path) -> Option<usize> {
         .threads
 }
 
+/// What a posterior sample starts from. Its checkpoint (`posterior-checkpoint.json`) is
+/// continued only by a sample with the same start: the same job file, parameters, best
+/// point, likelihood temperature and sampler settings (seed included).
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct SampleStart {
+    /// SHA-256 of the job file the sample was drawn for.
+    pub job_sha256: String,
+    pub names: Vec<String>,
+    /// The optimiser's best point, file units.
+    pub best: Vec<f64>,
+    pub temperature: f64,
+    pub walkers: usize,
+    pub steps: usize,
+    pub burn_in: usize,
+    pub seed: u64,
+}
+
+/// Checks that a saved sample may be continued by the sample about to start; the error names
+/// every difference (stored value first).
+pub fn check_sample_start(stored: &SampleStart, now: &SampleStart) -> Result<(), String> {
+    let mut differences = Vec::new();
+    if stored.job_sha256 != now.job_sha256 {
+        differences.push(format!(
+            "the job file (SHA-256 {:.12}… then, {:.12}… now)",
+            stored.job_sha256, now.job_sha256
+        ));
+    }
+    if stored.names != now.names {
+        differences.push(format!(
+            "the parameters ({} then, {} now)",
+            stored.names.join(", "),
+            now.names.join(", ")
+        ));
+    }
+    // Bit for bit: a resumed sample must equal an uninterrupted one.
+    let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+    if bits(&stored.best) != bits(&now.best) {
+        differences.push(format!(
+            "the best point ({:?} then, {:?} now)",
+            stored.best, now.best
+        ));
+    }
+    if stored.temperature.to_bits() != now.temperature.to_bits() {
+        differences.push(format!(
+            "the likelihood temperature ({} then, {} now)",
+            stored.temperature, now.temperature
+        ));
+    }
+    for (name, then, current) in [
+        ("walkers", stored.walkers, now.walkers),
+        ("steps", stored.steps, now.steps),
+        ("burn-in", stored.burn_in, now.burn_in),
+    ] {
+        if then != current {
+            differences.push(format!("the {name} ({then} then, {current} now)"));
+        }
+    }
+    if stored.seed != now.seed {
+        differences.push(format!("the seed ({} then, {} now)", stored.seed, now.seed));
+    }
+    if differences.is_empty() {
+        Ok(())
+    } else {
+        Err(differences.join("; "))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    fn start() -> SampleStart {
+        SampleStart {
+            job_sha256: "ab".repeat(32),
+            names: vec!["k".into(), "h".into()],
+            best: vec![0.17, 1100.0],
+            temperature: 2.5,
+            walkers: 8,
+            steps: 120,
+            burn_in: 40,
+            seed: 3,
+        }
+    }
+
+    #[test]
+    fn a_sample_continues_only_from_the_same_start() {
+        assert_eq!(check_sample_start(&start(), &start()), Ok(()));
+        let other_job = SampleStart {
+            job_sha256: "cd".repeat(32),
+            ..start()
+        };
+        let problem = check_sample_start(&start(), &other_job).unwrap_err();
+        assert!(problem.contains("the job file"), "{problem}");
+        let moved = SampleStart {
+            best: vec![0.17, 1100.0 + 1e-9],
+            steps: 200,
+            ..start()
+        };
+        let problem = check_sample_start(&start(), &moved).unwrap_err();
+        assert!(problem.contains("the best point"), "{problem}");
+        assert!(
+            problem.contains("the steps (120 then, 200 now)"),
+            "{problem}"
+        );
+        let reseeded = SampleStart { seed: 4, ..start() };
+        assert!(check_sample_start(&start(), &reseeded).is_err());
+    }
 
     #[test]
     fn names_that_leave_the_runs_folder_are_refused() {

@@ -5,12 +5,14 @@
 //! progress.jsonl   one event per line (append-only)   checkpoint.json  the engine state
 //! best.toml        the calibrated material model      parameters.csv   fitted values, intervals
 //! cases/*.csv      measured vs model and residuals    summary.json     the final figures
+//! posterior.json   the posterior sample (if asked)    posterior-checkpoint.json  the sampler's state
 //! ```
 //!
 //! **Invariant:** `run` is the only module that knows these formats, one submodule per file:
 //! `record` (run.toml), `checkpoint` (checkpoint.json, the serde of the engine's state),
 //! `best` (best.toml), `progress` (progress.jsonl, strict and lenient readers), `summary`
-//! (summary.json, parameters.csv), `curves` (cases/), `lock` (run.lock); this file runs a fit
+//! (summary.json, parameters.csv), `curves` (cases/), `lock` (run.lock), `posterior`
+//! (posterior.json, posterior-checkpoint.json); this file runs a fit
 //! and writes job.toml. Viewers (tui, report, predict) read a run directory only through them.
 //! Every file but the append-only log is replaced atomically, so a run killed at any moment
 //! resumes from its last checkpoint.
@@ -46,6 +48,7 @@ use crate::fit::engine::{
 use crate::fit::evaluator::{Evaluator, Local};
 use crate::fit::identifiability::analyse_on;
 use crate::fit::objective::Objective;
+use crate::fit::posterior::SamplerState;
 use best::write_best_model;
 use progress::{ParameterInfo, PartInfo, ProgressEvent, ProgressWriter, FORMAT_VERSION};
 
@@ -80,6 +83,9 @@ pub enum RunError {
     Corrupt { path: PathBuf, problem: String },
     #[error("cannot write the calibrated model: {0}")]
     Export(#[from] crate::export::material::ExportError),
+    /// The saved posterior sample was drawn from another start than the one now due.
+    #[error("{} holds a posterior sample drawn from another start ({differences}), so it cannot be continued; start a new run (or delete that file to draw the sample again)", path.display())]
+    OtherSample { path: PathBuf, differences: String },
 }
 
 fn io(action: &'static str, path: &Path) -> impl FnOnce(std::io::Error) -> RunError {
@@ -128,6 +134,10 @@ impl RunDirectory {
     /// `posterior.json`: the posterior sample (`fit::posterior::Posterior`).
     pub fn posterior(&self) -> PathBuf {
         self.root.join("posterior.json")
+    }
+    /// `posterior-checkpoint.json`: the sampler's state while it samples (`run::posterior`).
+    pub fn posterior_checkpoint(&self) -> PathBuf {
+        self.root.join("posterior-checkpoint.json")
     }
     pub fn cases(&self) -> PathBuf {
         self.root.join("cases")
@@ -420,7 +430,9 @@ pub fn run_fit_on<E: Evaluator>(
             }
         }
         let state = checkpoint::read_checkpoint(&dir)?;
-        progress::trim_to_iteration(&dir.progress(), state.iteration)?;
+        // The sample's log lines past its checkpoint are drawn again.
+        let sample_step = posterior::read_sample_checkpoint(&dir)?.map_or(0, |c| c.state.step);
+        progress::trim_to_iteration(&dir.progress(), state.iteration, sample_step)?;
         let iteration = state.iteration;
         (state, Some(iteration))
     } else {
@@ -459,6 +471,16 @@ pub fn run_fit_on<E: Evaluator>(
         data_sha256: hashes.iter().map(|(k, v)| (k.clone(), v.clone())).collect(),
         not_converged: Some("the fit is still running".into()),
     };
+    // The sample's seed is the run's (run.toml), as the optimiser's is.
+    let mut job = job;
+    if let Some(posterior) = job.settings.posterior.as_mut() {
+        posterior.seed = settings.seed;
+    }
+    let job = job;
+    let job_sha256 = hashes
+        .get(&job_path.display().to_string())
+        .cloned()
+        .unwrap_or_default();
     let model = CaseModel::new(&job);
     let mut recorder = Recorder {
         dir: &dir,
@@ -518,18 +540,23 @@ pub fn run_fit_on<E: Evaluator>(
         });
         return Err(err);
     }
-    let started = std::time::Instant::now();
-    let mut posterior_step = |step: usize, steps: usize, acceptance: f64| {
+    // After every step of the posterior sample: its log line, then a pause or stop request
+    // is honoured as between the optimiser's generations.
+    let burn_in = job.settings.posterior.as_ref().map_or(0, |p| p.burn_in);
+    let mut posterior_step = |state: &SamplerState, steps: usize| -> bool {
+        let acceptance = state.acceptance();
         recorder.write_event(&ProgressEvent::Posterior {
-            step,
+            step: state.step,
             steps,
+            burn_in,
             acceptance: if acceptance.is_finite() {
                 acceptance
             } else {
                 0.0
             },
-            elapsed_s: started.elapsed().as_secs_f64(),
+            elapsed_s: state.elapsed_s,
         });
+        !recorder.should_stop()
     };
     let summary = match finish(
         &dir,
@@ -538,7 +565,11 @@ pub fn run_fit_on<E: Evaluator>(
         (&objective, evaluator),
         &model,
         (&outcome, &provenance),
-        (&stop, &mut posterior_step),
+        SampleControl {
+            stop: &stop,
+            step: &mut posterior_step,
+            job_sha256: &job_sha256,
+        },
     ) {
         Ok(summary) => summary,
         Err(err) => {
@@ -626,6 +657,84 @@ fn resumed_options(
     })
 }
 
+/// The shortest time between two posterior checkpoints (the chain grows with every step, so
+/// it is not rewritten after each); the last step and a stop are always saved.
+const SAMPLE_CHECKPOINT_EVERY: std::time::Duration = std::time::Duration::from_secs(2);
+
+/// What `finish` needs to run the posterior sample: the stop flag, the step report (log line,
+/// pause and stop; false ends the sample) and the job's SHA-256 for the sample's fingerprint.
+struct SampleControl<'a, 'b> {
+    stop: &'a AtomicBool,
+    step: &'a mut (dyn FnMut(&SamplerState, usize) -> bool + 'b),
+    job_sha256: &'a str,
+}
+
+/// Draws the posterior sample, or continues the one saved in posterior-checkpoint.json when
+/// it was drawn from the same start (else [`RunError::OtherSample`]); saves the sampler's
+/// state every [`SAMPLE_CHECKPOINT_EVERY`], at the last step and at a stop.
+#[allow(clippy::too_many_arguments)]
+fn draw_posterior<E: Evaluator>(
+    dir: &RunDirectory,
+    job: &FitJob,
+    (objective, evaluator): (&Objective<'_, CaseModel<'_>>, &E),
+    best_values: &[f64],
+    analysis: &crate::fit::identifiability::Identifiability,
+    settings: &crate::fit::posterior::PosteriorSettings,
+    control: SampleControl<'_, '_>,
+) -> Result<Result<crate::fit::posterior::Posterior, String>, RunError> {
+    let start = fingerprint::SampleStart {
+        job_sha256: control.job_sha256.to_string(),
+        names: job.parameters.iter().map(|p| p.name.clone()).collect(),
+        best: best_values.to_vec(),
+        temperature: analysis.likelihood_temperature,
+        walkers: settings.walkers,
+        steps: settings.steps,
+        burn_in: settings.burn_in,
+        seed: settings.seed,
+    };
+    let resume = match posterior::read_sample_checkpoint(dir)? {
+        Some(saved) => {
+            fingerprint::check_sample_start(&saved.start, &start).map_err(|differences| {
+                RunError::OtherSample {
+                    path: dir.posterior_checkpoint(),
+                    differences,
+                }
+            })?;
+            Some(saved.state)
+        }
+        None => None,
+    };
+    let mut written_at = std::time::Instant::now();
+    let mut write_error = None;
+    let step = control.step;
+    let mut report = |state: &SamplerState| -> bool {
+        let go_on = step(state, settings.steps);
+        if !go_on || state.step == settings.steps || written_at.elapsed() >= SAMPLE_CHECKPOINT_EVERY
+        {
+            if let Err(err) = posterior::write_sample_checkpoint(dir, &start, state) {
+                write_error = Some(err);
+                return false;
+            }
+            written_at = std::time::Instant::now();
+        }
+        go_on
+    };
+    let result = crate::fit::posterior::sample(
+        objective,
+        evaluator,
+        best_values,
+        &analysis.covariance,
+        analysis.likelihood_temperature,
+        settings,
+        resume,
+        &mut report,
+    );
+    if let Some(err) = write_error {
+        return Err(err);
+    }
+    Ok(result.map_err(|e| e.to_string()))
+}
+
 fn finish<E: Evaluator>(
     dir: &RunDirectory,
     job: &FitJob,
@@ -633,7 +742,7 @@ fn finish<E: Evaluator>(
     (objective, evaluator): (&Objective<'_, CaseModel<'_>>, &E),
     model: &CaseModel<'_>,
     (outcome, provenance): (&Outcome, &Provenance),
-    (stop, posterior_step): (&AtomicBool, &mut crate::fit::posterior::StepReport<'_>),
+    control: SampleControl<'_, '_>,
 ) -> Result<RunSummary, RunError> {
     let analysis = analyse_on(objective, evaluator, &outcome.best_values);
     let (analysis, problem) = match analysis {
@@ -642,24 +751,32 @@ fn finish<E: Evaluator>(
     };
     // A sample that cannot be drawn must not cost the fit its outputs: it is left out and
     // summary.json says why (`posterior_problem`).
+    let stop_requested = control.stop.load(Ordering::Relaxed);
     let (posterior, posterior_problem) = match (&job.settings.posterior, &analysis) {
-        (Some(settings), Some(analysis)) if !stop.load(Ordering::Relaxed) => {
-            match crate::fit::posterior::sample(
-                objective,
-                evaluator,
+        (Some(settings), Some(analysis)) if !stop_requested => {
+            match draw_posterior(
+                dir,
+                job,
+                (objective, evaluator),
                 &outcome.best_values,
-                &analysis.covariance,
-                analysis.likelihood_temperature,
+                analysis,
                 settings,
-                stop,
-                posterior_step,
-            ) {
+                control,
+            )? {
                 Ok(sample) if !sample.samples.is_empty() => {
                     posterior::write_posterior(dir, &sample)?;
                     (Some(sample), None)
                 }
-                Ok(_) => (None, Some("stopped before any point was kept".to_string())),
-                Err(e) => (None, Some(e.to_string())),
+                Ok(sample) => (
+                    None,
+                    Some(format!(
+                        "stopped on request at step {} of {}, before the burn-in ({} steps) \
+                         ended, so no point was kept; `emberfit fit --resume` continues the \
+                         sample from posterior-checkpoint.json",
+                        sample.steps, settings.steps, settings.burn_in
+                    )),
+                ),
+                Err(e) => (None, Some(e)),
             }
         }
         (Some(_), None) => (
@@ -713,9 +830,8 @@ fn finish<E: Evaluator>(
                     .filter(|v| v.is_finite()),
                 sensitivity: estimate.map(|e| e.sensitivity),
                 sensitivity_rank: estimate.map(|e| e.sensitivity_rank),
-                posterior_95: posterior
-                    .as_ref()
-                    .map(|s| (s.quantile(i, 0.025), s.quantile(i, 0.975))),
+                posterior_lower_95: posterior.as_ref().map(|s| s.quantile(i, 0.025)),
+                posterior_upper_95: posterior.as_ref().map(|s| s.quantile(i, 0.975)),
                 posterior_median: posterior.as_ref().map(|s| s.quantile(i, 0.5)),
                 warnings: estimate.map_or_else(Vec::new, |e| {
                     e.warnings.iter().map(|w| w.to_string()).collect()
@@ -776,6 +892,7 @@ fn finish<E: Evaluator>(
             temperature: s.temperature,
             lowest_cost: s.lowest_cost,
             stopped: s.stopped,
+            requested_steps: job.settings.posterior.as_ref().map(|p| p.steps),
         }),
     };
     summary::write_summary(dir, &summary)?;

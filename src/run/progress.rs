@@ -89,10 +89,14 @@ pub enum ProgressEvent {
     /// A stop was asked for (signal or key): the run finishes its iteration, writes its
     /// outputs and ends with `finished`. Lets every viewer say "stopping".
     Stopping,
-    /// One step of the posterior sample after the fit (`fit::posterior`).
+    /// One step of the posterior sample after the fit (`fit::posterior`): `acceptance` counts
+    /// the moves after the burn-in (0 within it); `elapsed_s` is the sample's own time.
     Posterior {
         step: usize,
         steps: usize,
+        /// Steps dropped at the start (absent in logs written before it was recorded).
+        #[serde(default)]
+        burn_in: usize,
         acceptance: f64,
         elapsed_s: f64,
     },
@@ -264,10 +268,15 @@ pub fn read_all_lenient(path: &Path) -> Vec<ProgressEvent> {
         .collect()
 }
 
-/// Keeps the lines up to `iteration` (the checkpoint's) and drops a `finished` line: a
-/// killed process may have written a few more that the resumed run writes again. A
-/// half-written last line is dropped too.
-pub fn trim_to_iteration(path: &Path, iteration: u64) -> Result<(), super::RunError> {
+/// Keeps the lines up to `iteration` (the checkpoint's) and the posterior sample's lines up
+/// to `sample_step` (its checkpoint's; 0: none saved), and drops a `finished` line: a killed
+/// process may have written a few more that the resumed run writes again. A half-written
+/// last line is dropped too.
+pub fn trim_to_iteration(
+    path: &Path,
+    iteration: u64,
+    sample_step: usize,
+) -> Result<(), super::RunError> {
     let text = crate::input::read_text(path, crate::input::InputKind::RunFile).unwrap_or_default();
     let mut kept = String::new();
     for line in text.lines() {
@@ -275,6 +284,7 @@ pub fn trim_to_iteration(path: &Path, iteration: u64) -> Result<(), super::RunEr
             continue; // a half-written last line
         };
         if event.iteration().is_some_and(|i| i > iteration)
+            || matches!(event, ProgressEvent::Posterior { step, .. } if step > sample_step)
             || matches!(event, ProgressEvent::Finished { .. })
         {
             continue;
@@ -430,6 +440,7 @@ fn lenient_event(kind: &str, value: &Value) -> Option<(ProgressEvent, Vec<&'stat
         "posterior" => ProgressEvent::Posterior {
             step: value.get("step").and_then(Value::as_u64).unwrap_or(0) as usize,
             steps: value.get("steps").and_then(Value::as_u64).unwrap_or(0) as usize,
+            burn_in: value.get("burn_in").and_then(Value::as_u64).unwrap_or(0) as usize,
             acceptance: number("acceptance"),
             elapsed_s: number("elapsed_s"),
         },

@@ -69,10 +69,18 @@ pub struct PosteriorInfo {
     pub temperature: f64,
     /// Lowest cost any walker met (below `objective`: the optimiser had not converged).
     pub lowest_cost: f64,
+    /// Set when a stop request ended the sample before `requested_steps`.
     pub stopped: bool,
+    /// The steps the job asked for (absent in summaries written before it was recorded).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub requested_steps: Option<usize>,
 }
 
+/// One parameter of `summary.json`. Read through [`SummaryParameterOnDisk`], so that a
+/// summary written before the posterior interval was split into `posterior_lower_95` and
+/// `posterior_upper_95` (a `posterior_95` pair) still reads.
 #[derive(Debug, Clone, Serialize, Deserialize)]
+#[serde(from = "SummaryParameterOnDisk")]
 pub struct SummaryParameter {
     pub name: String,
     pub unit: String,
@@ -87,11 +95,71 @@ pub struct SummaryParameter {
     pub sensitivity: Option<f64>,
     pub sensitivity_rank: Option<usize>,
     pub warnings: Vec<String>,
-    /// 2.5 and 97.5 % quantiles of the posterior sample (absent without one).
+    /// 2.5 and 97.5 % quantiles of the posterior sample (absent without one), beside the
+    /// sandwich interval's `lower_95`/`upper_95`.
     #[serde(default, skip_serializing_if = "Option::is_none")]
-    pub posterior_95: Option<(f64, f64)>,
+    pub posterior_lower_95: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub posterior_upper_95: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub posterior_median: Option<f64>,
+}
+
+impl SummaryParameter {
+    /// The posterior 95 % interval, when the summary has both ends.
+    pub fn posterior_interval_95(&self) -> Option<(f64, f64)> {
+        self.posterior_lower_95.zip(self.posterior_upper_95)
+    }
+}
+
+/// A parameter as `summary.json` may hold it: this version's fields, or an older file's
+/// `posterior_95` pair in their place.
+#[derive(Deserialize)]
+struct SummaryParameterOnDisk {
+    name: String,
+    unit: String,
+    value: f64,
+    lower_bound: f64,
+    upper_bound: f64,
+    log_scale: bool,
+    lower_95: Option<f64>,
+    upper_95: Option<f64>,
+    standard_error_fit_space: Option<f64>,
+    sensitivity: Option<f64>,
+    sensitivity_rank: Option<usize>,
+    warnings: Vec<String>,
+    #[serde(default)]
+    posterior_lower_95: Option<f64>,
+    #[serde(default)]
+    posterior_upper_95: Option<f64>,
+    /// The older spelling: (lower, upper).
+    #[serde(default)]
+    posterior_95: Option<(f64, f64)>,
+    #[serde(default)]
+    posterior_median: Option<f64>,
+}
+
+impl From<SummaryParameterOnDisk> for SummaryParameter {
+    fn from(disk: SummaryParameterOnDisk) -> Self {
+        let (older_lower, older_upper) = disk.posterior_95.unzip();
+        SummaryParameter {
+            name: disk.name,
+            unit: disk.unit,
+            value: disk.value,
+            lower_bound: disk.lower_bound,
+            upper_bound: disk.upper_bound,
+            log_scale: disk.log_scale,
+            lower_95: disk.lower_95,
+            upper_95: disk.upper_95,
+            standard_error_fit_space: disk.standard_error_fit_space,
+            sensitivity: disk.sensitivity,
+            sensitivity_rank: disk.sensitivity_rank,
+            warnings: disk.warnings,
+            posterior_lower_95: disk.posterior_lower_95.or(older_lower),
+            posterior_upper_95: disk.posterior_upper_95.or(older_upper),
+            posterior_median: disk.posterior_median,
+        }
+    }
 }
 
 fn converged_by_default() -> bool {
@@ -220,6 +288,9 @@ pub struct SummaryParameterView {
     pub log_scale: Option<bool>,
     pub lower_95: Option<f64>,
     pub upper_95: Option<f64>,
+    pub posterior_lower_95: Option<f64>,
+    pub posterior_upper_95: Option<f64>,
+    pub posterior_median: Option<f64>,
     pub sensitivity_rank: Option<usize>,
     pub warnings: Option<Vec<String>>,
 }
@@ -242,5 +313,30 @@ impl SummaryView {
             missing.push("objective");
         }
         Ok((summary, missing))
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    const PARAMETER: &str = r#"{"name":"k","unit":"W/(m·K)","value":0.2,"lower_bound":0.1,"upper_bound":0.5,"log_scale":false,"lower_95":0.18,"upper_95":0.22,"standard_error_fit_space":0.01,"sensitivity":3.0,"sensitivity_rank":1,"warnings":[]"#;
+
+    #[test]
+    fn the_posterior_interval_is_written_as_two_fields_and_an_older_pair_still_reads() {
+        let older: SummaryParameter = serde_json::from_str(&format!(
+            "{PARAMETER},\"posterior_95\":[0.17,0.23],\"posterior_median\":0.2}}"
+        ))
+        .unwrap();
+        assert_eq!(older.posterior_interval_95(), Some((0.17, 0.23)));
+        let written = serde_json::to_string(&older).unwrap();
+        assert!(written.contains("\"posterior_lower_95\":0.17,\"posterior_upper_95\":0.23"));
+        assert!(!written.contains("posterior_95"), "{written}");
+        let back: SummaryParameter = serde_json::from_str(&written).unwrap();
+        assert_eq!(back.posterior_interval_95(), Some((0.17, 0.23)));
+        assert_eq!(back.posterior_median, Some(0.2));
+        let none: SummaryParameter = serde_json::from_str(&format!("{PARAMETER}}}")).unwrap();
+        assert_eq!(none.posterior_interval_95(), None);
+        assert!(!serde_json::to_string(&none).unwrap().contains("posterior"));
     }
 }

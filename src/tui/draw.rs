@@ -197,10 +197,10 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
     let mut lines = Vec::new();
     let phase = match (&state.posterior, state.finished.is_some()) {
         (Some(p), false) => format!(
-            " (posterior sample, step {}/{}, {:.0} % accepted)",
+            " (posterior sample, step {}/{}, {})",
             p.step,
             p.steps,
-            100.0 * p.acceptance
+            p.acceptance_text()
         ),
         _ => state
             .latest
@@ -247,7 +247,35 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
         elapsed.map_or_else(|| "-".into(), duration_text),
         look,
     ));
-    if !state.is_over() {
+    if let Some(sample) = state.running_sample() {
+        // While the posterior sample runs, the fit's budget is spent: the sample's progress
+        // takes its place.
+        lines.push(label_value(
+            "sample",
+            format!(
+                "step {}/{}, {}, {} elapsed",
+                sample.step,
+                sample.steps,
+                sample.acceptance_text(),
+                duration_text(sample.elapsed_s)
+            ),
+            look,
+        ));
+        lines.push(label_value(
+            "time left",
+            state.sample_time_left_s().map_or_else(
+                || "-".into(),
+                |left| {
+                    format!(
+                        "≈ {} for the sample's {} steps left",
+                        duration_text(left),
+                        sample.steps.saturating_sub(sample.step)
+                    )
+                },
+            ),
+            look,
+        ));
+    } else if !state.is_over() {
         let mut left = Vec::new();
         if budget > 0 {
             left.push(format!(
@@ -282,16 +310,16 @@ fn progress_lines<'a>(scene: &Scene) -> Vec<Line<'a>> {
             ),
             look,
         ));
-        if scene.screen.mode == Mode::ReadOnly {
-            lines.push(label_value(
-                "stop it",
-                match state.holder_pid {
-                    Some(pid) => format!("kill -INT {pid}   (or s, then y)"),
-                    None => "from its own terminal (no run.lock names its pid)".into(),
-                },
-                look,
-            ));
-        }
+    }
+    if !state.is_over() && scene.screen.mode == Mode::ReadOnly {
+        lines.push(label_value(
+            "stop it",
+            match state.holder_pid {
+                Some(pid) => format!("kill -INT {pid}   (or s, then y)"),
+                None => "from its own terminal (no run.lock names its pid)".into(),
+            },
+            look,
+        ));
     }
     lines.push(label_value(
         "checkpoint",
@@ -1608,6 +1636,68 @@ mod tests {
             "live-run-help-80x24",
             &render(&live, &screen, COLOUR, 80, 24),
         );
+    }
+
+    /// While the posterior sample runs, the fit's budget is spent: the progress view shows
+    /// the sample's step, acceptance, elapsed time and an estimate of the time left (mean time
+    /// per step so far × steps left: 12 s / 30 steps × 90 steps left = 36 s, by hand) instead, and the
+    /// header's estimate is the sample's.
+    #[test]
+    fn the_posterior_sample_replaces_the_budget_left_while_it_runs() {
+        let mut state = fixture("live-run");
+        let before = text(&render(
+            &state,
+            &screen_on(View::Progress, Mode::ReadOnly),
+            COLOUR,
+            80,
+            24,
+        ));
+        assert!(before.contains("budget left"), "{before}");
+        // Within the burn-in the acceptance is not counted yet: the view says so.
+        state.apply(&crate::run::progress::ProgressEvent::Posterior {
+            step: 8,
+            steps: 120,
+            burn_in: 20,
+            acceptance: 0.0,
+            elapsed_s: 3.2,
+        });
+        let shown = text(&render(
+            &state,
+            &screen_on(View::Progress, Mode::ReadOnly),
+            COLOUR,
+            80,
+            24,
+        ));
+        assert!(
+            shown.contains("sample          step 8/120, burn-in 8/20, 3.2 s elapsed"),
+            "{shown}"
+        );
+        assert!(!shown.contains("0 % accepted"), "{shown}");
+        state.apply(&crate::run::progress::ProgressEvent::Posterior {
+            step: 30,
+            steps: 120,
+            burn_in: 20,
+            acceptance: 0.384,
+            elapsed_s: 12.0,
+        });
+        assert_eq!(state.time_left_s(), Some(36.0));
+        let shown = text(&render(
+            &state,
+            &screen_on(View::Progress, Mode::ReadOnly),
+            COLOUR,
+            80,
+            24,
+        ));
+        for expected in [
+            "(posterior sample, step 30/120, 38 % accepted)",
+            "sample          step 30/120, 38 % accepted, 12.0 s elapsed",
+            "time left       ≈ 36.0 s for the sample's 90 steps left",
+            "≈ 36.0 s to go",
+            "stop it         kill -INT 4242",
+        ] {
+            assert!(shown.contains(expected), "missing `{expected}` in\n{shown}");
+        }
+        assert!(!shown.contains("budget left"), "{shown}");
     }
 
     #[test]

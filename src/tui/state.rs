@@ -33,6 +33,21 @@ pub struct PosteriorStep {
     pub step: usize,
     pub steps: usize,
     pub acceptance: f64,
+    /// Steps dropped at the start; the acceptance counts only the moves after them.
+    pub burn_in: usize,
+    /// Seconds spent on the sample so far (over every process that worked on it).
+    pub elapsed_s: f64,
+}
+
+impl PosteriorStep {
+    /// The acceptance as a person reads it: a percentage, or "burn-in" before it has one.
+    pub fn acceptance_text(&self) -> String {
+        if self.step <= self.burn_in {
+            format!("burn-in {}/{}", self.step, self.burn_in)
+        } else {
+            format!("{:.0} % accepted", 100.0 * self.acceptance)
+        }
+    }
 }
 
 /// The state of the fit as the run directory shows it.
@@ -295,13 +310,16 @@ impl ViewerState {
             ProgressEvent::Posterior {
                 step,
                 steps,
+                burn_in,
                 acceptance,
-                ..
+                elapsed_s,
             } => {
                 self.posterior = Some(PosteriorStep {
                     step: *step,
                     steps: *steps,
                     acceptance: *acceptance,
+                    burn_in: *burn_in,
+                    elapsed_s: *elapsed_s,
                 })
             }
             ProgressEvent::Finished {
@@ -631,11 +649,29 @@ impl ViewerState {
             .map(|p| p.cost)
     }
 
-    /// Estimated seconds left in the global search (rate and budget or time limit); `None`
-    /// once the run is over, in the local phase, or without a rate.
+    /// The posterior sample's last step while the sample runs (not once the run is over).
+    pub fn running_sample(&self) -> Option<&PosteriorStep> {
+        self.posterior.as_ref().filter(|_| !self.is_over())
+    }
+
+    /// Estimated seconds left in the posterior sample: the steps left at its mean time per
+    /// step so far; `None` without a running sample or before its first step.
+    pub fn sample_time_left_s(&self) -> Option<f64> {
+        let sample = self.running_sample()?;
+        (sample.step > 0 && sample.elapsed_s.is_finite()).then(|| {
+            sample.elapsed_s / sample.step as f64 * sample.steps.saturating_sub(sample.step) as f64
+        })
+    }
+
+    /// Estimated seconds left: in the posterior sample while it runs, else in the global
+    /// search (rate and budget or time limit); `None` once the run is over, in the local
+    /// phase, or without a rate.
     pub fn time_left_s(&self) -> Option<f64> {
         if self.is_over() || self.is_paused {
             return None;
+        }
+        if self.running_sample().is_some() {
+            return self.sample_time_left_s();
         }
         let latest = self.latest.as_ref()?;
         if latest.phase != "global" {

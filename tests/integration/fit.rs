@@ -548,12 +548,17 @@ fn the_posterior_sample_agrees_with_the_intervals_and_feeds_the_band() {
     for p in &summary.parameters {
         eprintln!(
             "{}: best {:.5}, sandwich {:?}–{:?}, posterior {:?} (T = {:?})",
-            p.name, p.value, p.lower_95, p.upper_95, p.posterior_95, summary.likelihood_temperature
+            p.name,
+            p.value,
+            p.lower_95,
+            p.upper_95,
+            p.posterior_interval_95(),
+            summary.likelihood_temperature
         );
     }
     for p in &summary.parameters {
         let (lower, upper) = (p.lower_95.unwrap(), p.upper_95.unwrap());
-        let (post_lower, post_upper) = p.posterior_95.expect("posterior interval");
+        let (post_lower, post_upper) = p.posterior_interval_95().expect("posterior interval");
         let (width, post_width) = (upper - lower, post_upper - post_lower);
         eprintln!(
             "{}: best {:.5}, sandwich [{lower:.5}, {upper:.5}], posterior [{post_lower:.5}, {post_upper:.5}]",
@@ -597,5 +602,237 @@ fn the_posterior_sample_agrees_with_the_intervals_and_feeds_the_band() {
     );
     let sample = calibrated.uncertainty.unwrap().posterior.unwrap();
     assert_eq!(sample.len(), info.points);
+    // The report shows both intervals of each parameter side by side, the temperature, the
+    // sample, each band by name and the caution.
+    let written = emberfit::export::report::write_report(
+        &report.directory,
+        &emberfit::export::report::ReportOptions {
+            n_samples: 12,
+            ..Default::default()
+        },
+    )
+    .expect("the report is written");
+    let html = std::fs::read_to_string(&written.html).unwrap();
+    for header in [
+        "<th>sandwich 95 % interval (unit)</th><th>posterior 95 % interval (unit)</th><th>posterior median (unit)</th>",
+        "<th>likelihood temperature T (–)</th>",
+        "<th>posterior sample</th><td>640 points kept: 8 walkers × 80 steps after a burn-in of 40 (all 120 steps drawn; posterior.json)</td>",
+        "<th>acceptance (%)</th>",
+        "<th>95 % parameter band (unit)</th>",
+        "<th>95 % prediction band with test scatter and model error (unit)</th>",
+        emberfit::export::report::CAUTION,
+    ] {
+        assert!(html.contains(header), "{header} not in the report");
+    }
+    let temperature = summary.likelihood_temperature.unwrap();
+    for p in &summary.parameters {
+        let (a, b) = p.posterior_interval_95().unwrap();
+        let row = html
+            .lines()
+            .find(|l| l.contains(&format!("<code>{}</code>", p.name)))
+            .expect("a row for each parameter");
+        for cell in [
+            emberfit::headless::interval_text(p.lower_95.unwrap(), p.upper_95.unwrap()),
+            emberfit::headless::interval_text(a, b),
+        ] {
+            assert!(row.contains(&cell), "{cell} not in {row}");
+        }
+    }
+    assert!(
+        html.contains(&format!(
+            "<tr><th>likelihood temperature T (–)</th><td>{}",
+            if temperature.abs() >= 1e5 || temperature.abs() < 1e-3 {
+                format!("{temperature:.4e}")
+            } else {
+                let decimals = (4 - temperature.abs().log10().floor() as i32).max(0) as usize;
+                format!("{temperature:.decimals$}")
+            }
+        )),
+        "temperature {temperature} not in the report"
+    );
+    let _ = std::fs::remove_dir_all(&root);
+}
+
+/// The twin job with a posterior sample, every path absolute, in `root/job.toml`; returns the
+/// path and the text.
+fn write_posterior_job(root: &Path, steps: usize) -> (PathBuf, String) {
+    let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
+    let text = std::fs::read_to_string(manifest.join(TWIN_JOB))
+        .unwrap()
+        .replace(
+            "../../demo-cases",
+            &manifest.join("demo-cases").display().to_string(),
+        )
+        .replace(
+            "[settings]\n",
+            &format!(
+                "[settings]\nposterior_steps = {steps}\nposterior_walkers = 8\nposterior_burn_in = 10\n"
+            ),
+        );
+    assert!(text.contains("posterior_steps"), "the job has [settings]");
+    let path = root.join("job.toml");
+    std::fs::write(&path, &text).unwrap();
+    (path, text)
+}
+
+/// The step of a run's posterior-checkpoint.json (0: none yet).
+fn sample_checkpoint_step(run: &Path) -> u64 {
+    std::fs::read(run.join("posterior-checkpoint.json"))
+        .ok()
+        .and_then(|b| serde_json::from_slice::<serde_json::Value>(&b).ok())
+        .and_then(|v| v["step"].as_u64())
+        .unwrap_or(0)
+}
+
+/// Waits until the run's sample has saved a step of at least `step`, then returns; panics
+/// if the fit ends first or nothing comes within 300 s.
+fn wait_for_sample_step(child: &mut std::process::Child, run: &Path, step: u64) {
+    let started = Instant::now();
+    while sample_checkpoint_step(run) < step {
+        assert!(
+            started.elapsed() < Duration::from_secs(300),
+            "no posterior checkpoint at step {step} after 300 s"
+        );
+        if let Ok(Some(status)) = child.try_wait() {
+            panic!("the fit ended before the sample reached step {step}: {status}");
+        }
+        std::thread::sleep(Duration::from_millis(20));
+    }
+}
+
+/// The posterior sample is checkpointed like the optimiser (an interrupted sample is not the
+/// same as an uninterrupted one unless the walkers, the chain and the random stream's position
+/// all come back; see the ensemble sampler's description in fit::posterior): a fit killed
+/// with SIGKILL during the sample and resumed with `--resume` writes the posterior.json of an
+/// uninterrupted run, byte for byte; a changed job is refused; a SIGTERM during the sample
+/// keeps the points drawn, says so, and a resume then completes the same sample too.
+#[test]
+fn a_posterior_sample_killed_or_stopped_midway_resumes_to_the_uninterrupted_sample() {
+    let root = scratch("posterior-resume");
+    let (job, job_text) = write_posterior_job(&root, 80);
+    let binary = env!("CARGO_BIN_EXE_emberfit");
+    let fit = |name: &str, resume: bool| {
+        let mut command = Command::new(binary);
+        command
+            .args(["fit", "--headless", "--threads", "2", "--name", name])
+            .arg(&job)
+            .arg("--runs-dir")
+            .arg(&root);
+        if resume {
+            command.arg("--resume");
+        }
+        command
+    };
+    let whole = fit("whole", false).output().expect("uninterrupted run");
+    assert!(
+        whole.status.success(),
+        "{}",
+        String::from_utf8_lossy(&whole.stderr)
+    );
+    let whole_posterior = std::fs::read(root.join("whole/posterior.json")).unwrap();
+
+    // SIGKILL during the sample, after a checkpoint of it.
+    let killed = root.join("killed");
+    let mut child = fit("killed", false)
+        .stdout(std::process::Stdio::null())
+        .spawn()
+        .expect("fit starts");
+    wait_for_sample_step(&mut child, &killed, 5);
+    child.kill().expect("SIGKILL");
+    let _ = child.wait();
+    let saved_step = sample_checkpoint_step(&killed);
+    assert!(
+        !killed.join("summary.json").exists() && saved_step < 80,
+        "killed too late to test anything (sample checkpoint at step {saved_step})"
+    );
+    // A job changed since the start is refused (its SHA-256 is in run.toml).
+    std::fs::write(
+        &job,
+        job_text.replace("posterior_steps = 80", "posterior_steps = 90"),
+    )
+    .unwrap();
+    let refused = fit("killed", true).output().expect("resume runs");
+    assert!(!refused.status.success(), "a changed job was resumed");
+    let message = String::from_utf8_lossy(&refused.stderr);
+    assert!(message.contains("whose content differs"), "{message}");
+    std::fs::write(&job, &job_text).unwrap();
+    let resumed = fit("killed", true).output().expect("resume runs");
+    assert!(
+        resumed.status.success(),
+        "{}",
+        String::from_utf8_lossy(&resumed.stderr)
+    );
+    assert_eq!(
+        std::fs::read(killed.join("posterior.json")).unwrap(),
+        whole_posterior,
+        "the resumed sample differs from the uninterrupted one"
+    );
+    let (a, b) = (
+        read_summary(&killed.join("summary.json")),
+        read_summary(&root.join("whole/summary.json")),
+    );
+    for (pa, pb) in a.parameters.iter().zip(&b.parameters) {
+        assert_eq!(pa.posterior_lower_95, pb.posterior_lower_95, "{}", pa.name);
+        assert_eq!(pa.posterior_upper_95, pb.posterior_upper_95, "{}", pa.name);
+        assert!(pa.posterior_lower_95.is_some());
+    }
+    // Each step of the sample is logged once in the resumed log (the log keeps the steps up to
+    // the checkpoint's, so a sample drawn again from its start would log those twice).
+    let events = emberfit::run::progress::read_all(&killed.join("progress.jsonl")).unwrap();
+    let steps: Vec<usize> = events
+        .iter()
+        .filter_map(|e| match e {
+            emberfit::run::progress::ProgressEvent::Posterior { step, .. } => Some(*step),
+            _ => None,
+        })
+        .collect();
+    assert_eq!(steps, (1..=80).collect::<Vec<_>>());
+
+    // SIGTERM during the sample: the points drawn are kept and the outputs say so.
+    let stopped = root.join("stopped");
+    let mut child = fit("stopped", false)
+        .stdout(std::process::Stdio::piped())
+        .spawn()
+        .expect("fit starts");
+    wait_for_sample_step(&mut child, &stopped, 15);
+    // SAFETY: kill(2) on the pid of our own child process.
+    unsafe {
+        libc::kill(child.id() as libc::pid_t, libc::SIGTERM);
+    }
+    let output = child.wait_with_output().expect("the stopped fit ends");
+    assert!(
+        output.status.success(),
+        "exit after SIGTERM: {}",
+        output.status
+    );
+    let summary = read_summary(&stopped.join("summary.json"));
+    let info = summary.posterior.expect("the stopped sample is kept");
+    assert!(info.stopped);
+    assert!(info.steps >= 15 && info.steps < 80, "{}", info.steps);
+    assert_eq!(info.points, 8 * (info.steps - 10));
+    assert_eq!(info.requested_steps, Some(80));
+    let table = String::from_utf8_lossy(&output.stdout);
+    let table = table.split_whitespace().collect::<Vec<_>>().join(" ");
+    assert!(
+        table.contains(&format!("stopped on request at step {} of 80", info.steps)),
+        "{table}"
+    );
+    let resumed = fit("stopped", true).output().expect("resume runs");
+    assert!(
+        resumed.status.success(),
+        "{}",
+        String::from_utf8_lossy(&resumed.stderr)
+    );
+    assert_eq!(
+        std::fs::read(stopped.join("posterior.json")).unwrap(),
+        whole_posterior,
+        "the sample continued after a stop differs from the uninterrupted one"
+    );
+    assert!(
+        !read_summary(&stopped.join("summary.json"))
+            .posterior
+            .unwrap()
+            .stopped
+    );
     let _ = std::fs::remove_dir_all(&root);
 }

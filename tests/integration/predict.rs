@@ -495,7 +495,7 @@ fn report_plots_are_valid_and_the_page_renders() {
     let band_svg = plots.join("band-50-kw-m2.svg");
     let (texts, _) = svg_texts(&band_svg);
     assert!(
-        texts.iter().any(|t| t.starts_with("95 % prediction band")),
+        texts.iter().any(|t| t.starts_with("95 % parameter band")),
         "{texts:?}"
     );
     // Best fit and median differ by line style, not colour alone (issue 17): the model is one
@@ -550,7 +550,8 @@ fn report_plots_are_valid_and_the_page_renders() {
         "<th>measured (s)</th><th>predicted (s)</th><th>error (%)</th>",
         "<th>measured (kW/m²)</th><th>predicted (kW/m²)</th>",
         "<th>measured (MJ/m²)</th><th>predicted (MJ/m²)</th>",
-        "<th>95 % band (unit)</th>",
+        "<th>95 % parameter band (unit)</th>",
+        "<th>95 % prediction band with test scatter and model error (unit)</th>",
         "irradiance (kW/m²)</th>",
     ] {
         assert!(html.contains(header), "{header} in the report");
