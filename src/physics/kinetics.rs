@@ -154,6 +154,8 @@ pub fn advance_masses(
 /// m = S/(1 + Δt·k) per reactant, what it loses split into product and gas. The 1-D solver
 /// calls it directly for such layers (checked once per run), so a cell's evaluation skips the
 /// check and the work vectors.
+// Always inlined: a call of its own costs more than its loops for one or two reactions.
+#[inline(always)]
 pub(crate) fn advance_simple_first_order(
     material: &Material,
     rate_constants_per_s: &[f64],
