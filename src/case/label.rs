@@ -189,6 +189,10 @@ pub fn describe(
             "q flame".into(),
             "flame heat flux to the exposed face once the specimen burns".into(),
         ),
+        Target::FlameBlockage => simple(
+            "flame block".into(),
+            "fraction of the irradiance the flame absorbs before it reaches the face".into(),
+        ),
         Target::ConvectiveCoefficient => simple(
             "h conv.".into(),
             "convective heat transfer coefficient of the exposed face".into(),

@@ -65,6 +65,8 @@ pub struct ScenarioCalibration {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub flame_heat_flux_kw_m2: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flame_blockage: Option<f64>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub convective_coefficient_w_m2_k: Option<f64>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub critical_fuel_mass_flux_g_m2s: Option<f64>,

@@ -99,6 +99,8 @@ pub struct ExposureFile {
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub flame_heat_flux_kw_m2: Option<Spanned<f64>>,
     #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub flame_blockage: Option<Spanned<f64>>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reradiation: Option<bool>,
 }
 
@@ -269,6 +271,9 @@ pub fn load_scenario(path: &Path) -> Result<LoadedScenario, CaseError> {
 fn apply_calibration(scenario: &mut Scenario, fitted: &super::material::ScenarioCalibration) {
     if let Some(flux) = fitted.flame_heat_flux_kw_m2 {
         scenario.exposure.flame_heat_flux_w_m2 = flux * 1e3;
+    }
+    if let Some(blockage) = fitted.flame_blockage {
+        scenario.exposure.flame_blockage = blockage;
     }
     if let Some(h) = fitted.convective_coefficient_w_m2_k {
         scenario.exposure.convective_coefficient_w_m2_k = h;
@@ -597,6 +602,13 @@ fn build_scenario(
             0.0,
             Source::non_negative,
         )? * 1e3,
+        flame_blockage: optional(
+            source,
+            &exposure_file.flame_blockage,
+            "exposure.flame_blockage",
+            0.0,
+            Source::fraction,
+        )?,
         has_reradiation: exposure_file.reradiation.unwrap_or(true),
     };
 

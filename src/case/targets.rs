@@ -87,6 +87,7 @@ pub enum Target {
         temperature_k: f64,
     },
     FlameHeatFlux,
+    FlameBlockage,
     ConvectiveCoefficient,
     CriticalFuelMassFlux,
 }
@@ -109,6 +110,7 @@ pub enum Kind {
     PeakTemperature,
     Log10RateAt,
     FlameHeatFlux,
+    FlameBlockage,
     ConvectiveCoefficient,
     CriticalFuelMassFlux,
 }
@@ -184,7 +186,7 @@ const fn row(
 /// The table, one row per `Kind` in the enum's order (docs/fit-jobs.md lists the same paths
 /// for users; docs/file-formats.md the keys).
 #[rustfmt::skip]
-pub const TABLE: [Row; 17] = [
+pub const TABLE: [Row; 18] = [
     row(Kind::Density, Place::Component, "density_kg_m3", "kg/m³", (1.0, 1.0), false),
     row(Kind::Conductivity, Place::Component, "conductivity_w_m_k", "W/(m·K)", (1.0, 1.0), false),
     row(Kind::SpecificHeat, Place::Component, "specific_heat_j_kg_k", "J/(kg·K)", (1.0, 1.0), false),
@@ -201,6 +203,7 @@ pub const TABLE: [Row; 17] = [
     row(Kind::PeakTemperature, Place::Reaction, "peak_temperature_k", "K", (1.0, 1.0), false),
     row(Kind::Log10RateAt, Place::Reaction, "log10_rate_per_s", "log10(1/s)", (1.0, 1.0), false),
     row(Kind::FlameHeatFlux, Place::Exposure, "flame_heat_flux_kw_m2", "kW/m²", (1e3, 1e-3), false),
+    row(Kind::FlameBlockage, Place::Exposure, "flame_blockage", "–", (1.0, 1.0), false),
     row(Kind::ConvectiveCoefficient, Place::Exposure, "convective_coefficient_w_m2_k", "W/(m²·K)", (1.0, 1.0), false),
     row(Kind::CriticalFuelMassFlux, Place::Ignition, "critical_fuel_mass_flux_g_m2s", "g/(m²·s)", (1e-3, 1e3), false),
 ];
@@ -234,6 +237,7 @@ impl Target {
             Target::PeakTemperature { .. } => Kind::PeakTemperature,
             Target::Log10RateAt { .. } => Kind::Log10RateAt,
             Target::FlameHeatFlux => Kind::FlameHeatFlux,
+            Target::FlameBlockage => Kind::FlameBlockage,
             Target::ConvectiveCoefficient => Kind::ConvectiveCoefficient,
             Target::CriticalFuelMassFlux => Kind::CriticalFuelMassFlux,
         }
@@ -290,6 +294,7 @@ impl Target {
         let si = value * self.row().si_per_file_unit;
         match self {
             Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 = si,
+            Target::FlameBlockage => scenario.exposure.flame_blockage = si,
             Target::ConvectiveCoefficient => {
                 scenario.exposure.convective_coefficient_w_m2_k = si;
                 scenario.exposure.flaming_convective_coefficient_w_m2_k = si;
@@ -360,6 +365,7 @@ impl Target {
                     * (r.activation_energy_j_mol / (GAS_CONSTANT_J_MOL_K * temperature_k)).exp();
             }
             Target::FlameHeatFlux
+            | Target::FlameBlockage
             | Target::ConvectiveCoefficient
             | Target::CriticalFuelMassFlux => {}
         }
@@ -371,6 +377,7 @@ impl Target {
         let to_file = self.row().file_unit_per_si;
         match self {
             Target::FlameHeatFlux => scenario.exposure.flame_heat_flux_w_m2 * to_file,
+            Target::FlameBlockage => scenario.exposure.flame_blockage * to_file,
             Target::ConvectiveCoefficient => {
                 scenario.exposure.convective_coefficient_w_m2_k * to_file
             }
@@ -444,6 +451,7 @@ impl Target {
                 .log10()
             }
             Target::FlameHeatFlux
+            | Target::FlameBlockage
             | Target::ConvectiveCoefficient
             | Target::CriticalFuelMassFlux => return None,
         };
@@ -590,6 +598,7 @@ pub fn parse_path(
                 .ok_or_else(unknown)?;
             match row_at(place, key).ok_or_else(unknown)?.kind {
                 Kind::FlameHeatFlux => Target::FlameHeatFlux,
+                Kind::FlameBlockage => Target::FlameBlockage,
                 Kind::ConvectiveCoefficient => Target::ConvectiveCoefficient,
                 Kind::CriticalFuelMassFlux => Target::CriticalFuelMassFlux,
                 _ => return Err(unknown()),
@@ -741,6 +750,7 @@ mod tests {
             ("reaction.0.heat_of_reaction_kj_kg", "kJ/kg", 1e3),
             ("heat_of_combustion_mj_kg", "MJ/kg", 1e6),
             ("exposure.flame_heat_flux_kw_m2", "kW/m²", 1e3),
+            ("exposure.flame_blockage", "–", 1.0),
             ("ignition.critical_fuel_mass_flux_g_m2s", "g/(m²·s)", 1e-3),
             ("exposure.convective_coefficient_w_m2_k", "W/(m²·K)", 1.0),
             ("reaction.0.peak_temperature_k", "K", 1.0),

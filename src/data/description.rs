@@ -211,6 +211,10 @@ pub struct TestDescription {
     pub layers: Vec<Layer>,
     /// Added to the file's times so that zero is the start of exposure, s.
     pub time_offset_s: f64,
+    /// How late a given HRR column runs against the mass, s: the gas-transport delay a lab did
+    /// not remove. The HRR at t is the file's value at t + this. Zero when not given; HRR
+    /// computed here from the analysers uses their own delays instead.
+    pub hrr_delay_s: f64,
     /// Observed time to sustained ignition, s from exposure start.
     pub ignition_time_s: Option<f64>,
     /// Whether the load cell weighs the specimen alone (tared). When false (holder and backing
@@ -247,6 +251,7 @@ struct RawDescription {
     #[serde(default)]
     layers: Vec<RawLayer>,
     time_offset_s: Option<Spanned<f64>>,
+    hrr_delay_s: Option<Spanned<f64>>,
     ignition_time_s: Option<Spanned<f64>>,
     mass_is_tared: Option<bool>,
     #[serde(default)]
@@ -591,6 +596,20 @@ impl TestDescription {
                 })
             }
         };
+        // A gas-transport delay is at most a minute or two (ISO 5660-1 has it measured at
+        // calibration; common practice puts it at 10–20 s); the same bound as the analysers'.
+        let hrr_delay_s =
+            match &raw.hrr_delay_s {
+                Some(v) if gas.is_some() => return Err(check.invalid(
+                    &v.span(),
+                    "hrr_delay_s",
+                    "applies to a given HRR column; HRR computed from [gas_analysis] is shifted \
+                     by the analysers' own delays (oxygen_delay_s, ...)"
+                        .to_string(),
+                )),
+                Some(v) => check.within(v, "hrr_delay_s", 0.0, 120.0)?,
+                None => 0.0,
+            };
         if gas.is_some() {
             for (column, key) in [
                 (&columns.oxygen, "columns.oxygen"),
@@ -730,6 +749,7 @@ impl TestDescription {
                 Some(v) => check.within(v, "time_offset_s", -1e6, 1e6)?,
                 None => 0.0,
             },
+            hrr_delay_s,
             ignition_time_s,
             is_mass_tared: raw.mass_is_tared.unwrap_or(true),
             ambient,
@@ -759,6 +779,7 @@ impl TestDescription {
             thickness_mm: None,
             layers: Vec::new(),
             time_offset_s: 0.0,
+            hrr_delay_s: 0.0,
             ignition_time_s: None,
             is_mass_tared: true,
             ambient: Ambient {

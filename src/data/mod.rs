@@ -11,6 +11,7 @@
 pub mod derivative;
 pub mod description;
 pub mod ignition;
+pub mod lag;
 pub mod oxygen;
 pub mod plausibility;
 pub mod reduce;

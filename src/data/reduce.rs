@@ -9,6 +9,7 @@ use std::path::PathBuf;
 
 use super::derivative::{five_point_derivative, savitzky_golay};
 use super::description::{GasAnalysis, GasMethod, OrificeConstant, TestDescription};
+use super::lag;
 use super::oxygen::{
     self, baseline, exhaust_mass_flow_kg_s, hrr_general_kw, hrr_oxygen_only_kw,
     orifice_constant_from_methane, AmbientGas, GasReading,
@@ -20,6 +21,9 @@ use super::{DataError, Notice};
 /// Density of air times temperature at 1 atm, ρ·T = 353 kg·K/m³ (ideal gas, M = 28.96 g/mol;
 /// common practice), to turn the exhaust mass flow into a volume flow at the photometer.
 const AIR_DENSITY_TIMES_TEMPERATURE_KG_K_M3: f64 = 353.2;
+/// An HRR this many seconds off the mass-loss rate gets a note: more than the few seconds a
+/// derivative's smoothing and the flame's own response explain (common practice).
+const HRR_LAG_NOTICE_S: f64 = 3.0;
 
 /// A reduced test: curves on one time base from exposure start, report quantities, repairs.
 #[derive(Debug, Clone, PartialEq)]
@@ -541,7 +545,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         exhaust_flow_kg_s = Some(flow);
         hrr_all = Some(hrr);
     } else if let Some((hrr, unit)) = &signals.hrr {
-        hrr_all = Some(if unit == "kW" {
+        let per_area: Vec<f64> = if unit == "kW" {
             notices.push(Notice::new(format!(
                 "{}: HRR column is in kW; divided by the exposed area {area_m2} m2",
                 test.source.display()
@@ -549,6 +553,16 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
             hrr.iter().map(|q| q / area_m2).collect()
         } else {
             hrr.clone()
+        };
+        hrr_all = Some(if test.hrr_delay_s > 0.0 {
+            notices.push(Notice::new(format!(
+                "{}: HRR moved {} s earlier (hrr_delay_s)",
+                test.source.display(),
+                test.hrr_delay_s
+            )));
+            oxygen::shift_by_delay(&time_all_s, &per_area, test.hrr_delay_s)
+        } else {
+            per_area
         });
     }
 
@@ -652,7 +666,7 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         }
         if end < time_all_s.len() {
             notices.push(Notice::new(format!(
-                "{}: last {} rows dropped: the analyser delay leaves them without gas readings",
+                "{}: last {} rows dropped: the delay shift leaves them without HRR readings",
                 test.source.display(),
                 time_all_s.len() - end
             )));
@@ -728,6 +742,29 @@ pub fn reduce(test: &TestDescription) -> Result<Reduced, DataError> {
         }
         _ => None,
     };
+    if let (Some(hrr), Some(mlr)) = (&hrr_kw_m2, &mlr_g_m2s) {
+        if let Some(lag) = lag::hrr_lag_behind_mass(&time_s, hrr, mlr) {
+            if lag.seconds.abs() >= HRR_LAG_NOTICE_S {
+                let advice = if test.gas.is_some() {
+                    "check the analysers' delay times"
+                } else {
+                    "if the lab did not remove its gas-analysis delay, set `hrr_delay_s`"
+                };
+                notices.push(Notice::new(format!(
+                    "{}: HRR runs {:.1} s {} the mass-loss rate (best match, correlation \
+                     {:.3}); {advice}",
+                    test.source.display(),
+                    lag.seconds.abs(),
+                    if lag.seconds > 0.0 {
+                        "behind"
+                    } else {
+                        "ahead of"
+                    },
+                    lag.correlation
+                )));
+            }
+        }
+    }
     let hrr_for_report = hrr_kw_m2.as_ref().or(hrr_from_mass_kw_m2.as_ref());
     if hrr_kw_m2.is_none() && hrr_from_mass_kw_m2.is_some() {
         notices.push(Notice::new(format!(

@@ -185,7 +185,10 @@ fn write_target(
                 set_in(entry, row.file_key, None, fitted_value)
             }
         }
-        Target::FlameHeatFlux | Target::ConvectiveCoefficient | Target::CriticalFuelMassFlux => {
+        Target::FlameHeatFlux
+        | Target::FlameBlockage
+        | Target::ConvectiveCoefficient
+        | Target::CriticalFuelMassFlux => {
             scenario_values.insert(row.file_key, value(fitted_value));
             Ok(())
         }

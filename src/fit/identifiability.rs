@@ -89,10 +89,10 @@ pub struct Identifiability {
     pub residual_variance: f64,
     /// Singular values of J, largest first (a tiny one means a direction the data cannot see).
     pub singular_values: Vec<f64>,
-    /// trace(JᵀJ·C)/p, C the sandwich covariance: how much wider (above 1) or narrower (below
-    /// 1: σ was stated larger than the residuals are) the intervals are than those of
-    /// independent residuals of the stated σ; the posterior sample's temperature
-    /// (`fit::posterior`).
+    /// trace(JᵀJ·C)/p, C the sandwich covariance, and at least 1: how much wider the intervals
+    /// are than those of independent residuals of the stated σ; the posterior sample's
+    /// temperature (`fit::posterior`). Where the sandwich came out narrower (residuals smaller
+    /// than σ), C is scaled up to the trace 1 and this is 1.
     pub likelihood_temperature: f64,
 }
 
@@ -201,13 +201,18 @@ pub fn analyse_on<M: Model, E: Evaluator>(
     let degrees_of_freedom = (effective_residuals - p as f64).max(1.0);
     let residual_variance = base.iter().map(|r| r * r).sum::<f64>() / degrees_of_freedom;
     let parts = part_lengths(objective, n);
-    let (covariance, singular_values, undetermined) =
+    let (mut covariance, singular_values, undetermined) =
         sandwich_covariance(&jacobian, &raw_base, &parts);
+    // Never narrower than the stated σ give: residuals smaller than σ (a curve fitted closer
+    // than its repeats scatter, a σ from three repeats that came out large) do not make the
+    // parameters better known than σ says. Below 1 the covariance is scaled up to the trace 1.
     let likelihood_temperature = {
-        let information = jacobian.transpose() * &jacobian;
-        let trace = (information * &covariance).trace() / p as f64;
+        let trace = (jacobian.transpose() * &jacobian * &covariance).trace() / p as f64;
         if trace.is_finite() && trace > 0.0 {
-            trace
+            if trace < 1.0 {
+                covariance /= trace;
+            }
+            trace.max(1.0)
         } else {
             1.0
         }

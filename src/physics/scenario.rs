@@ -121,6 +121,9 @@ pub struct Exposure {
     pub flaming_convective_coefficient_w_m2_k: f64,
     /// Flame heat flux q_flame while the flame is on, W/m².
     pub flame_heat_flux_w_m2: f64,
+    /// Fraction of the irradiance the flame absorbs before it reaches the face while the flame
+    /// is on, 0..1 (docs/physics.md §1 "Flame"): 0 is a transparent flame.
+    pub flame_blockage: f64,
     /// Whether the face re-radiates εσ(T_s⁴ − T∞⁴); false only for loss-free verification.
     pub has_reradiation: bool,
 }
@@ -291,6 +294,7 @@ impl Scenario {
             exposure.flaming_convective_coefficient_w_m2_k,
         )?;
         require_non_negative("flame heat flux", exposure.flame_heat_flux_w_m2)?;
+        require_fraction("flame blockage", exposure.flame_blockage)?;
         match self.ignition {
             IgnitionRule::CriticalFuelMassFlux(flux) => {
                 require_positive("critical fuel mass flux", flux)?

@@ -1111,16 +1111,16 @@ impl<'a> Solver<'a> {
 
     fn absorbed_flux_w_m2(&self, emissivity: f64, time_s: f64) -> f64 {
         let exposure = &self.scenario.exposure;
-        let flame_w_m2 = if self.is_flaming {
-            exposure.flame_heat_flux_w_m2
+        let (flame_w_m2, transmitted) = if self.is_flaming {
+            (exposure.flame_heat_flux_w_m2, 1.0 - exposure.flame_blockage)
         } else {
-            0.0
+            (0.0, 1.0)
         };
         // The step mean of the irradiance: steps end at the table's breakpoints, so for a
         // piecewise-linear schedule this integrates the delivered energy exactly.
         let irradiance_w_m2 =
             0.5 * (exposure.irradiance_w_m2.at(self.time_s) + exposure.irradiance_w_m2.at(time_s));
-        emissivity * (irradiance_w_m2 + flame_w_m2)
+        emissivity * (transmitted * irradiance_w_m2 + flame_w_m2)
     }
 
     /// Builds the linearised system at the current iterate, solves it into `work.solution_k`

@@ -8,64 +8,17 @@
 //! SUMMARY.md). Without the variable the tests are skipped, saying so; under `CI=true` they fail.
 //! docs/calibration-pmma.md explains the set-up and the numbers.
 
-use std::path::{Path, PathBuf};
+use std::path::Path;
 use std::sync::atomic::AtomicBool;
 use std::sync::{Arc, OnceLock};
 
 use emberfit::data::{reduce, TestDescription};
 use emberfit::run::{run_fit, RunOptions, RunSummary};
 
-/// One cone test: file, irradiance kW/m², initial mass g (the set's tests.toml), and the
-/// mass and HRR column names.
-type Entry = (&'static str, f64, f64);
+#[path = "../shared/pmma_labs.rs"]
+mod pmma_labs;
 
-/// Lab c: ceramic-fibre wool backing, 0.04 W/(m·K) at 303 K (tests.toml), divided by
-/// 0.00884 m² (the frame opening) while the whole 100 mm slab burns.
-const LAB_C: [Entry; 7] = [
-    ("cone/cone_25kw_lab-c_1.csv", 25.0, 71.62),
-    ("cone/cone_25kw_lab-c_2.csv", 25.0, 74.09),
-    ("cone/cone_25kw_lab-c_3.csv", 25.0, 70.85),
-    ("cone/cone_65kw_lab-c_1.csv", 65.0, 72.47),
-    ("cone/cone_65kw_lab-c_2.csv", 65.0, 69.91),
-    ("cone/cone_65kw_lab-c_3.csv", 65.0, 73.45),
-    ("cone/cone_65kw_lab-c_4.csv", 65.0, 74.67),
-];
-
-/// Lab d: alkaline-earth silicate wool backing, 0.16 W/(m·K) at 600 K (tests.toml), divided
-/// by 0.0084 m².
-const LAB_D: [Entry; 6] = [
-    ("cone/cone_25kw_lab-d_1.csv", 25.0, 71.44),
-    ("cone/cone_25kw_lab-d_2.csv", 25.0, 71.72),
-    ("cone/cone_25kw_lab-d_3.csv", 25.0, 69.88),
-    ("cone/cone_65kw_lab-d_1.csv", 65.0, 69.9),
-    ("cone/cone_65kw_lab-d_2.csv", 65.0, 73.72),
-    ("cone/cone_65kw_lab-d_3.csv", 65.0, 69.86),
-];
-
-struct Lab {
-    name: &'static str,
-    entries: &'static [Entry],
-    exposed_area_m2: f64,
-    backing_conductivity_w_m_k: f64,
-    mass_column: &'static str,
-}
-
-const LABS: [Lab; 2] = [
-    Lab {
-        name: "lab-c",
-        entries: &LAB_C,
-        exposed_area_m2: 0.00884,
-        backing_conductivity_w_m_k: 0.04,
-        mass_column: "Mass",
-    },
-    Lab {
-        name: "lab-d",
-        entries: &LAB_D,
-        exposed_area_m2: 0.0084,
-        backing_conductivity_w_m_k: 0.16,
-        mass_column: "mass",
-    },
-];
+use pmma_labs::{Lab, LABS};
 
 /// Repeat mean and sample standard deviation of one report quantity.
 #[derive(Debug, Clone, Copy)]
@@ -103,25 +56,6 @@ fn exact(value: f64) -> Spread {
     }
 }
 
-fn write_description(dir: &Path, data: &Path, lab: &Lab, entry: &Entry) -> PathBuf {
-    let name = data.file_stem().unwrap().to_string_lossy().to_string();
-    let path = dir.join(format!("{name}.toml"));
-    std::fs::write(
-        &path,
-        format!(
-            "data_file = \"{}\"\nirradiance_kw_m2 = {}\nexposed_area_m2 = {}\nspecimen_area_m2 = 0.01\n\
-             initial_mass_g = {}\nthickness_mm = 6.0\n\n[columns]\ntime = \"Time\"\nmass = \"{}\"\nhrr = \"HRR\"\n",
-            data.display(),
-            entry.1,
-            lab.exposed_area_m2,
-            entry.2,
-            lab.mass_column
-        ),
-    )
-    .unwrap();
-    path
-}
-
 /// Fits one lab on both irradiances and simulates the calibrated model at each.
 fn calibrate(folder: &Path, lab: &Lab) -> Calibrated {
     let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));
@@ -129,69 +63,21 @@ fn calibrate(folder: &Path, lab: &Lab) -> Calibrated {
         std::env::temp_dir().join(format!("emberfit-pmma-{}-{}", lab.name, std::process::id()));
     let _ = std::fs::remove_dir_all(&dir);
     std::fs::create_dir_all(&dir).unwrap();
-    let descriptions: Vec<(f64, PathBuf)> = lab
-        .entries
-        .iter()
-        .map(|entry| {
-            (
-                entry.1,
-                write_description(&dir, &folder.join(entry.0), lab, entry),
-            )
-        })
-        .collect();
-    // The backing: the lab's wool conductivity (tests.toml); density, specific heat and the
-    // 19 mm thickness (a 25 mm holder less the 6 mm slab) are our assumptions, typical values
-    // quoted from memory.
-    std::fs::write(
-        dir.join("wool.toml"),
-        format!(
-            "title = \"wool backing (assumed density and heat capacity)\"\n\n[[component]]\nname = \"wool\"\n\
-             density_kg_m3 = 128.0\nconductivity_w_m_k = {}\nspecific_heat_j_kg_k = 1000.0\nemissivity = 0.9\n",
-            lab.backing_conductivity_w_m_k
-        ),
-    )
-    .unwrap();
+    let descriptions = pmma_labs::write_descriptions(&dir, folder, lab);
     let template = manifest.join("models/pmma-on-blanket.toml");
-    std::fs::write(
-        dir.join("scenario.toml"),
-        format!(
-            "title = \"black PMMA 6 mm on wool, cone\"\nduration_s = 900.0\n\n[[layer]]\nmaterial = \"{}\"\nthickness_mm = 6.0\n\n\
-             [[layer]]\nmaterial = \"wool.toml\"\nthickness_mm = 19.0\n\n[exposure]\nirradiance_kw_m2 = 25.0\nflame_heat_flux_kw_m2 = 19.6\n\n\
-             [back]\nboundary = \"ambient\"\n\n[numerics]\nmax_temperature_change_k = 2.0\nmax_conversion_per_step = 0.02\nmax_step_s = 1.0\n",
-            template.display()
-        ),
-    )
-    .unwrap();
-    let signals = "[{ signal = \"mlr\", weight = 0.01 }, { signal = \"hrr\", weight = 0.01 }, \
-                   { signal = \"ignition_time\" }, { signal = \"peak_hrr\" }, \
-                   { signal = \"time_to_peak_hrr\" }, { signal = \"total_heat_release\" }]";
-    let mut cases = String::new();
-    for flux in [25.0, 65.0] {
-        let tests: Vec<String> = descriptions
-            .iter()
-            .filter(|(q, _)| *q == flux)
-            .map(|(_, p)| format!("\"{}\"", p.display()))
-            .collect();
-        cases.push_str(&format!(
-            "[[case]]\nname = \"{flux} kW/m² {}\"\ntests = [{}]\nsignals = {signals}\n\n",
-            lab.name,
-            tests.join(", ")
-        ));
-    }
+    pmma_labs::write_scenario(&dir, &template, lab, 900.0);
+    let cases: String = [25.0, 65.0]
+        .iter()
+        .map(|flux| pmma_labs::case(lab, &descriptions, *flux))
+        .collect();
     std::fs::write(
         dir.join("job.toml"),
         format!(
             "title = \"PMMA {}, 25 and 65 kW/m² repeats\"\nmaterial = \"{}\"\nscenario = \"scenario.toml\"\n\n\
-             [[parameter]]\npath = \"component.virgin.conductivity_w_m_k\"\nmin = 0.08\nmax = 0.6\n\n\
-             [[parameter]]\npath = \"component.virgin.specific_heat_j_kg_k\"\nmin = 800.0\nmax = 3000.0\n\n\
-             [[parameter]]\npath = \"reaction.0.peak_temperature_k\"\nmin = 600.0\nmax = 700.0\n\n\
-             [[parameter]]\npath = \"reaction.0.heat_of_reaction_kj_kg\"\nmin = 200.0\nmax = 3000.0\n\n\
-             [[parameter]]\npath = \"component.virgin.absorption_per_m\"\nmin = 300.0\nmax = 100000.0\nscale = \"log\"\n\n\
-             [[parameter]]\npath = \"heat_of_combustion_mj_kg\"\nmin = 15.0\nmax = 32.0\n\n\
-             [[parameter]]\npath = \"exposure.flame_heat_flux_kw_m2\"\nmin = 0.0\nmax = 40.0\n\n\
-             {cases}[settings]\nmax_evaluations = 1800\nstagnation_generations = 15\nlocal_max_evaluations = 150\nseed = 2\n",
+             {}{cases}[settings]\nmax_evaluations = 1800\nstagnation_generations = 15\nlocal_max_evaluations = 150\nseed = 2\n",
             lab.name,
             template.display(),
+            pmma_labs::PARAMETERS,
         ),
     )
     .unwrap();
@@ -309,7 +195,7 @@ fn check_lab(test_name: &str, lab_index: usize, known_misses: &[(f64, &str, f64)
     assert!(failures.is_empty(), "{test_name}: {failures:?}");
 }
 
-/// Lab d: 14 of the 16 checks of both labs hold at the issue's criterion; lab d's peak HRR at
+/// Lab d: 15 of the 16 checks of both labs hold at the issue's criterion; lab d's peak HRR at
 /// 65 kW/m² comes out 5–6 % low (inside 2 sd = 8 %, outside the 5 % cap), so it gets 8 %.
 #[test]
 fn pmma_lab_d_calibration_reproduces_its_25_and_65_kw_tests() {
@@ -320,17 +206,14 @@ fn pmma_lab_d_calibration_reproduces_its_25_and_65_kw_tests() {
     );
 }
 
-/// Lab c: at 65 kW/m² the time to peak comes out 20–27 s early (2 sd = 17 s), so it gets
-/// 3.5 sd (30 s), and the peak HRR 3–4 % low (2 sd = 4.0 %), so it gets the 5 % cap.
+/// Lab c, with its HRR moved 9 s earlier (`hrr_delay_s`) and the flame blockage fitted: all
+/// eight checks at the issue's criterion.
 #[test]
 fn pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests() {
     check_lab(
         "pmma_lab_c_calibration_reproduces_its_25_and_65_kw_tests",
         0,
-        &[
-            (65.0, "time_to_peak", 30.0),
-            (65.0, "peak_hrr", 0.05 * 1442.0),
-        ],
+        &[],
     );
 }
 

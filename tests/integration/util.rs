@@ -91,6 +91,7 @@ pub fn loss_free(layers: Vec<Layer>, irradiance_w_m2: f64, duration_s: f64) -> S
             convective_coefficient_w_m2_k: 0.0,
             flaming_convective_coefficient_w_m2_k: 0.0,
             flame_heat_flux_w_m2: 0.0,
+            flame_blockage: 0.0,
             has_reradiation: false,
         },
         ignition: IgnitionRule::Never,

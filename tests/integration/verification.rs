@@ -52,6 +52,34 @@ fn erfc(x: f64) -> f64 {
     poly * (-x * x).exp()
 }
 
+/// The flame blockage (docs/physics.md §1 "Flame blockage") on the same solution: a flame lit at
+/// the start that blocks a quarter of 20 kW/m² and adds 5 kW/m² of its own leaves the face
+/// 0.75·20 + 5 = 20 kW/m², so the rise is the constant-flux one of Carslaw & Jaeger (1959)
+/// §2.9 for 20 kW/m², whenever the flame comes on. Without the blockage it would be 25.
+#[test]
+fn a_flame_that_blocks_a_quarter_of_the_irradiance_leaves_the_face_the_rest() {
+    let slab = layer(
+        inert_material(K_W_M_K, RHO_KG_M3, C_J_KG_K),
+        0.05,
+        100,
+        true,
+    );
+    let mut scenario = loss_free(vec![slab], 20e3, 60.0);
+    scenario.ignition = IgnitionRule::AtTime(0.0);
+    scenario.exposure.flame_heat_flux_w_m2 = 5e3;
+    scenario.exposure.flame_blockage = 0.25;
+    let history = simulate(&scenario).unwrap();
+    assert_eq!(history.summary.ignition_time_s, Some(0.0));
+    let expected_rise = (2.0 * 20e3 / K_W_M_K) * (alpha_m2_s() * 60.0 / PI).sqrt();
+    let simulated_rise = history.value_at(60.0, |s| s.surface_temperature_k) - T0_K;
+    let error = (simulated_rise - expected_rise).abs() / expected_rise;
+    eprintln!(
+        "flame blockage: rise {simulated_rise:.3} K, exact {expected_rise:.3} K, error {:.4} %",
+        100.0 * error
+    );
+    assert!(error < 0.01, "error {error}");
+}
+
 /// Carslaw & Jaeger (1959) §2.7: semi-infinite solid heated by convection from T∞:
 /// (T_s − T₀)/(T∞ − T₀) = 1 − exp(β²)·erfc(β), β = h√(αt)/k.
 #[test]
