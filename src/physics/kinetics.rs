@@ -75,31 +75,15 @@ pub fn advance_masses(
     // another reaction: the closed form without the general bookkeeping (the same
     // operations, so the same bits, as the general path below).
     if is_simple_first_order(material) {
-        for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
-            let available = old_masses[reaction.reactant];
-            if available <= 0.0 {
-                continue;
-            }
-            let k = rate_constants_per_s[reaction_idx];
-            let new_mass = available / (1.0 + dt_s * k);
-            let mut consumed = k * new_mass * dt_s;
-            if consumed > available {
-                consumed = available;
-            }
-            out.consumed[reaction_idx] = consumed;
-            out.masses[reaction.reactant] = (available - consumed).max(0.0);
-            out.remaining_fraction[reaction_idx] = out.masses[reaction.reactant] / available;
-        }
-        for (component, mass) in out.masses.iter_mut().enumerate() {
-            if !material.reactions.iter().any(|r| r.reactant == component) {
-                *mass = old_masses[component].max(0.0);
-            }
-        }
-        for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
-            if let Some(product) = reaction.product {
-                out.masses[product] += reaction.product_yield * out.consumed[reaction_idx];
-            }
-        }
+        advance_simple_first_order(
+            material,
+            rate_constants_per_s,
+            old_masses,
+            dt_s,
+            &mut out.masses,
+            &mut out.consumed,
+            &mut out.remaining_fraction,
+        );
         return;
     }
     // Mass produced into each component during the step, filled as reactants are solved.
@@ -164,9 +148,53 @@ pub fn advance_masses(
     }
 }
 
+/// The closed form of `advance_masses` for a material where `is_simple_first_order` holds,
+/// into slices the caller owns (one entry per component in `masses`, per reaction in
+/// `consumed` and `remaining_fraction`), which must hold zeros, zeros and ones on entry:
+/// m = S/(1 + Δt·k) per reactant, what it loses split into product and gas. The 1-D solver
+/// calls it directly for such layers (checked once per run), so a cell's evaluation skips the
+/// check and the work vectors.
+// Always inlined: a call of its own costs more than its loops for one or two reactions.
+#[inline(always)]
+pub(crate) fn advance_simple_first_order(
+    material: &Material,
+    rate_constants_per_s: &[f64],
+    old_masses: &[f64],
+    dt_s: f64,
+    masses: &mut [f64],
+    consumed_out: &mut [f64],
+    remaining_fraction: &mut [f64],
+) {
+    for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+        let available = old_masses[reaction.reactant];
+        if available <= 0.0 {
+            continue;
+        }
+        let k = rate_constants_per_s[reaction_idx];
+        let new_mass = available / (1.0 + dt_s * k);
+        let mut consumed = k * new_mass * dt_s;
+        if consumed > available {
+            consumed = available;
+        }
+        consumed_out[reaction_idx] = consumed;
+        masses[reaction.reactant] = (available - consumed).max(0.0);
+        remaining_fraction[reaction_idx] = masses[reaction.reactant] / available;
+    }
+    for (component, mass) in masses.iter_mut().enumerate() {
+        if !material.reactions.iter().any(|r| r.reactant == component) {
+            *mass = old_masses[component].max(0.0);
+        }
+    }
+    for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+        if let Some(product) = reaction.product {
+            masses[product] += reaction.product_yield * consumed_out[reaction_idx];
+        }
+    }
+}
+
 /// First-order reactions only, each component the reactant of at most one and the product of
 /// at most one, and no product a reactant (checked per call: a fit may change an order).
-fn is_simple_first_order(material: &Material) -> bool {
+pub(crate) fn is_simple_first_order(material: &Material) -> bool {
     let reactions = &material.reactions;
     reactions.iter().enumerate().all(|(idx, r)| {
         r.order == 1.0

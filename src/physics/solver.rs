@@ -25,7 +25,8 @@
 //! change is set by the heat released), not from the error estimate.
 
 use super::kinetics::{
-    advance_masses, rate_constant_per_s, reaction_rate, StepMasses, GAS_CONSTANT_J_MOL_K,
+    advance_masses, advance_simple_first_order, is_simple_first_order, rate_constant_per_s,
+    reaction_rate, StepMasses, GAS_CONSTANT_J_MOL_K,
 };
 use super::material::Material;
 use super::output::{CellSnapshot, EnergyBudget, History, MassBudget, Sample, Summary};
@@ -93,6 +94,8 @@ struct CellProperties {
     /// Reaction heat sink Σ ω ΔH, W/m², and its temperature derivative.
     reaction_heat_w_m2: f64,
     reaction_heat_slope_w_m2_k: f64,
+    /// Conduction resistance from the cell's centre to either of its faces, m²·K/W.
+    half_resistance_m2_k_w: f64,
 }
 
 struct Solver<'a> {
@@ -177,6 +180,9 @@ struct Work {
     /// Whether any cell's reaction-heat slope at the iterate is negative (self-heating): only
     /// then can a cell need holding or the exothermic heat check.
     any_self_heating: bool,
+    /// Per layer, whether its kinetics take the first-order closed form
+    /// (`kinetics::is_simple_first_order`), checked once per run.
+    simple_first_order: Vec<bool>,
 }
 
 /// What one attempted step came to.
@@ -284,6 +290,13 @@ impl<'a> Solver<'a> {
             work,
         };
         solver.last_change_k.clear();
+        solver.work.simple_first_order.clear();
+        solver.work.simple_first_order.extend(
+            scenario
+                .layers
+                .iter()
+                .map(|layer| is_simple_first_order(&layer.material)),
+        );
         if let IgnitionRule::AtTime(0.0) = scenario.ignition {
             solver.ignite(0.0);
         }
@@ -862,23 +875,40 @@ impl<'a> Solver<'a> {
                     )
                 }));
             let new = &mut work.new_masses[cell_idx * self.stride..][..material.components.len()];
+            let consumed =
+                &mut work.consumed[cell_idx * reaction_stride..][..material.reactions.len()];
             let mut properties = CellProperties::default();
             if material.reactions.is_empty() {
                 new.copy_from_slice(old);
             } else {
-                advance_masses(
-                    material,
-                    &work.rate_constants,
-                    old,
-                    self.reference_mass[cell_idx],
-                    dt_s,
-                    &mut work.step_masses,
-                );
-                new.copy_from_slice(&work.step_masses.masses);
+                if work.simple_first_order[self.cell_layer[cell_idx]] {
+                    // The closed form straight into the cell's slots (zeroed above).
+                    let remaining = &mut work.step_masses.remaining_fraction;
+                    remaining.clear();
+                    remaining.resize(material.reactions.len(), 1.0);
+                    advance_simple_first_order(
+                        material,
+                        &work.rate_constants,
+                        old,
+                        dt_s,
+                        new,
+                        consumed,
+                        remaining,
+                    );
+                } else {
+                    advance_masses(
+                        material,
+                        &work.rate_constants,
+                        old,
+                        self.reference_mass[cell_idx],
+                        dt_s,
+                        &mut work.step_masses,
+                    );
+                    new.copy_from_slice(&work.step_masses.masses);
+                    consumed.copy_from_slice(&work.step_masses.consumed);
+                }
                 for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
-                    let consumed = work.step_masses.consumed[reaction_idx];
-                    work.consumed[cell_idx * reaction_stride + reaction_idx] = consumed;
-                    let heat_w_m2 = consumed / dt_s * reaction.heat_of_reaction_j_kg;
+                    let heat_w_m2 = consumed[reaction_idx] / dt_s * reaction.heat_of_reaction_j_kg;
                     properties.reaction_heat_w_m2 += heat_w_m2;
                     // Newton: ∂(heat)/∂T through k(T), with the step's saturation (a reactant
                     // used up within the step gives no more heat however hot the cell is).
@@ -922,6 +952,8 @@ impl<'a> Solver<'a> {
                 properties.absorption_per_m = first.absorption_coefficient_per_m;
             }
             properties.thickness_m = thickness_m;
+            properties.half_resistance_m2_k_w =
+                thickness_m.max(MIN_CELL_THICKNESS_M) / (2.0 * properties.conductivity_w_m_k);
             work.any_self_heating |= properties.reaction_heat_slope_w_m2_k < 0.0;
             work.properties[cell_idx] = properties;
         }
@@ -931,9 +963,7 @@ impl<'a> Solver<'a> {
     /// the node after it (the next cell or the back face), W/(m²·K), at the iterate's
     /// properties: what `assemble_and_solve` puts in the cell's row.
     fn cell_conductances(&self, work: &Work, cell_idx: usize) -> (f64, f64) {
-        let half_resistance = |p: &CellProperties| {
-            p.thickness_m.max(MIN_CELL_THICKNESS_M) / (2.0 * p.conductivity_w_m_k)
-        };
+        let half_resistance = |p: &CellProperties| p.half_resistance_m2_k_w;
         let between = |a: usize| {
             let next_layer = self.cell_layer[a + 1];
             let contact = if next_layer != self.cell_layer[a] {
@@ -1105,15 +1135,18 @@ impl<'a> Solver<'a> {
         let exposure = &self.scenario.exposure;
         let n_cells = self.n_cells();
         let n_nodes = n_cells + 2;
+        // Every entry is written below (the first row's lower and the last row's upper entry,
+        // outside the matrix, as zero), so the vectors are only sized, not cleared.
         for vector in [
             &mut work.lower,
             &mut work.diagonal,
             &mut work.upper,
             &mut work.rhs,
         ] {
-            vector.clear();
             vector.resize(n_nodes, 0.0);
         }
+        work.lower[0] = 0.0;
+        work.upper[n_nodes - 1] = 0.0;
         let ambient_k = exposure.ambient_temperature_k;
         let h_w_m2_k = if self.is_flaming {
             exposure.flaming_convective_coefficient_w_m2_k
@@ -1133,9 +1166,7 @@ impl<'a> Solver<'a> {
         } else {
             0.0
         };
-        let half_resistance = |p: &CellProperties| {
-            p.thickness_m.max(MIN_CELL_THICKNESS_M) / (2.0 * p.conductivity_w_m_k)
-        };
+        let half_resistance = |p: &CellProperties| p.half_resistance_m2_k_w;
         // Face node 0.
         let face_conductance = 1.0 / half_resistance(&work.properties[0]);
         work.diagonal[0] = face_conductance + h_w_m2_k + radiation_slope;

@@ -9,7 +9,7 @@
 //! for a second-order result and an error estimate). No I/O, clock, threads or randomness.
 
 use ode_solvers::continuous_output_model::ContinuousOutputModel;
-use ode_solvers::dop_shared::{IntegrationError, System};
+use ode_solvers::dop_shared::{IntegrationError, OutputType, System};
 use ode_solvers::{DVector, Dopri5, SVector};
 
 use super::kinetics::{advance_masses, rate_constant_per_s, reaction_rate, StepMasses};
@@ -309,13 +309,18 @@ fn integrate(
     programme: &TemperatureProgramme,
     settings: &ZeroDSettings,
 ) -> Result<ZeroDHistory, PhysicsError> {
+    // One row at the start and one per output interval of each piece (the rounding up of a
+    // piece's last partial interval adds at most one per piece).
+    let n_rows = (programme.duration_s() / settings.output_interval_s).min(1e7) as usize
+        + programme.pieces.len()
+        + 1;
     let mut history = ZeroDHistory {
-        time_s: Vec::new(),
-        temperature_k: Vec::new(),
-        mass_fraction: Vec::new(),
-        mass_loss_rate_per_s: Vec::new(),
-        dsc_w_g: Vec::new(),
-        mcc_w_g: Vec::new(),
+        time_s: Vec::with_capacity(n_rows),
+        temperature_k: Vec::with_capacity(n_rows),
+        mass_fraction: Vec::with_capacity(n_rows),
+        mass_loss_rate_per_s: Vec::with_capacity(n_rows),
+        dsc_w_g: Vec::with_capacity(n_rows),
+        mcc_w_g: Vec::with_capacity(n_rows),
         n_steps: 0,
         integrator: settings.integrator,
     };
@@ -515,7 +520,12 @@ macro_rules! dormand_prince_with {
                 start_temperature_k: programme.temperature_k_at(start_s),
                 heating_rate_k_s: programme.heating_rate_k_s_at(start_s),
             };
-            let mut solver = Dopri5::new(
+            // The crate's default parameters (`Dopri5::new`: safety 0.9, β 0.04, factors
+            // 0.2..10, no step limit, automatic first step), but continuous output only: the
+            // rows are read from the continuous model below, so the solver's own dense rows
+            // at every output interval (as many as the rows, each an interpolation and a
+            // push) would be work thrown away.
+            let mut solver = Dopri5::from_param(
                 system,
                 start_s,
                 end_s,
@@ -523,6 +533,15 @@ macro_rules! dormand_prince_with {
                 <$state>::from_column_slice(masses),
                 settings.relative_tolerance,
                 settings.absolute_tolerance,
+                0.9,
+                0.04,
+                0.2,
+                10.0,
+                end_s - start_s,
+                0.0,
+                100_000,
+                1000,
+                OutputType::Continuous,
             );
             let mut dense = ContinuousOutputModel::new();
             let stats = solver
