@@ -203,20 +203,7 @@ pub fn analyse_on<M: Model, E: Evaluator>(
     let parts = part_lengths(objective, n);
     let (mut covariance, singular_values, undetermined) =
         sandwich_covariance(&jacobian, &raw_base, &parts);
-    // Never narrower than the stated σ give: residuals smaller than σ (a curve fitted closer
-    // than its repeats scatter, a σ from three repeats that came out large) do not make the
-    // parameters better known than σ says. Below 1 the covariance is scaled up to the trace 1.
-    let likelihood_temperature = {
-        let trace = (jacobian.transpose() * &jacobian * &covariance).trace() / p as f64;
-        if trace.is_finite() && trace > 0.0 {
-            if trace < 1.0 {
-                covariance /= trace;
-            }
-            trace.max(1.0)
-        } else {
-            1.0
-        }
-    };
+    let likelihood_temperature = floor_at_stated_sigma(&jacobian, &mut covariance);
     let mut correlation = vec![vec![0.0; p]; p];
     for i in 0..p {
         for j in 0..p {
@@ -476,6 +463,22 @@ fn part_factors<M: Model>(objective: &Objective<'_, M>, residuals: &[f64]) -> Ve
     factors
 }
 
+/// trace(JᵀJ·C)/p, floored at 1: never narrower than the stated σ give. Residuals smaller than
+/// σ (a curve fitted closer than its repeats scatter, a σ from three repeats that came out
+/// large) do not make the parameters better known than σ says, so below 1 `covariance` is
+/// scaled up to the trace 1. A trace that is not finite and positive counts as 1.
+fn floor_at_stated_sigma(jacobian: &DMatrix<f64>, covariance: &mut DMatrix<f64>) -> f64 {
+    let p = covariance.ncols().max(1) as f64;
+    let trace = (jacobian.transpose() * jacobian * &*covariance).trace() / p;
+    if !(trace.is_finite() && trace > 0.0) {
+        return 1.0;
+    }
+    if trace < 1.0 {
+        *covariance /= trace;
+    }
+    trace.max(1.0)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -537,6 +540,37 @@ mod tests {
         assert!((covariance[(1, 1)] - 1.0 / sxx).abs() < 1e-12);
         assert!((covariance[(0, 0)] - (1.0 / 6.0 + mx * mx / sxx)).abs() < 1e-12);
         assert!((covariance[(0, 1)] + mx / sxx).abs() < 1e-12);
+    }
+
+    #[test]
+    fn residuals_smaller_than_sigma_do_not_narrow_the_interval_below_the_textbook_one() {
+        // One curve part of residuals 0.1 where σ = 1 was stated: the sandwich alone would give a slope
+        // variance 0.01/Sxx, a tenth of the textbook 1/Sxx (Draper & Smith, ch. 1); the floor
+        // brings it back to 1/Sxx and reports the temperature 1.
+        let x = [0.5, 1.0, 2.5, 3.0, 4.5, 6.0];
+        let jacobian = DMatrix::from_fn(6, 2, |i, j| if j == 0 { 1.0 } else { x[i] });
+        let residuals = [0.1, -0.1, 0.1, -0.1, 0.1, -0.1];
+        let (mut covariance, ..) = sandwich_covariance(&jacobian, &residuals, &[6]);
+        let mx = x.iter().sum::<f64>() / 6.0;
+        let sxx: f64 = x.iter().map(|x| (x - mx).powi(2)).sum();
+        assert!(
+            covariance[(1, 1)] < 0.5 / sxx,
+            "{}",
+            covariance[(1, 1)] * sxx
+        );
+        let temperature = floor_at_stated_sigma(&jacobian, &mut covariance);
+        assert_eq!(temperature, 1.0);
+        assert!(
+            (covariance[(1, 1)] * sxx - 1.0).abs() < 0.5,
+            "{}",
+            covariance[(1, 1)] * sxx
+        );
+        // Residuals larger than σ are kept as they are.
+        let (mut wide, ..) =
+            sandwich_covariance(&jacobian, &[3.0, -3.0, 3.0, -3.0, 3.0, -3.0], &[6]);
+        let before = wide[(1, 1)];
+        assert!(floor_at_stated_sigma(&jacobian, &mut wide) > 1.0);
+        assert_eq!(wide[(1, 1)], before);
     }
 
     #[test]
