@@ -42,36 +42,59 @@ fn load_average() -> String {
 }
 
 /// Runs per second of `n_runs` independent demo runs on `threads` threads, each thread with
-/// its own kept workspace.
+/// its own kept workspace and an equal share of the runs (as a fit's workers keep theirs).
 fn throughput(scenario: &emberfit::physics::Scenario, threads: usize, n_runs: usize) -> f64 {
-    use rayon::prelude::*;
-    let pool = rayon::ThreadPoolBuilder::new()
-        .num_threads(threads)
-        .build()
-        .expect("thread pool");
+    let share = n_runs / threads;
     let start = std::time::Instant::now();
-    pool.install(|| {
-        (0..n_runs)
-            .into_par_iter()
-            .map_init(Workspace::default, |workspace, _| {
-                simulate_with(scenario, workspace)
-                    .expect("runs")
-                    .summary
-                    .n_steps
-            })
-            .sum::<usize>()
+    std::thread::scope(|scope| {
+        for _ in 0..threads {
+            scope.spawn(|| {
+                let mut workspace = Workspace::default();
+                (0..share)
+                    .map(|_| {
+                        simulate_with(scenario, &mut workspace)
+                            .expect("runs")
+                            .summary
+                            .n_steps
+                    })
+                    .sum::<usize>()
+            });
+        }
     });
-    n_runs as f64 / start.elapsed().as_secs_f64()
+    (share * threads) as f64 / start.elapsed().as_secs_f64()
 }
 
+fn median(mut values: Vec<f64>) -> f64 {
+    values.sort_by(f64::total_cmp);
+    values[values.len() / 2]
+}
+
+/// One and two threads measured in turn, `ROUNDS` times, so that a slow minute of a shared
+/// virtual machine falls on both; prints the medians and the median of the rounds' ratios.
 fn fit_throughput(scenario: &emberfit::physics::Scenario) {
+    const ROUNDS: usize = 7;
     let n_runs = 400;
     let before = load_average();
-    let one = throughput(scenario, 1, n_runs);
-    let two = throughput(scenario, 2, n_runs);
+    let (mut ones, mut twos, mut ratios) = (Vec::new(), Vec::new(), Vec::new());
+    for _ in 0..ROUNDS {
+        let one = throughput(scenario, 1, n_runs);
+        let two = throughput(scenario, 2, n_runs);
+        ones.push(one);
+        twos.push(two);
+        ratios.push(two / one);
+    }
+    let spread = |values: &[f64]| {
+        let low = values.iter().copied().fold(f64::INFINITY, f64::min);
+        let high = values.iter().copied().fold(0.0, f64::max);
+        format!("{low:.0}-{high:.0}")
+    };
     println!(
-        "throughput, {n_runs} demo runs: 1 thread {one:.0} runs/s, 2 threads {two:.0} runs/s, ratio {:.2} (goal >= 1.9 on an idle machine); load average before {before}, after {}",
-        two / one,
+        "throughput, {n_runs} demo runs, {ROUNDS} alternating rounds: 1 thread {:.0} runs/s ({}), 2 threads {:.0} runs/s ({}), median ratio {:.2} (goal >= 1.9 on an idle machine); load average before {before}, after {}",
+        median(ones.clone()),
+        spread(&ones),
+        median(twos.clone()),
+        spread(&twos),
+        median(ratios),
         load_average()
     );
 }
