@@ -97,6 +97,10 @@ struct Signals {
     notices: Vec<Notice>,
 }
 
+/// Where the specimen's thermocouples start in `read_signals`' list of series (after mass,
+/// HRR, the four gas-analysis channels, the exhaust temperature and the smoke light).
+const FIRST_THERMOCOUPLE: usize = 8;
+
 fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
     let columns = &test.columns;
     let mut wanted = vec![
@@ -201,12 +205,24 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
         .collect();
     let row_lines: Vec<usize> = keep.iter().map(|&r| lines[r]).collect();
 
-    // Keep the span in which every signal has a value; fill interior gaps linearly.
-    let first =
-        (0..time_s.len()).find(|&i| signals.iter().flatten().all(|(v, _, _)| v[i].is_finite()));
-    let last = (0..time_s.len())
-        .rev()
-        .find(|&i| signals.iter().flatten().all(|(v, _, _)| v[i].is_finite()));
+    // Keep the span in which every instrument signal (mass, HRR, gas analysis, smoke) has a
+    // value; fill interior gaps linearly. The specimen's thermocouples do not set the span: one
+    // that comes loose or is logged for part of the test only (a lab's back-face readings
+    // that stop at 400 s, say) keeps its own span inside it, missing (NaN) outside, so that it
+    // does not cut the mass and HRR records short.
+    let (instruments, thermocouples) = signals.split_at_mut(FIRST_THERMOCOUPLE);
+    let first = (0..time_s.len()).find(|&i| {
+        instruments
+            .iter()
+            .flatten()
+            .all(|(v, _, _)| v[i].is_finite())
+    });
+    let last = (0..time_s.len()).rev().find(|&i| {
+        instruments
+            .iter()
+            .flatten()
+            .all(|(v, _, _)| v[i].is_finite())
+    });
     let (Some(first), Some(last)) = (first, last) else {
         return Err(DataError::File {
             path,
@@ -224,9 +240,49 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
         )));
     }
     time_s = time_s[first..=last].to_vec();
-    for (values, _, header) in signals.iter_mut().flatten() {
+    let kept_lines = &row_lines[first..=last];
+    for (values, _, header) in instruments.iter_mut().flatten() {
         *values = values[first..=last].to_vec();
         let n_filled = fill_gaps(&time_s, values);
+        if n_filled > 0 {
+            notices.push(Notice::new(format!(
+                "{}: column `{header}`: filled {n_filled} missing values by linear \
+                 interpolation between neighbours",
+                path.display()
+            )));
+        }
+    }
+    for slot in thermocouples.iter_mut() {
+        let Some((values, _, header)) = slot else {
+            continue;
+        };
+        *values = values[first..=last].to_vec();
+        let finite = |i: &usize| values[*i].is_finite();
+        let (Some(start), Some(end)) = (
+            (0..values.len()).find(finite),
+            (0..values.len()).rev().find(finite),
+        ) else {
+            notices.push(Notice::new(format!(
+                "{}: column `{header}` has no value in lines {}–{}; it is ignored",
+                path.display(),
+                kept_lines[0],
+                kept_lines[kept_lines.len() - 1]
+            )));
+            *slot = None;
+            continue;
+        };
+        if start > 0 || end + 1 < values.len() {
+            notices.push(Notice::new(format!(
+                "{}: column `{header}` has values from {} s to {} s only (lines {}–{}); it is \
+                 missing outside them, and the other columns keep their span",
+                path.display(),
+                time_s[start],
+                time_s[end],
+                kept_lines[start],
+                kept_lines[end]
+            )));
+        }
+        let n_filled = fill_gaps(&time_s[start..=end], &mut values[start..=end]);
         if n_filled > 0 {
             notices.push(Notice::new(format!(
                 "{}: column `{header}`: filled {n_filled} missing values by linear \
@@ -259,7 +315,6 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
                 .to_string(),
         });
     }
-    let kept_lines = &row_lines[first..=last];
     fn view<'a>(
         signal: &'a Option<(Vec<f64>, String, String)>,
         lines: &'a [usize],
