@@ -538,8 +538,8 @@ pub fn condition_notes(
                          calibrated value): an extrapolation the calibration did not test; the \
                          bands may not hold the model's error there (fitted at one irradiance of \
                          the open PMMA tests, 15 of 16 held-out quantities fell inside their \
-                         95 % bands; the miss, an ignition time, came out twice the measured one: \
-                         docs/calibration-pmma.md §4)",
+                         95 % bands; the miss, an ignition time, came out 40 % longer than \
+                         measured: docs/calibration-pmma.md §4)",
                         100.0 * by / edge.abs().max(1e-12)
                     ));
                 }

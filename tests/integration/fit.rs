@@ -90,7 +90,6 @@ fn write_twin_case(dir: &Path) -> PathBuf {
 
 /// Twin experiment: each true value lies inside its 95 % interval and within 3 % of the fit.
 #[test]
-#[ignore = "issue 13 (open): on the demo twin the conductivity misses its sandwich interval (0.17198, 95 % 0.17055–0.17342, truth 0.17): docs/calibration-pmma.md §5"]
 fn twin_fit_recovers_the_true_parameters_inside_their_intervals() {
     let root = scratch("twin");
     let job = write_twin_case(&root);
@@ -241,7 +240,6 @@ fn a_killed_fit_resumes_to_the_result_of_an_uninterrupted_run() {
 /// calibrated model predicts the held-out 75 kW/m² peak HRR of the true material within 3 %
 /// (issue 4's twin criterion).
 #[test]
-#[ignore = "issue 13 (open): on the demo twin the conductivity misses its sandwich interval (0.17198, 95 % 0.17055–0.17342, truth 0.17): docs/calibration-pmma.md §5"]
 fn demo_fit_recovers_the_truth_and_predicts_the_held_out_irradiance() {
     let root = scratch("demo");
     let manifest = Path::new(env!("CARGO_MANIFEST_DIR"));

@@ -65,10 +65,12 @@ pub const LABS: [Lab; 2] = [
     },
 ];
 
-/// The signals of every case: the curves at weight 0.01 beside the report quantities.
+/// The signals of every case: the curves at weight 0.01 beside the report quantities, the
+/// peak HRR at weight 4 (the one-step model cannot meet lab d's 25 kW/m² time to peak and
+/// 65 kW/m² peak at once; the weight says which matters more; docs/calibration-pmma.md §2).
 pub const SIGNALS: &str =
     "[{ signal = \"mlr\", weight = 0.01 }, { signal = \"hrr\", weight = 0.01 }, \
-                           { signal = \"ignition_time\" }, { signal = \"peak_hrr\" }, \
+                           { signal = \"ignition_time\" }, { signal = \"peak_hrr\", weight = 4 }, \
                            { signal = \"time_to_peak_hrr\" }, { signal = \"total_heat_release\" }]";
 
 /// The eight fitted parameters and their bounds.
@@ -116,7 +118,7 @@ pub fn write_descriptions(dir: &Path, folder: &Path, lab: &Lab) -> Vec<(f64, Pat
 
 /// The start of the fitted flame values: the template's (models/pmma-on-blanket.toml says them
 /// in its comments; a material file has no exposure).
-pub const FLAME_HEAT_FLUX_START_KW_M2: f64 = 19.6;
+pub const FLAME_HEAT_FLUX_START_KW_M2: f64 = 17.3;
 pub const FLAME_BLOCKAGE_START: f64 = 0.0;
 
 /// Writes `wool.toml` and `scenario.toml` (6 mm of the template on 19 mm of the lab's wool,
