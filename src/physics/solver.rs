@@ -160,6 +160,9 @@ struct Solver<'a> {
     /// material with an exothermic reaction, whose runaway handling is built on
     /// backward-Euler solves).
     tr_bdf2: bool,
+    /// Whether the last attempt was rejected by the error control or the caps (TR-BDF2 then
+    /// does not grow the step it accepts next).
+    after_rejection: bool,
     // Work arrays, reused between steps.
     work: Work,
 }
@@ -356,6 +359,7 @@ impl<'a> Solver<'a> {
                     .iter()
                     .all(|r| r.heat_of_reaction_j_kg >= 0.0)
             }),
+            after_rejection: false,
             work,
         };
         solver.work.rates_valid = false;
@@ -960,14 +964,18 @@ impl<'a> Solver<'a> {
             return failed;
         }
         // The local error of a second-order step grows as Δt³, the caps' quantities as Δt.
-        let factor = (SAFETY / error_ratio.cbrt())
+        let mut factor = (SAFETY / error_ratio.cbrt())
             .min(SAFETY / cap_ratio)
             .min(MAX_GROWTH);
         if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
+            self.after_rejection = true;
             return Attempt::Rejected {
                 retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
                 converged: true,
             };
+        }
+        if std::mem::take(&mut self.after_rejection) {
+            factor = factor.min(1.0);
         }
         self.dt_s = (dt_s * factor.max(MIN_SHRINK))
             .max(numerics.min_step_s)
