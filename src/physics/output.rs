@@ -85,6 +85,17 @@ impl EnergyBudget {
         self.stored_j_m2 += other.stored_j_m2;
     }
 
+    /// self + factor·other, term by term (a TR-BDF2 step's budget is its second stage's plus
+    /// a multiple of its first stage's; each closes, so the sum does).
+    pub(crate) fn add_scaled(&mut self, other: &EnergyBudget, factor: f64) {
+        self.absorbed_j_m2 += factor * other.absorbed_j_m2;
+        self.reradiated_j_m2 += factor * other.reradiated_j_m2;
+        self.convected_j_m2 += factor * other.convected_j_m2;
+        self.back_loss_j_m2 += factor * other.back_loss_j_m2;
+        self.reaction_heat_j_m2 += factor * other.reaction_heat_j_m2;
+        self.stored_j_m2 += factor * other.stored_j_m2;
+    }
+
     /// (1 + θ)·self − θ·full, term by term: the budget of a Richardson-extrapolated step,
     /// whose state is (1 + θ)·(two half steps) − θ·(one full step). The weights sum to 1 and
     /// each budget closes, so this one does.

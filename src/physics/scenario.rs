@@ -205,7 +205,7 @@ impl Default for Numerics {
             max_temperature_change_k: 50.0,
             max_conversion_per_step: 0.5,
             initial_step_s: 0.05,
-            max_step_s: 5.0,
+            max_step_s: 20.0,
             min_step_s: 1e-10,
             iteration_tolerance_k: 1e-2,
         }

@@ -1,10 +1,13 @@
 //! The 1-D transient conduction–pyrolysis solver (docs/physics.md §1; the numerics in
 //! docs/numerics.md): conservative finite volumes on a grid stretched toward the exposed face;
-//! each step is extrapolated backward Euler (one step of Δt and two of Δt/2, combined as
-//! y_{Δt/2} + θ·(y_{Δt/2} − y_{Δt}), θ = 1 for second order, less only where a mass would go
-//! negative), the difference of the two giving the local error that
-//! sets the next step; every implicit solve is Newton's method on the non-linear terms with a
-//! tridiagonal Jacobian; ignition and flame-out are located by shortening the step to them.
+//! each step is TR-BDF2 (`tr_bdf2_step`: a trapezoidal stage to t + γΔt and a BDF2 stage to
+//! t + Δt, γ = 2 − √2, the mass updates limited so no mass goes negative, the embedded
+//! estimate giving the local error that sets the next step), or, for materials with an
+//! exothermic reaction, extrapolated backward Euler (`extrapolated_step`: one step of Δt and
+//! two of Δt/2, combined as y_{Δt/2} + θ·(y_{Δt/2} − y_{Δt}), θ = 1 for second order, less
+//! only where a mass would go negative, the difference of the two the local error); every
+//! implicit solve is Newton's method on the non-linear terms with a tridiagonal Jacobian;
+//! ignition and flame-out are located by shortening the step to them.
 //!
 //! Unknowns of each solve are the exposed-face temperature (a node without heat capacity whose
 //! row is the face balance), the cell temperatures, and the back-face temperature. Masses are
@@ -54,6 +57,15 @@ const SAFETY: f64 = 0.85;
 /// (and at least `EVENT_TOLERANCE_FLOOR_S`).
 const EVENT_TOLERANCE_RELATIVE: f64 = 1e-4;
 const EVENT_TOLERANCE_FLOOR_S: f64 = 1e-5;
+/// TR-BDF2's stage point, γ = 2 − √2 (the value for which both stages have the same
+/// coefficient γΔt/2 and the scheme is L-stable).
+const TR_BDF2_GAMMA: f64 = 2.0 - std::f64::consts::SQRT_2;
+/// The step with which `evaluate_rates` takes the properties at the state (the masses it
+/// leaves differ from the state's by k·1e-30 of themselves).
+const RATE_PROBE_STEP_S: f64 = 1e-30;
+/// The explicit half of TR-BDF2's trapezoidal stage may take at most this share of a
+/// reactant's mass (beyond it the stage's mass update leans to backward Euler).
+const EXPLICIT_SHARE: f64 = 0.5;
 
 /// Runs the scenario to its end and returns the sampled curves and the summary.
 pub fn simulate(scenario: &Scenario) -> Result<History, PhysicsError> {
@@ -144,6 +156,13 @@ struct Solver<'a> {
     previous_sample: Sample,
     current_sample: Sample,
     next_output_s: f64,
+    /// TR-BDF2 (every reaction endothermic or neutral) or extrapolated backward Euler (a
+    /// material with an exothermic reaction, whose runaway handling is built on
+    /// backward-Euler solves).
+    tr_bdf2: bool,
+    /// Whether the last attempt was rejected by the error control or the caps (TR-BDF2 then
+    /// does not grow the step it accepts next).
+    after_rejection: bool,
     // Work arrays, reused between steps.
     work: Work,
 }
@@ -183,6 +202,49 @@ struct Work {
     /// Per layer, whether its kinetics take the first-order closed form
     /// (`kinetics::is_simple_first_order`), checked once per run.
     simple_first_order: Vec<bool>,
+    /// How the next implicit solve differs from a plain backward-Euler solve (a TR-BDF2
+    /// stage); all off for backward Euler.
+    stage: StageTerms,
+    /// The right-hand side at the start of the step (TR-BDF2's explicit half), from
+    /// `evaluate_rates`: per cell the energy rate without the reaction heat (W/m²), the
+    /// temperature rate (K/s) and the heat capacity (J/(m²·K)); per cell and reaction the
+    /// reaction rate (kg/(m²·s)); the energy terms of those rates (W/m²).
+    rate_energy_w_m2: Vec<f64>,
+    rate_temperature_k_s: Vec<f64>,
+    rate_capacity_j_m2_k: Vec<f64>,
+    rate_reaction_kg_m2_s: Vec<f64>,
+    rate_budget_w_m2: EnergyBudget,
+    /// Whether the rates above are those of the current state.
+    rates_valid: bool,
+    /// The same rates at the end of the step just taken, from its last solved system (first
+    /// same as last), and whether they were made; `accept` makes them current.
+    next_energy_w_m2: Vec<f64>,
+    next_temperature_k_s: Vec<f64>,
+    next_capacity_j_m2_k: Vec<f64>,
+    next_reaction_kg_m2_s: Vec<f64>,
+    next_budget_w_m2: EnergyBudget,
+    next_ready: bool,
+    /// Per cell, the implicit coefficient of the mass update (s), and per cell and reaction
+    /// the consumption (kg/m²) already counted before the implicit part of a stage.
+    mass_dt_s: Vec<f64>,
+    heat_offset_kg_m2: Vec<f64>,
+    /// Per cell, the explicit weights of the two stages' mass updates (1 unless limited).
+    stage_theta: Vec<f64>,
+    stage_phi: Vec<f64>,
+}
+
+/// Switches of a TR-BDF2 stage in `implicit_solve`.
+#[derive(Default, Clone, Copy)]
+struct StageTerms {
+    /// The heat capacity is the mean of the start's (`rate_capacity_j_m2_k`) and the iterate's.
+    mean_capacity: bool,
+    /// `rate_energy_w_m2` is added to each cell's balance (the explicit half).
+    explicit_source: bool,
+    /// Masses use `mass_dt_s` as their implicit coefficient, and the reaction heat counts
+    /// `heat_offset_kg_m2` besides the implicit consumption.
+    mass_terms: bool,
+    /// The irradiance at this time instead of the step mean.
+    irradiance_time_s: Option<f64>,
 }
 
 /// What one attempted step came to.
@@ -203,6 +265,9 @@ struct StepResult {
     budget: EnergyBudget,
     released_gas_kg_m2: f64,
     rate_weighted_temperature_sum: f64,
+    /// The specimen's fuel release rate at the step's start, at t + γΔt and at its end
+    /// (TR-BDF2 only): the shape of the release within the step for the output rows.
+    fuel_rates: Option<[f64; 3]>,
 }
 
 impl<'a> Solver<'a> {
@@ -287,8 +352,19 @@ impl<'a> Solver<'a> {
             previous_sample: Sample::default(),
             current_sample: Sample::default(),
             next_output_s: 0.0,
+            tr_bdf2: scenario.layers.iter().all(|layer| {
+                layer
+                    .material
+                    .reactions
+                    .iter()
+                    .all(|r| r.heat_of_reaction_j_kg >= 0.0)
+            }),
+            after_rejection: false,
             work,
         };
+        solver.work.rates_valid = false;
+        solver.work.next_ready = false;
+        solver.work.stage = StageTerms::default();
         solver.last_change_k.clear();
         solver.work.simple_first_order.clear();
         solver.work.simple_first_order.extend(
@@ -450,12 +526,16 @@ impl<'a> Solver<'a> {
         }
     }
 
-    /// One step of `dt_s` by extrapolated backward Euler. On acceptance the new state is in
-    /// `work.solution_k`, `work.new_masses` and `work.consumed`, and `self.dt_s` is the next
-    /// step the error control proposes.
+    /// One step of `dt_s` (TR-BDF2, or extrapolated backward Euler for exothermic kinetics).
+    /// On acceptance the new state is in `work.solution_k`, `work.new_masses` and
+    /// `work.consumed`, and `self.dt_s` is the next step the error control proposes.
     fn try_step(&mut self, dt_s: f64) -> Attempt {
         let mut work = std::mem::take(&mut self.work);
-        let attempt = self.extrapolated_step(&mut work, dt_s);
+        let attempt = if self.tr_bdf2 {
+            self.tr_bdf2_step(&mut work, dt_s)
+        } else {
+            self.extrapolated_step(&mut work, dt_s)
+        };
         self.work = work;
         attempt
     }
@@ -616,6 +696,397 @@ impl<'a> Solver<'a> {
             }
         }
         Attempt::Accepted(self.step_result(work, budget))
+    }
+
+    /// One step of `dt_s` by TR-BDF2 (γ = 2 − √2): a trapezoidal stage to t + γ·Δt, then a
+    /// BDF2 stage to t + Δt (docs/numerics.md, "Scheme"). With this γ both stages are
+    /// backward-Euler-like solves with the same coefficient a = γ·Δt/2:
+    /// stage 1  C̄·(T_γ − T_n) = a·(F_n + F_γ),  C̄ the mean of the start's and the iterate's;
+    /// stage 2  C·(T_{n+1} − S) = a·F_{n+1},  S = T_n + c·(T_γ − T_n),  c = 1/(γ·(2 − γ)).
+    /// Masses follow the same two stages per cell, each limited so that no mass goes negative
+    /// (the trapezoidal stage is not monotone for k·Δt > 2): the explicit half of stage 1
+    /// takes at most half of a reactant, the extrapolation of stage 2 at most what the
+    /// mass holds, the time not covered explicitly going to the implicit part (first order
+    /// in the limit). The reaction heat of each stage is ΔH times the mass
+    /// it consumes, and the step's budget is stage 2's plus c times stage 1's, each taken
+    /// from its solved system, so energy and mass close to rounding. The local error is the
+    /// embedded estimate of Bank et al. (1985) from the rates at t, t + γΔt and t + Δt.
+    fn tr_bdf2_step(&mut self, work: &mut Work, dt_s: f64) -> Attempt {
+        let numerics = self.scenario.numerics;
+        let n_cells = self.n_cells();
+        let n_nodes = n_cells + 2;
+        let stride = self.stride;
+        let reaction_stride = self.reaction_stride();
+        let failed = Attempt::Rejected {
+            retry_dt_s: 0.5 * dt_s,
+            converged: false,
+        };
+        let gamma = TR_BDF2_GAMMA;
+        let a_s = 0.5 * gamma * dt_s;
+        let extrapolation = 1.0 / (gamma * (2.0 - gamma));
+        work.next_ready = false;
+        if !work.rates_valid {
+            self.evaluate_rates(work);
+        }
+        // Stage 1, trapezoidal. Start masses m* = m_n + θ·a·(dm/dt)_n per cell.
+        work.stage_theta.clear();
+        work.stage_theta.resize(n_cells, 1.0);
+        work.mass_dt_s.clear();
+        work.mass_dt_s.resize(n_cells, a_s);
+        work.heat_offset_kg_m2.clear();
+        work.heat_offset_kg_m2
+            .resize(n_cells * reaction_stride, 0.0);
+        work.start_masses.clone_from(&self.masses);
+        for cell_idx in 0..n_cells {
+            let material = self.material(cell_idx);
+            if material.reactions.is_empty() {
+                continue;
+            }
+            let masses = &self.masses[cell_idx * stride..][..stride];
+            let rates = &work.rate_reaction_kg_m2_s[cell_idx * reaction_stride..];
+            let mut theta = 1.0f64;
+            for (component_idx, &mass) in masses.iter().enumerate() {
+                let loss: f64 = material
+                    .reactions
+                    .iter()
+                    .enumerate()
+                    .filter(|(_, r)| r.reactant == component_idx)
+                    .map(|(idx, _)| rates[idx])
+                    .sum();
+                if a_s * loss > EXPLICIT_SHARE * mass {
+                    theta = theta.min(EXPLICIT_SHARE * mass / (a_s * loss));
+                }
+            }
+            let start = &mut work.start_masses[cell_idx * stride..][..stride];
+            for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
+                let taken = theta * a_s * rates[reaction_idx];
+                work.heat_offset_kg_m2[cell_idx * reaction_stride + reaction_idx] = taken;
+                start[reaction.reactant] -= taken;
+                if let Some(product) = reaction.product {
+                    start[product] += reaction.product_yield * taken;
+                }
+            }
+            for mass in start.iter_mut() {
+                *mass = mass.max(0.0);
+            }
+            work.stage_theta[cell_idx] = theta;
+            work.mass_dt_s[cell_idx] = (2.0 - theta) * a_s;
+        }
+        work.iterate_k.clear();
+        work.iterate_k.extend_from_slice(&self.temperature_k);
+        if self.last_change_k.len() == n_nodes && self.last_dt_s > 0.0 {
+            let ratio = (gamma * dt_s / self.last_dt_s).min(2.0);
+            for (guess, change) in work.iterate_k.iter_mut().zip(&self.last_change_k) {
+                *guess += ratio * change;
+            }
+        }
+        let start_time_s = self.time_s;
+        work.stage = StageTerms {
+            mean_capacity: true,
+            explicit_source: true,
+            mass_terms: true,
+            irradiance_time_s: Some(start_time_s + gamma * dt_s),
+        };
+        std::mem::swap(&mut self.masses, &mut work.start_masses);
+        let first = self.implicit_solve(work, a_s);
+        std::mem::swap(&mut self.masses, &mut work.start_masses);
+        work.stage = StageTerms::default();
+        let Some(mut first_budget) = first else {
+            return failed;
+        };
+        // The explicit half's energy terms (its rates sum to the cells' explicit sources).
+        first_budget.add_scaled(&work.rate_budget_w_m2, a_s);
+        work.full_k.clone_from(&work.solution_k);
+        work.full_masses.clone_from(&work.new_masses);
+        // Stage 1's whole consumption, and its implicit part (for the rate at t + γΔt).
+        work.half_consumed.clone_from(&work.consumed);
+        work.full_consumed.clone_from(&work.consumed);
+        for (total, offset) in work.full_consumed.iter_mut().zip(&work.heat_offset_kg_m2) {
+            *total += offset;
+        }
+        // Stage 2, BDF2, from S = T_n + c·(T_γ − T_n) and masses m_n + φ·(m_γ − m_n).
+        work.start_k.clear();
+        work.start_k.extend(
+            self.temperature_k
+                .iter()
+                .zip(&work.full_k)
+                .map(|(start, stage)| start + extrapolation * (stage - start)),
+        );
+        work.stage_phi.clear();
+        work.stage_phi.resize(n_cells, extrapolation);
+        for cell_idx in 0..n_cells {
+            let start = &self.masses[cell_idx * stride..][..stride];
+            let stage = &work.full_masses[cell_idx * stride..][..stride];
+            let mut phi = extrapolation;
+            for (&m0, &m1) in start.iter().zip(stage) {
+                // m0 + φ·(m1 − m0) ≥ 0; φ ≥ 1 since m1 ≥ 0.
+                if m1 < m0 && m0 + phi * (m1 - m0) < 0.0 {
+                    phi = phi.min(m0 / (m0 - m1));
+                }
+            }
+            work.stage_phi[cell_idx] = phi;
+            work.mass_dt_s[cell_idx] = dt_s * (1.0 - phi * gamma);
+            for idx in 0..reaction_stride {
+                let idx = cell_idx * reaction_stride + idx;
+                work.heat_offset_kg_m2[idx] = (phi - extrapolation) * work.full_consumed[idx];
+            }
+        }
+        work.start_masses.clear();
+        work.start_masses
+            .extend(self.masses.iter().zip(&work.full_masses).enumerate().map(
+                |(idx, (m0, m1))| {
+                    let phi = work.stage_phi[idx / stride];
+                    (m0 + phi * (m1 - m0)).max(0.0)
+                },
+            ));
+        work.iterate_k.clear();
+        work.iterate_k.extend(
+            self.temperature_k
+                .iter()
+                .zip(&work.full_k)
+                .map(|(start, stage)| stage + (1.0 - gamma) / gamma * (stage - start)),
+        );
+        work.stage = StageTerms {
+            mean_capacity: false,
+            explicit_source: false,
+            mass_terms: true,
+            irradiance_time_s: Some(start_time_s + dt_s),
+        };
+        std::mem::swap(&mut self.temperature_k, &mut work.start_k);
+        std::mem::swap(&mut self.masses, &mut work.start_masses);
+        let second = self.implicit_solve(work, a_s);
+        std::mem::swap(&mut self.temperature_k, &mut work.start_k);
+        std::mem::swap(&mut self.masses, &mut work.start_masses);
+        work.stage = StageTerms::default();
+        let Some(mut budget) = second else {
+            return failed;
+        };
+        // The rates at t + Δt as the stage-2 system has them, for the next step's explicit
+        // half: energy without the reaction heat is C·(T − S)/a plus the reaction heat booked.
+        work.next_energy_w_m2.clear();
+        work.next_temperature_k_s.clear();
+        work.next_capacity_j_m2_k.clear();
+        work.next_reaction_kg_m2_s.clear();
+        work.next_reaction_kg_m2_s
+            .resize(n_cells * reaction_stride, 0.0);
+        for cell_idx in 0..n_cells {
+            let node = cell_idx + 1;
+            let properties = &work.properties[cell_idx];
+            let booked_w_m2 = properties.reaction_heat_w_m2
+                + properties.reaction_heat_slope_w_m2_k
+                    * (work.solution_k[node] - work.iterate_k[node]);
+            let capacity = properties.heat_capacity_j_m2_k;
+            let energy_w_m2 =
+                capacity * (work.solution_k[node] - work.start_k[node]) / a_s + booked_w_m2;
+            let mut heat_w_m2 = 0.0;
+            for (reaction_idx, reaction) in self.material(cell_idx).reactions.iter().enumerate() {
+                let idx = cell_idx * reaction_stride + reaction_idx;
+                let rate = work.consumed[idx] / work.mass_dt_s[cell_idx];
+                work.next_reaction_kg_m2_s[idx] = rate;
+                heat_w_m2 += rate * reaction.heat_of_reaction_j_kg;
+            }
+            work.next_energy_w_m2.push(energy_w_m2);
+            work.next_capacity_j_m2_k.push(capacity);
+            work.next_temperature_k_s.push(if capacity > 0.0 {
+                (energy_w_m2 - heat_w_m2) / capacity
+            } else {
+                0.0
+            });
+        }
+        work.next_budget_w_m2 = EnergyBudget::default();
+        work.next_budget_w_m2.add_scaled(&budget, 1.0 / a_s);
+        work.next_budget_w_m2.reaction_heat_j_m2 = 0.0;
+        work.next_budget_w_m2.stored_j_m2 = 0.0;
+        budget.add_scaled(&first_budget, extrapolation);
+        // Local error (Bank et al. 1985): 2k·Δt·(f_n/γ − f_γ/(γ(1 − γ)) + f_{n+1}/(1 − γ)),
+        // k = (−3γ² + 4γ − 2)/(12(2 − γ)), a second divided difference of the rates times
+        // kΔt³; and the safety caps on what one step may change.
+        let k_error = (-3.0 * gamma * gamma + 4.0 * gamma - 2.0) / (12.0 * (2.0 - gamma));
+        let estimate = |f0: f64, f1: f64, f2: f64| {
+            (2.0 * k_error
+                * dt_s
+                * (f0 / gamma - f1 / (gamma * (1.0 - gamma)) + f2 / (1.0 - gamma)))
+                .abs()
+        };
+        let (mut temperature_error, mut mass_error) = (0.0f64, 0.0f64);
+        let (mut temperature_change, mut conversion) = (0.0f64, 0.0f64);
+        let mut fuel_rates = [0.0f64; 3];
+        for cell_idx in 0..n_cells {
+            let layer = &self.scenario.layers[self.cell_layer[cell_idx]];
+            if !layer.is_specimen {
+                continue;
+            }
+            let first_dt_s = (2.0 - work.stage_theta[cell_idx]) * a_s;
+            for (reaction_idx, reaction) in layer.material.reactions.iter().enumerate() {
+                let idx = cell_idx * reaction_stride + reaction_idx;
+                let fuel = (1.0 - reaction.product_yield) * reaction.gas.fuel_fraction;
+                fuel_rates[0] += fuel * work.rate_reaction_kg_m2_s[idx];
+                fuel_rates[1] += fuel * work.half_consumed[idx] / first_dt_s;
+                fuel_rates[2] += fuel * work.consumed[idx] / work.mass_dt_s[cell_idx];
+            }
+        }
+        for cell_idx in 0..n_cells {
+            let reference = self.reference_mass[cell_idx];
+            let mass: f64 = work.new_masses[cell_idx * stride..][..stride].iter().sum();
+            let node = cell_idx + 1;
+            if mass >= NEGLIGIBLE_MASS_FRACTION * reference {
+                let f0 = work.rate_temperature_k_s[cell_idx];
+                let f1 = (work.full_k[node] - self.temperature_k[node]) / a_s - f0;
+                let f2 = (work.solution_k[node] - work.start_k[node]) / a_s;
+                temperature_error = temperature_error.max(estimate(f0, f1, f2));
+                temperature_change = temperature_change
+                    .max((work.solution_k[node] - self.temperature_k[node]).abs());
+            }
+            let first_dt_s = (2.0 - work.stage_theta[cell_idx]) * a_s;
+            let second_dt_s = work.mass_dt_s[cell_idx];
+            let phi = work.stage_phi[cell_idx];
+            let (mut difference, mut consumed_total) = (0.0, 0.0);
+            for r in 0..reaction_stride {
+                let idx = cell_idx * reaction_stride + r;
+                difference += estimate(
+                    work.rate_reaction_kg_m2_s[idx],
+                    work.half_consumed[idx] / first_dt_s,
+                    work.consumed[idx] / second_dt_s,
+                );
+                // The step's consumption: φ·(stage 1) + stage 2.
+                let consumed = phi * work.full_consumed[idx] + work.consumed[idx];
+                work.consumed[idx] = consumed;
+                consumed_total += consumed;
+            }
+            mass_error = mass_error.max(difference / reference);
+            conversion = conversion.max(consumed_total / reference);
+        }
+        let error_ratio = (temperature_error / numerics.temperature_tolerance_k)
+            .max(mass_error / numerics.conversion_tolerance);
+        let cap_ratio = (temperature_change / numerics.max_temperature_change_k)
+            .max(conversion / numerics.max_conversion_per_step);
+        if !error_ratio.is_finite() || !cap_ratio.is_finite() {
+            return failed;
+        }
+        // The local error of a second-order step grows as Δt³, the caps' quantities as Δt.
+        let mut factor = (SAFETY / error_ratio.cbrt())
+            .min(SAFETY / cap_ratio)
+            .min(MAX_GROWTH);
+        if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
+            self.after_rejection = true;
+            return Attempt::Rejected {
+                retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
+                converged: true,
+            };
+        }
+        if std::mem::take(&mut self.after_rejection) {
+            factor = factor.min(1.0);
+        }
+        self.dt_s = (dt_s * factor.max(MIN_SHRINK))
+            .max(numerics.min_step_s)
+            .min(numerics.max_step_s);
+        work.next_ready = true;
+        let mut result = self.step_result(work, budget);
+        result.fuel_rates = Some(fuel_rates);
+        Attempt::Accepted(result)
+    }
+
+    /// The right-hand side of the semi-discrete system at the state in `self` (TR-BDF2's
+    /// explicit half), into `work.rate_*`: properties and reaction rates at the state, the
+    /// irradiance at this instant, and the face at the root of its own balance against the
+    /// first cell (the face has no heat capacity). The first cell receives the face's net
+    /// gain (absorbed − re-radiated − convected), the last cell loses the back-face flux, so
+    /// the cells' energy rates sum to the absorbed minus the losses to rounding.
+    fn evaluate_rates(&self, work: &mut Work) {
+        let n_cells = self.n_cells();
+        let reaction_stride = self.reaction_stride();
+        let exposure = &self.scenario.exposure;
+        work.stage = StageTerms {
+            irradiance_time_s: Some(self.time_s),
+            ..StageTerms::default()
+        };
+        work.iterate_k.clear();
+        work.iterate_k.extend_from_slice(&self.temperature_k);
+        // Properties at the state: a vanishing step leaves the masses as they are.
+        self.evaluate_cells(work, RATE_PROBE_STEP_S);
+        let face_absorbed_w_m2 = self.deposit_radiation(work, self.time_s);
+        work.stage = StageTerms::default();
+        let temperature_k = &self.temperature_k;
+        // The face's own balance: g·(T_f − T_1) + h·(T_f − T∞) + εσ(T_f⁴ − T∞⁴) = absorbed.
+        let ambient_k = exposure.ambient_temperature_k;
+        let h_w_m2_k = if self.is_flaming {
+            exposure.flaming_convective_coefficient_w_m2_k
+        } else {
+            exposure.convective_coefficient_w_m2_k
+        };
+        let radiating = if exposure.has_reradiation {
+            work.properties[0].emissivity * STEFAN_BOLTZMANN_W_M2_K4
+        } else {
+            0.0
+        };
+        let face_conductance = 1.0 / work.properties[0].half_resistance_m2_k_w;
+        let mut face_k = temperature_k[0];
+        for _ in 0..30 {
+            let residual = face_conductance * (face_k - temperature_k[1])
+                + h_w_m2_k * (face_k - ambient_k)
+                + radiating * (face_k.powi(4) - ambient_k.powi(4))
+                - face_absorbed_w_m2;
+            let slope = face_conductance + h_w_m2_k + 4.0 * radiating * face_k.powi(3);
+            let change = residual / slope;
+            face_k -= change;
+            if change.is_nan() || change.abs() <= 1e-9 * face_k {
+                break;
+            }
+        }
+        let reradiated_w_m2 = radiating * (face_k.powi(4) - ambient_k.powi(4));
+        let convected_w_m2 = h_w_m2_k * (face_k - ambient_k);
+        work.rate_energy_w_m2.clear();
+        work.rate_temperature_k_s.clear();
+        work.rate_capacity_j_m2_k.clear();
+        work.rate_reaction_kg_m2_s.clear();
+        work.rate_reaction_kg_m2_s
+            .resize(n_cells * reaction_stride, 0.0);
+        let mut inflow_w_m2 = face_absorbed_w_m2 - reradiated_w_m2 - convected_w_m2;
+        let mut back_loss_w_m2 = 0.0;
+        for cell_idx in 0..n_cells {
+            let node = cell_idx + 1;
+            let (_, after) = self.cell_conductances(work, cell_idx);
+            let outflow_w_m2 = after * (temperature_k[node] - temperature_k[node + 1]);
+            if cell_idx + 1 == n_cells {
+                back_loss_w_m2 = outflow_w_m2;
+            }
+            let energy_w_m2 = inflow_w_m2 - outflow_w_m2 + work.absorbed_w_m2[cell_idx];
+            inflow_w_m2 = outflow_w_m2;
+            let layer = &self.scenario.layers[self.cell_layer[cell_idx]];
+            let masses = &self.masses[cell_idx * self.stride..];
+            let mut heat_w_m2 = 0.0;
+            for (reaction_idx, reaction) in layer.material.reactions.iter().enumerate() {
+                let k = rate_constant_per_s(
+                    reaction.pre_exponential_per_s,
+                    reaction.activation_energy_j_mol,
+                    temperature_k[node],
+                );
+                let rate = reaction_rate(
+                    k,
+                    masses[reaction.reactant],
+                    self.reference_mass[cell_idx],
+                    reaction.order,
+                );
+                work.rate_reaction_kg_m2_s[cell_idx * reaction_stride + reaction_idx] = rate;
+                heat_w_m2 += rate * reaction.heat_of_reaction_j_kg;
+            }
+            let capacity = work.properties[cell_idx].heat_capacity_j_m2_k;
+            work.rate_energy_w_m2.push(energy_w_m2);
+            work.rate_capacity_j_m2_k.push(capacity);
+            work.rate_temperature_k_s.push(if capacity > 0.0 {
+                (energy_w_m2 - heat_w_m2) / capacity
+            } else {
+                0.0
+            });
+        }
+        work.rate_budget_w_m2 = EnergyBudget {
+            absorbed_j_m2: face_absorbed_w_m2 + work.absorbed_w_m2.iter().sum::<f64>(),
+            reradiated_j_m2: reradiated_w_m2,
+            convected_j_m2: convected_w_m2,
+            back_loss_j_m2: back_loss_w_m2,
+            ..EnergyBudget::default()
+        };
+        work.rates_valid = true;
     }
 
     /// The step that lets a runaway cell flash, when the last solve (in `work`) has a cell in a
@@ -878,6 +1349,11 @@ impl<'a> Solver<'a> {
             let consumed =
                 &mut work.consumed[cell_idx * reaction_stride..][..material.reactions.len()];
             let mut properties = CellProperties::default();
+            let mass_dt_s = if work.stage.mass_terms {
+                work.mass_dt_s[cell_idx]
+            } else {
+                dt_s
+            };
             if material.reactions.is_empty() {
                 new.copy_from_slice(old);
             } else {
@@ -890,7 +1366,7 @@ impl<'a> Solver<'a> {
                         material,
                         &work.rate_constants,
                         old,
-                        dt_s,
+                        mass_dt_s,
                         new,
                         consumed,
                         remaining,
@@ -901,7 +1377,7 @@ impl<'a> Solver<'a> {
                         &work.rate_constants,
                         old,
                         self.reference_mass[cell_idx],
-                        dt_s,
+                        mass_dt_s,
                         &mut work.step_masses,
                     );
                     new.copy_from_slice(&work.step_masses.masses);
@@ -909,7 +1385,15 @@ impl<'a> Solver<'a> {
                 }
                 for (reaction_idx, reaction) in material.reactions.iter().enumerate() {
                     let heat_w_m2 = consumed[reaction_idx] / dt_s * reaction.heat_of_reaction_j_kg;
-                    properties.reaction_heat_w_m2 += heat_w_m2;
+                    properties.reaction_heat_w_m2 += if work.stage.mass_terms {
+                        // What the stage counted before its implicit part.
+                        heat_w_m2
+                            + work.heat_offset_kg_m2[cell_idx * reaction_stride + reaction_idx]
+                                / dt_s
+                                * reaction.heat_of_reaction_j_kg
+                    } else {
+                        heat_w_m2
+                    };
                     // Newton: ∂(heat)/∂T through k(T), with the step's saturation (a reactant
                     // used up within the step gives no more heat however hot the cell is).
                     // Negative for exothermic reactions: the diagonal weakens and a runaway is
@@ -950,6 +1434,10 @@ impl<'a> Solver<'a> {
                 properties.conductivity_w_m_k = first.conductivity_w_m_k.at(temperature_k);
                 properties.emissivity = first.emissivity;
                 properties.absorption_per_m = first.absorption_coefficient_per_m;
+            }
+            if work.stage.mean_capacity {
+                properties.heat_capacity_j_m2_k =
+                    0.5 * (work.rate_capacity_j_m2_k[cell_idx] + properties.heat_capacity_j_m2_k);
             }
             properties.thickness_m = thickness_m;
             properties.half_resistance_m2_k_w =
@@ -1081,7 +1569,11 @@ impl<'a> Solver<'a> {
         let n_cells = self.n_cells();
         work.absorbed_w_m2.clear();
         work.absorbed_w_m2.resize(n_cells, 0.0);
-        let absorbed_w_m2 = self.absorbed_flux_w_m2(work.properties[0].emissivity, time_s);
+        let absorbed_w_m2 = self.absorbed_flux_w_m2(
+            work.properties[0].emissivity,
+            time_s,
+            work.stage.irradiance_time_s,
+        );
         if work.properties[0].absorption_per_m.is_none() {
             return absorbed_w_m2;
         }
@@ -1109,7 +1601,9 @@ impl<'a> Solver<'a> {
         0.0
     }
 
-    fn absorbed_flux_w_m2(&self, emissivity: f64, time_s: f64) -> f64 {
+    /// Absorbed irradiance and flame flux over a step ending at `time_s` (the step mean of
+    /// the irradiance), or at the instant `at_s` when given.
+    fn absorbed_flux_w_m2(&self, emissivity: f64, time_s: f64, at_s: Option<f64>) -> f64 {
         let exposure = &self.scenario.exposure;
         let (flame_w_m2, transmitted) = if self.is_flaming {
             (exposure.flame_heat_flux_w_m2, 1.0 - exposure.flame_blockage)
@@ -1118,8 +1612,13 @@ impl<'a> Solver<'a> {
         };
         // The step mean of the irradiance: steps end at the table's breakpoints, so for a
         // piecewise-linear schedule this integrates the delivered energy exactly.
-        let irradiance_w_m2 =
-            0.5 * (exposure.irradiance_w_m2.at(self.time_s) + exposure.irradiance_w_m2.at(time_s));
+        let irradiance_w_m2 = match at_s {
+            Some(at_s) => exposure.irradiance_w_m2.at(at_s),
+            None => {
+                0.5 * (exposure.irradiance_w_m2.at(self.time_s)
+                    + exposure.irradiance_w_m2.at(time_s))
+            }
+        };
         emissivity * (transmitted * irradiance_w_m2 + flame_w_m2)
     }
 
@@ -1202,6 +1701,9 @@ impl<'a> Solver<'a> {
                 + work.absorbed_w_m2[cell_idx]
                 - properties.reaction_heat_w_m2
                 + properties.reaction_heat_slope_w_m2_k * guess_k;
+            if work.stage.explicit_source {
+                work.rhs[node] += work.rate_energy_w_m2[cell_idx];
+            }
             if held && work.pinned_k[cell_idx].is_finite() {
                 // A runaway cell held at the root of its own balance for this iteration.
                 work.lower[node] = 0.0;
@@ -1283,6 +1785,7 @@ impl<'a> Solver<'a> {
             budget,
             released_gas_kg_m2: 0.0,
             rate_weighted_temperature_sum: 0.0,
+            fuel_rates: None,
         };
         for cell_idx in 0..self.n_cells() {
             let layer = &self.scenario.layers[self.cell_layer[cell_idx]];
@@ -1306,6 +1809,27 @@ impl<'a> Solver<'a> {
 
     fn accept(&mut self, dt_s: f64, result: StepResult) {
         let mut work = std::mem::take(&mut self.work);
+        // The end rates of the step become the next step's start rates unless the flame or
+        // the cells change below.
+        work.rates_valid = false;
+        let rates_carry = std::mem::take(&mut work.next_ready);
+        if rates_carry {
+            std::mem::swap(&mut work.rate_energy_w_m2, &mut work.next_energy_w_m2);
+            std::mem::swap(
+                &mut work.rate_temperature_k_s,
+                &mut work.next_temperature_k_s,
+            );
+            std::mem::swap(
+                &mut work.rate_capacity_j_m2_k,
+                &mut work.next_capacity_j_m2_k,
+            );
+            std::mem::swap(
+                &mut work.rate_reaction_kg_m2_s,
+                &mut work.next_reaction_kg_m2_s,
+            );
+            work.rate_budget_w_m2 = work.next_budget_w_m2;
+        }
+        let (flaming_before, cells_before) = (self.is_flaming, self.n_cells());
         let fuel_flux_now = self.fuel_flux_kg_m2_s(&work.solution_k, &work.new_masses);
         self.last_change_k.clear();
         self.last_change_k.extend(
@@ -1347,6 +1871,10 @@ impl<'a> Solver<'a> {
             && self.next_edge_s <= duration_s * (1.0 + 1e-12)
         {
             let fraction = ((self.next_edge_s - previous_time_s) / dt_s).clamp(0.0, 1.0);
+            let fraction = match result.fuel_rates {
+                Some(rates) => release_fraction(rates, fraction),
+                None => fraction,
+            };
             let mut edge = [0.0; 3];
             for idx in 0..3 {
                 edge[idx] = before[idx] + (self.cumulative[idx] - before[idx]) * fraction;
@@ -1378,6 +1906,8 @@ impl<'a> Solver<'a> {
         }
         std::mem::swap(&mut self.previous_sample, &mut current);
         self.current_sample = current;
+        self.work.rates_valid =
+            rates_carry && self.is_flaming == flaming_before && self.n_cells() == cells_before;
     }
 
     /// Ignition and flame-out after a step that ended at `self.time_s`; `fuel_flux` is the
@@ -1851,6 +2381,28 @@ fn first_root_from(start_k: f64, mut balance: impl FnMut(f64) -> (f64, f64)) -> 
         };
     }
     Some(0.5 * (low + high))
+}
+
+/// The fraction of a step's release made by the fraction `s` of the step, from the release
+/// rates at its start, at γ and at its end: the integral of the parabola through them,
+/// normalised to 1 over the step (so the rows still sum to what the step released). Linear
+/// when the parabola is not positive over the step.
+fn release_fraction(rates: [f64; 3], s: f64) -> f64 {
+    let g = TR_BDF2_GAMMA;
+    let [r0, r1, r2] = rates;
+    let c = ((r1 - r0) - g * (r2 - r0)) / (g * g - g);
+    let b = r2 - r0 - c;
+    let integral = |s: f64| s * (r0 + s * (0.5 * b + s * c / 3.0));
+    let total = integral(1.0);
+    let lowest = if c > 0.0 && -b < 2.0 * c && b < 0.0 {
+        r0 - 0.25 * b * b / c
+    } else {
+        r0.min(r2)
+    };
+    if !total.is_finite() || total <= 0.0 || lowest.is_nan() || lowest < 0.0 {
+        return s;
+    }
+    (integral(s) / total).clamp(0.0, 1.0)
 }
 
 fn interpolate_height(above: (f64, f64), below: (f64, f64), height: f64) -> f64 {

@@ -704,10 +704,14 @@ fn wait_for_sample_step(child: &mut std::process::Child, run: &Path, step: u64) 
 /// with SIGKILL during the sample and resumed with `--resume` writes the posterior.json of an
 /// uninterrupted run, byte for byte; a changed job is refused; a SIGTERM during the sample
 /// keeps the points drawn, says so, and a resume then completes the same sample too.
+/// Steps of the sample: enough that the kill and the stop below land inside it (with 80 steps
+/// the whole sample took under the polling interval once the solver became faster).
+const SAMPLE_STEPS: usize = 400;
+
 #[test]
 fn a_posterior_sample_killed_or_stopped_midway_resumes_to_the_uninterrupted_sample() {
     let root = scratch("posterior-resume");
-    let (job, job_text) = write_posterior_job(&root, 80);
+    let (job, job_text) = write_posterior_job(&root, SAMPLE_STEPS);
     let binary = env!("CARGO_BIN_EXE_emberfit");
     let fit = |name: &str, resume: bool| {
         let mut command = Command::new(binary);
@@ -740,13 +744,16 @@ fn a_posterior_sample_killed_or_stopped_midway_resumes_to_the_uninterrupted_samp
     let _ = child.wait();
     let saved_step = sample_checkpoint_step(&killed);
     assert!(
-        !killed.join("summary.json").exists() && saved_step < 80,
+        !killed.join("summary.json").exists() && saved_step < SAMPLE_STEPS as u64,
         "killed too late to test anything (sample checkpoint at step {saved_step})"
     );
     // A job changed since the start is refused (its SHA-256 is in run.toml).
     std::fs::write(
         &job,
-        job_text.replace("posterior_steps = 80", "posterior_steps = 90"),
+        job_text.replace(
+            &format!("posterior_steps = {SAMPLE_STEPS}"),
+            &format!("posterior_steps = {}", SAMPLE_STEPS + 10),
+        ),
     )
     .unwrap();
     let refused = fit("killed", true).output().expect("resume runs");
@@ -784,7 +791,7 @@ fn a_posterior_sample_killed_or_stopped_midway_resumes_to_the_uninterrupted_samp
             _ => None,
         })
         .collect();
-    assert_eq!(steps, (1..=80).collect::<Vec<_>>());
+    assert_eq!(steps, (1..=SAMPLE_STEPS).collect::<Vec<_>>());
 
     // SIGTERM during the sample: the points drawn are kept and the outputs say so.
     let stopped = root.join("stopped");
@@ -806,13 +813,20 @@ fn a_posterior_sample_killed_or_stopped_midway_resumes_to_the_uninterrupted_samp
     let summary = read_summary(&stopped.join("summary.json"));
     let info = summary.posterior.expect("the stopped sample is kept");
     assert!(info.stopped);
-    assert!(info.steps >= 15 && info.steps < 80, "{}", info.steps);
+    assert!(
+        info.steps >= 15 && info.steps < SAMPLE_STEPS,
+        "{}",
+        info.steps
+    );
     assert_eq!(info.points, 8 * (info.steps - 10));
-    assert_eq!(info.requested_steps, Some(80));
+    assert_eq!(info.requested_steps, Some(SAMPLE_STEPS));
     let table = String::from_utf8_lossy(&output.stdout);
     let table = table.split_whitespace().collect::<Vec<_>>().join(" ");
     assert!(
-        table.contains(&format!("stopped on request at step {} of 80", info.steps)),
+        table.contains(&format!(
+            "stopped on request at step {} of {SAMPLE_STEPS}",
+            info.steps
+        )),
         "{table}"
     );
     let resumed = fit("stopped", true).output().expect("resume runs");
