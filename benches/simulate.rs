@@ -73,7 +73,7 @@ fn median(mut values: Vec<f64>) -> f64 {
 /// virtual machine falls on both; prints the medians and the median of the rounds' ratios.
 fn fit_throughput(scenario: &emberfit::physics::Scenario) {
     const ROUNDS: usize = 7;
-    let n_runs = 400;
+    let n_runs = 1600;
     let before = load_average();
     let (mut ones, mut twos, mut ratios) = (Vec::new(), Vec::new(), Vec::new());
     for _ in 0..ROUNDS {

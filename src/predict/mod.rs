@@ -537,8 +537,8 @@ pub fn condition_notes(
                          {low:.3}–{high:.3} {unit}, by {by:.3} {unit} ({:.0} % of the nearest \
                          calibrated value): an extrapolation the calibration did not test; the \
                          bands may not hold the model's error there (fitted at one irradiance of \
-                         the open PMMA tests, 15 of 16 held-out quantities fell inside their \
-                         95 % bands; the miss, an ignition time, came out 40 % longer than \
+                         the open PMMA tests, 14 of 16 held-out quantities fell inside their \
+                         95 % bands; the misses are ignition times, one 45 % longer than \
                          measured: docs/calibration-pmma.md §4)",
                         100.0 * by / edge.abs().max(1e-12)
                     ));
