@@ -97,10 +97,6 @@ struct Signals {
     notices: Vec<Notice>,
 }
 
-/// Where the specimen's thermocouples start in `read_signals`' list of series (after mass,
-/// HRR, the four gas-analysis channels, the exhaust temperature and the smoke light).
-const FIRST_THERMOCOUPLE: usize = 8;
-
 fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
     let columns = &test.columns;
     let mut wanted = vec![
@@ -113,9 +109,12 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
         (columns.orifice_pressure.as_ref(), Quantity::Pressure),
         (columns.exhaust_temperature.as_ref(), Quantity::Temperature),
         (columns.smoke_light.as_ref(), Quantity::Any),
-        (columns.surface_temperature.as_ref(), Quantity::Temperature),
-        (columns.back_temperature.as_ref(), Quantity::Temperature),
     ];
+    // The instruments' series come first, then the specimen's thermocouples (the series
+    // below leave out the time column).
+    let first_thermocouple = wanted.len() - 1;
+    wanted.push((columns.surface_temperature.as_ref(), Quantity::Temperature));
+    wanted.push((columns.back_temperature.as_ref(), Quantity::Temperature));
     for probe in &columns.in_depth_temperature {
         wanted.push((Some(&probe.column), Quantity::Temperature));
     }
@@ -210,7 +209,7 @@ fn read_signals(test: &TestDescription) -> Result<Signals, DataError> {
     // that comes loose or is logged for part of the test only (a lab's back-face readings
     // that stop at 400 s, say) keeps its own span inside it, missing (NaN) outside, so that it
     // does not cut the mass and HRR records short.
-    let (instruments, thermocouples) = signals.split_at_mut(FIRST_THERMOCOUPLE);
+    let (instruments, thermocouples) = signals.split_at_mut(first_thermocouple);
     let first = (0..time_s.len()).find(|&i| {
         instruments
             .iter()

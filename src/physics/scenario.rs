@@ -175,7 +175,8 @@ pub struct Probe {
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Numerics {
     /// Local error tolerance on cell temperatures, K per step: the step is adapted so the
-    /// estimated local error of the first-order solution stays below it.
+    /// scheme's estimate of its local error stays below it (TR-BDF2's embedded estimate, or
+    /// the difference of the full and the two half steps of extrapolated backward Euler).
     pub temperature_tolerance_k: f64,
     /// Local error tolerance on the mass of a cell, as a fraction of its initial mass.
     pub conversion_tolerance: f64,

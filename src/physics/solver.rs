@@ -33,7 +33,7 @@ use super::kinetics::{
 };
 use super::material::Material;
 use super::output::{CellSnapshot, EnergyBudget, History, MassBudget, Sample, Summary};
-use super::scenario::{BackFace, IgnitionRule, Scenario, STEFAN_BOLTZMANN_W_M2_K4};
+use super::scenario::{BackFace, IgnitionRule, Numerics, Scenario, STEFAN_BOLTZMANN_W_M2_K4};
 use super::PhysicsError;
 
 /// Cells thinner than this use it in their conduction resistance, m; the floor has no heat
@@ -255,6 +255,60 @@ enum Attempt {
         retry_dt_s: f64,
         converged: bool,
     },
+}
+
+/// What the step controller weighs after an attempt: the largest estimated local errors and
+/// the largest changes of a cell in the step.
+struct StepMeasures {
+    temperature_error_k: f64,
+    /// Estimated error of a cell's mass, as a fraction of its initial mass.
+    mass_error: f64,
+    temperature_change_k: f64,
+    /// Largest mass consumed in one cell, as a fraction of its initial mass.
+    conversion: f64,
+}
+
+/// The step controller's decision, shared by both schemes.
+enum StepVerdict {
+    /// An estimate is not finite: the attempt failed.
+    Failed,
+    /// Too large an error or change: retry with this step.
+    Retry { dt_s: f64 },
+    /// Accepted; the next step to try.
+    Accept { next_dt_s: f64 },
+}
+
+/// Compares `measures` with the tolerances and caps of `numerics` for a step of `dt_s`.
+/// `root` undoes the power of Δt the error estimate grows with (`f64::sqrt` for Δt²,
+/// `f64::cbrt` for Δt³); the caps' quantities grow as Δt. The step grows by at most
+/// `MAX_GROWTH`, a retry shrinks it to between `MIN_SHRINK` and `SAFETY` of itself, and no
+/// step leaves [min_step_s, max_step_s]; at the smallest step an attempt is accepted.
+fn judge_step(
+    numerics: &Numerics,
+    measures: &StepMeasures,
+    dt_s: f64,
+    root: fn(f64) -> f64,
+) -> StepVerdict {
+    let error_ratio = (measures.temperature_error_k / numerics.temperature_tolerance_k)
+        .max(measures.mass_error / numerics.conversion_tolerance);
+    let cap_ratio = (measures.temperature_change_k / numerics.max_temperature_change_k)
+        .max(measures.conversion / numerics.max_conversion_per_step);
+    if !error_ratio.is_finite() || !cap_ratio.is_finite() {
+        return StepVerdict::Failed;
+    }
+    let factor = (SAFETY / root(error_ratio))
+        .min(SAFETY / cap_ratio)
+        .min(MAX_GROWTH);
+    if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
+        return StepVerdict::Retry {
+            dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
+        };
+    }
+    StepVerdict::Accept {
+        next_dt_s: (dt_s * factor.max(MIN_SHRINK))
+            .max(numerics.min_step_s)
+            .min(numerics.max_step_s),
+    }
 }
 
 /// What one accepted step contributed.
@@ -630,27 +684,24 @@ impl<'a> Solver<'a> {
                 conversion = conversion.max(consumed / reference);
             }
         }
-        let error_ratio = (temperature_error / numerics.temperature_tolerance_k)
-            .max(mass_error / numerics.conversion_tolerance);
-        let cap_ratio = (temperature_change / numerics.max_temperature_change_k)
-            .max(conversion / numerics.max_conversion_per_step);
-        if !error_ratio.is_finite() || !cap_ratio.is_finite() {
-            return failed;
-        }
+        let measures = StepMeasures {
+            temperature_error_k: temperature_error,
+            mass_error,
+            temperature_change_k: temperature_change,
+            conversion,
+        };
         // The error of backward Euler over a step grows as Δt², the caps' quantities as Δt.
-        let factor = (SAFETY / error_ratio.sqrt())
-            .min(SAFETY / cap_ratio)
-            .min(MAX_GROWTH);
-        if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
-            self.flash_dt_s = self.flash_step(work, dt_s);
-            return Attempt::Rejected {
-                retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
-                converged: true,
-            };
+        match judge_step(&numerics, &measures, dt_s, f64::sqrt) {
+            StepVerdict::Failed => return failed,
+            StepVerdict::Retry { dt_s: retry_dt_s } => {
+                self.flash_dt_s = self.flash_step(work, dt_s);
+                return Attempt::Rejected {
+                    retry_dt_s,
+                    converged: true,
+                };
+            }
+            StepVerdict::Accept { next_dt_s } => self.dt_s = next_dt_s,
         }
-        self.dt_s = (dt_s * factor.max(MIN_SHRINK))
-            .max(numerics.min_step_s)
-            .min(numerics.max_step_s);
         self.flash_dt_s = self.flash_step(work, dt_s);
         // Richardson extrapolation y_h + θ·(y_h − y_full), θ = 1 (second order) unless that
         // would make a mass or a consumption negative (a reactant used up within the step):
@@ -956,30 +1007,31 @@ impl<'a> Solver<'a> {
             mass_error = mass_error.max(difference / reference);
             conversion = conversion.max(consumed_total / reference);
         }
-        let error_ratio = (temperature_error / numerics.temperature_tolerance_k)
-            .max(mass_error / numerics.conversion_tolerance);
-        let cap_ratio = (temperature_change / numerics.max_temperature_change_k)
-            .max(conversion / numerics.max_conversion_per_step);
-        if !error_ratio.is_finite() || !cap_ratio.is_finite() {
-            return failed;
-        }
+        let measures = StepMeasures {
+            temperature_error_k: temperature_error,
+            mass_error,
+            temperature_change_k: temperature_change,
+            conversion,
+        };
         // The local error of a second-order step grows as Δt³, the caps' quantities as Δt.
-        let mut factor = (SAFETY / error_ratio.cbrt())
-            .min(SAFETY / cap_ratio)
-            .min(MAX_GROWTH);
-        if (error_ratio > 1.0 || cap_ratio > 1.0) && dt_s > numerics.min_step_s {
-            self.after_rejection = true;
-            return Attempt::Rejected {
-                retry_dt_s: dt_s * factor.clamp(MIN_SHRINK, SAFETY),
-                converged: true,
-            };
+        match judge_step(&numerics, &measures, dt_s, f64::cbrt) {
+            StepVerdict::Failed => return failed,
+            StepVerdict::Retry { dt_s: retry_dt_s } => {
+                self.after_rejection = true;
+                return Attempt::Rejected {
+                    retry_dt_s,
+                    converged: true,
+                };
+            }
+            // Right after a rejection the step may not grow.
+            StepVerdict::Accept { next_dt_s } => {
+                self.dt_s = if std::mem::take(&mut self.after_rejection) {
+                    next_dt_s.min(dt_s.max(numerics.min_step_s).min(numerics.max_step_s))
+                } else {
+                    next_dt_s
+                };
+            }
         }
-        if std::mem::take(&mut self.after_rejection) {
-            factor = factor.min(1.0);
-        }
-        self.dt_s = (dt_s * factor.max(MIN_SHRINK))
-            .max(numerics.min_step_s)
-            .min(numerics.max_step_s);
         work.next_ready = true;
         let mut result = self.step_result(work, budget);
         result.fuel_rates = Some(fuel_rates);

@@ -565,6 +565,65 @@ fn a_messy_lab_file_reads_and_every_repair_is_reported() {
     std::fs::remove_dir_all(&dir).ok();
 }
 
+/// A thermocouple that stops logging half-way (it came loose, or the lab logged it for part of
+/// the test) keeps its own span and does not shorten the mass and HRR records: 40 rows of
+/// straight-line mass loss (1.4 g per 10 s, so MLR = 14 g/(m²·s) on 0.01 m², worked by hand)
+/// and a back-face reading on rows 0–19 with one gap at row 5, filled on the line between its
+/// neighbours. A thermocouple column with no value at all is ignored, with a notice.
+#[test]
+fn a_thermocouple_that_stops_early_keeps_its_own_span() {
+    let dir = scratch_dir("thermocouple-span");
+    let mut csv = String::from("time,mass,hrr,back,dead\ns,g,kW/m2,K,K\n");
+    for i in 0..40 {
+        let back = match i {
+            5 => String::new(),
+            0..=19 => format!("{}", 300.0 + 2.0 * i as f64),
+            _ => String::new(),
+        };
+        csv.push_str(&format!(
+            "{},{},150,{back},\n",
+            10 * i,
+            60.0 - 1.4 * i as f64
+        ));
+    }
+    std::fs::write(dir.join("loose.csv"), csv).unwrap();
+    let description = dir.join("loose.toml");
+    std::fs::write(
+        &description,
+        "data_file = \"loose.csv\"\nirradiance_kw_m2 = 35.0\nexposed_area_m2 = 0.01\n\n\
+         [columns]\ntime = \"time\"\nmass = \"mass\"\nhrr = \"hrr\"\nback_temperature = \"back\"\n\
+         surface_temperature = \"dead\"\n",
+    )
+    .unwrap();
+    let reduced = reduce(&TestDescription::load(&description).unwrap()).unwrap();
+    let messages: Vec<&str> = reduced.notices.iter().map(|n| n.message.as_str()).collect();
+    assert_eq!(reduced.time_s.len(), 40, "{messages:?}");
+    assert_eq!(reduced.time_s[39], 390.0);
+    let back = reduced
+        .back_temperature_k
+        .as_ref()
+        .expect("back temperature");
+    assert!((back[5] - 310.0).abs() < 1e-9, "gap filled: {}", back[5]);
+    assert!((back[19] - 338.0).abs() < 1e-9);
+    assert!(back[20..].iter().all(|v| v.is_nan()), "{:?}", &back[20..]);
+    assert!(
+        messages
+            .iter()
+            .any(|m| m.contains("`back` has values from 0 s to 190 s only")),
+        "{messages:?}"
+    );
+    assert!(reduced.surface_temperature_k.is_none());
+    assert!(
+        messages
+            .iter()
+            .any(|m| m.contains("`dead` has no value") && m.contains("ignored")),
+        "{messages:?}"
+    );
+    let mlr = reduced.mlr_g_m2s.as_ref().unwrap();
+    assert!((mlr[30] - 14.0).abs() < 1e-6, "{}", mlr[30]);
+    std::fs::remove_dir_all(&dir).ok();
+}
+
 /// The milligram-scale files of the MaCFP PMMA set (TGA, DSC, MCC; see its PROVENANCE.md) read
 /// with the generic column reader, by the column names tests.toml lists. As a check that the
 /// numbers are read right, not just read: the TGA mass-loss-rate peak at 10 K/min lies at
